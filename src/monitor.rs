@@ -1,0 +1,198 @@
+//! The one convergence monitor every driver shares.
+//!
+//! A driver hands the monitor `r·r` (which the fused kernels compute anyway) after each
+//! iteration; the monitor takes `‖r‖₂ = √(r·r)` from it (never a second pass over `r`), keeps the
+//! history, calls the caller's observer, and asks the stopping rule whether to stop.
+
+use std::time::Instant;
+
+use crate::solve::Report;
+use crate::stop::{Progress, StopReason, StopRule};
+use crate::{to_f64, Scalar};
+
+/// Most history entries reserved up front (more are still recorded, with a reallocation).
+const HISTORY_RESERVE_CAP: usize = 1 << 20;
+
+/// Tracks a solve: iteration count, residual history, timing, observer and stopping rule.
+///
+/// Drivers in this crate use it internally; it is public so that a solver written outside the
+/// crate can report in the same way.
+///
+/// # Example
+///
+/// A hand-written Richardson iteration `x ← x + τ·r`, monitored like the built-in drivers.
+///
+/// ```
+/// use quintet::{Monitor, Tolerances};
+///
+/// let (a, b, tau) = (4.0_f64, 2.0_f64, 0.2_f64);
+/// let mut x = 0.0;
+/// let mut history = Vec::new();
+/// let rule = Tolerances::default();
+/// let mut observer = |_: &quintet::Progress<'_>| {};
+/// let r0 = b - a * x;
+/// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, b * b, r0 * r0);
+/// let reason = loop {
+///     let r = b - a * x;
+///     x += tau * r;
+///     let r_new = b - a * x;
+///     if let Some(reason) = monitor.record(r_new * r_new, Some((tau * r).abs())) {
+///         break reason;
+///     }
+/// };
+/// let report = monitor.finish("Richardson".to_string(), reason);
+/// assert!(report.converged());
+/// assert!((x - 0.5).abs() < 1e-8);
+/// ```
+pub struct Monitor<'a> {
+    rule: &'a dyn StopRule,
+    history: &'a mut Vec<f64>,
+    observer: &'a mut dyn FnMut(&Progress<'_>),
+    initial: f64,
+    rhs_norm: f64,
+    iteration: usize,
+    change: Option<f64>,
+    start: Instant,
+}
+
+impl<'a> Monitor<'a> {
+    /// Start monitoring: `rhs_sq = b·b` and `rr = r₀·r₀` of the initial guess. Clears
+    /// `history`, reserves room for the rule's iteration bound, records the initial residual
+    /// and calls the observer for iteration 0.
+    pub fn start<T: Scalar>(
+        rule: &'a dyn StopRule,
+        history: &'a mut Vec<f64>,
+        observer: &'a mut dyn FnMut(&Progress<'_>),
+        rhs_sq: T,
+        rr: T,
+    ) -> Monitor<'a> {
+        history.clear();
+        let want = rule
+            .iteration_bound()
+            .map_or(1024, |b| b.saturating_add(1))
+            .min(HISTORY_RESERVE_CAP);
+        history.reserve(want);
+        let initial = sqrt_f64(rr);
+        history.push(initial);
+        let mut monitor = Monitor {
+            rule,
+            history,
+            observer,
+            initial,
+            rhs_norm: sqrt_f64(rhs_sq),
+            iteration: 0,
+            change: None,
+            start: Instant::now(),
+        };
+        monitor.notify();
+        monitor
+    }
+
+    /// Ask the rule about the current state (the initial one right after [`Monitor::start`]).
+    /// A non-finite residual always stops.
+    pub fn check(&self) -> Option<StopReason> {
+        let progress = self.progress();
+        if !progress.residual_norm.is_finite() {
+            return Some(StopReason::NonFinite);
+        }
+        if progress.residual_norm == 0.0 {
+            return Some(StopReason::ExactSolution);
+        }
+        self.rule.check(&progress)
+    }
+
+    /// Record one more iteration with its `r·r` and largest solution change, call the
+    /// observer, and ask the rule.
+    pub fn record<T: Scalar>(&mut self, rr: T, change: Option<T>) -> Option<StopReason> {
+        self.iteration += 1;
+        self.change = change.map(to_f64);
+        self.history.push(sqrt_f64(rr));
+        self.notify();
+        self.check()
+    }
+
+    /// Replace the current iteration's residual with the true one (`rr = r·r` of `b − A·x`)
+    /// and ask the rule again.
+    pub fn revise<T: Scalar>(&mut self, rr: T) -> Option<StopReason> {
+        self.set_residual(rr);
+        self.check()
+    }
+
+    /// Replace the current iteration's residual with the true one, without asking the rule.
+    pub fn set_residual<T: Scalar>(&mut self, rr: T) {
+        if let Some(last) = self.history.last_mut() {
+            *last = sqrt_f64(rr);
+        }
+    }
+
+    /// Iterations recorded so far.
+    pub fn iteration(&self) -> usize {
+        self.iteration
+    }
+
+    /// The current `‖r‖₂`.
+    pub fn residual_norm(&self) -> f64 {
+        self.history.last().copied().unwrap_or(f64::NAN)
+    }
+
+    /// Stop monitoring and build the report, with `reason` as the reason.
+    pub fn finish(self, method: String, reason: StopReason) -> Report {
+        Report {
+            method,
+            reason,
+            iterations: self.iteration,
+            residual_norm: self.residual_norm(),
+            initial_residual_norm: self.initial,
+            rhs_norm: self.rhs_norm,
+            history: self.history.clone(),
+            elapsed: self.start.elapsed(),
+        }
+    }
+
+    fn progress(&self) -> Progress<'_> {
+        progress(
+            self.iteration,
+            self.history,
+            self.initial,
+            self.rhs_norm,
+            self.change,
+            self.start,
+        )
+    }
+
+    fn notify(&mut self) {
+        let now = progress(
+            self.iteration,
+            self.history,
+            self.initial,
+            self.rhs_norm,
+            self.change,
+            self.start,
+        );
+        (self.observer)(&now);
+    }
+}
+
+fn progress(
+    iteration: usize,
+    history: &[f64],
+    initial: f64,
+    rhs_norm: f64,
+    change: Option<f64>,
+    start: Instant,
+) -> Progress<'_> {
+    Progress {
+        iteration,
+        residual_norm: history.last().copied().unwrap_or(f64::NAN),
+        initial_residual_norm: initial,
+        rhs_norm,
+        solution_change: change,
+        history,
+        elapsed: start.elapsed(),
+    }
+}
+
+/// `√(r·r)` in `f64`.
+fn sqrt_f64<T: Scalar>(rr: T) -> f64 {
+    to_f64(rr).sqrt()
+}

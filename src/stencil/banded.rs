@@ -1,0 +1,315 @@
+//! `Banded5`: a 5-point operator stored as five owned coefficient arrays.
+
+use std::ops::Range;
+
+use super::{
+    check_grid, check_len, row_neighbourhood, row_product, survey, Coeffs5, FixedCells, Stencil5,
+};
+use crate::{Error, Grid, Scalar};
+
+/// A 5-point operator stored as five coefficient arrays (center, west, east, south, north), one
+/// entry per cell in grid order. Validated on construction: every coefficient finite and every
+/// coupling towards a missing neighbour zero.
+///
+/// # Example
+///
+/// ```
+/// use quintet::prelude::*;
+///
+/// // Steady conduction in a 50 x 40 plate with unit conductance between cells.
+/// let grid = Grid::new(50, 40)?;
+/// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+/// assert_eq!(op.center()[0], 4.0);
+/// assert_eq!(op.west()[0], 0.0);
+/// # Ok::<(), quintet::Error>(())
+/// ```
+#[derive(Clone, Debug, PartialEq)]
+pub struct Banded5<T> {
+    grid: Grid,
+    center: Vec<T>,
+    west: Vec<T>,
+    east: Vec<T>,
+    south: Vec<T>,
+    north: Vec<T>,
+    fixed: Option<FixedCells>,
+    first_nonpositive: Option<(usize, T)>,
+}
+
+impl<T: Scalar> Banded5<T> {
+    /// An operator from five arrays of `grid.cells()` entries each.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::LengthMismatch`] naming the array of the wrong length, [`Error::NonFinite`]
+    /// naming the first non-finite coefficient, [`Error::OffGridCoupling`] naming the first
+    /// edge cell with a coupling towards a missing neighbour.
+    ///
+    /// ```
+    /// use quintet::{Banded5, Grid};
+    /// let grid = Grid::new(2, 1)?;
+    /// let op = Banded5::new(grid, vec![2.0, 2.0], vec![0.0, -1.0], vec![-1.0, 0.0], vec![0.0; 2], vec![0.0; 2])?;
+    /// assert_eq!(op.east(), &[-1.0, 0.0]);
+    /// assert!(Banded5::new(grid, vec![2.0], vec![0.0; 2], vec![0.0; 2], vec![0.0; 2], vec![0.0; 2]).is_err());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn new(
+        grid: Grid,
+        center: Vec<T>,
+        west: Vec<T>,
+        east: Vec<T>,
+        south: Vec<T>,
+        north: Vec<T>,
+    ) -> Result<Banded5<T>, Error> {
+        let n = grid.cells();
+        check_len("center coefficients", n, center.len())?;
+        check_len("west coefficients", n, west.len())?;
+        check_len("east coefficients", n, east.len())?;
+        check_len("south coefficients", n, south.len())?;
+        check_len("north coefficients", n, north.len())?;
+        let mut op = Banded5 {
+            grid,
+            center,
+            west,
+            east,
+            south,
+            north,
+            fixed: None,
+            first_nonpositive: None,
+        };
+        op.resurvey()?;
+        Ok(op)
+    }
+
+    /// An operator whose row `(i, j)` is `f(i, j)`, evaluated once per cell in grid order.
+    ///
+    /// # Errors
+    ///
+    /// As for [`Banded5::new`].
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(10, 10)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// assert_eq!(op.grid(), grid);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn from_fn(
+        grid: Grid,
+        mut f: impl FnMut(usize, usize) -> Coeffs5<T>,
+    ) -> Result<Banded5<T>, Error> {
+        let n = grid.cells();
+        let mut bands: [Vec<T>; 5] = std::array::from_fn(|_| Vec::with_capacity(n));
+        for k in 0..n {
+            let (i, j) = grid.coords(k);
+            let c = f(i, j);
+            for (band, v) in bands
+                .iter_mut()
+                .zip([c.center, c.west, c.east, c.south, c.north])
+            {
+                band.push(v);
+            }
+        }
+        let [center, west, east, south, north] = bands;
+        Banded5::new(grid, center, west, east, south, north)
+    }
+
+    /// An operator from the finite-volume form `a_P·φ_P = a_W·φ_W + a_E·φ_E + a_S·φ_S +
+    /// a_N·φ_N + b`, whose neighbour coefficients are positive for diffusion. The result is
+    /// `center = a_P`, `west = −a_W`, `east = −a_E`, `south = −a_S`, `north = −a_N`; the
+    /// source `b` is the right-hand side unchanged.
+    ///
+    /// # Errors
+    ///
+    /// As for [`Banded5::new`].
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(2, 1)?;
+    /// // Two cells joined by a conductance of 3, each also tied to a fixed-value boundary by 1.
+    /// let op = Banded5::from_finite_volume(
+    ///     grid, vec![4.0, 4.0], vec![0.0, 3.0], vec![3.0, 0.0], vec![0.0; 2], vec![0.0; 2])?;
+    /// assert_eq!(op.east(), &[-3.0, 0.0]);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn from_finite_volume(
+        grid: Grid,
+        a_p: Vec<T>,
+        mut a_w: Vec<T>,
+        mut a_e: Vec<T>,
+        mut a_s: Vec<T>,
+        mut a_n: Vec<T>,
+    ) -> Result<Banded5<T>, Error> {
+        for band in [&mut a_w, &mut a_e, &mut a_s, &mut a_n] {
+            band.iter_mut().for_each(|v| *v = -*v);
+        }
+        Banded5::new(grid, a_p, a_w, a_e, a_s, a_n)
+    }
+
+    /// The same operator with the cells of `fixed` held at the values the caller puts in `x`.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::GridMismatch`] if `fixed` was built for another grid.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(5, 5)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?
+    ///     .with_fixed(FixedCells::new(grid, grid.edge_cells())?)?;
+    /// assert_eq!(op.fixed_cells().map(|f| f.len()), Some(16));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn with_fixed(mut self, fixed: FixedCells) -> Result<Banded5<T>, Error> {
+        check_grid(self.grid, fixed.grid())?;
+        self.fixed = Some(fixed);
+        self.resurvey()?;
+        Ok(self)
+    }
+
+    /// Center (diagonal) coefficients.
+    ///
+    /// ```
+    /// # use quintet::prelude::*;
+    /// # let grid = Grid::new(2, 2)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// assert_eq!(op.center(), &[4.0; 4]);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn center(&self) -> &[T] {
+        &self.center
+    }
+
+    /// Couplings towards the west neighbour.
+    ///
+    /// ```
+    /// # use quintet::prelude::*;
+    /// # let grid = Grid::new(2, 1)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// assert_eq!(op.west(), &[0.0, -1.0]);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn west(&self) -> &[T] {
+        &self.west
+    }
+
+    /// Couplings towards the east neighbour.
+    ///
+    /// ```
+    /// # use quintet::prelude::*;
+    /// # let grid = Grid::new(2, 1)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// assert_eq!(op.east(), &[-1.0, 0.0]);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn east(&self) -> &[T] {
+        &self.east
+    }
+
+    /// Couplings towards the south neighbour.
+    ///
+    /// ```
+    /// # use quintet::prelude::*;
+    /// # let grid = Grid::new(1, 2)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// assert_eq!(op.south(), &[0.0, -1.0]);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn south(&self) -> &[T] {
+        &self.south
+    }
+
+    /// Couplings towards the north neighbour.
+    ///
+    /// ```
+    /// # use quintet::prelude::*;
+    /// # let grid = Grid::new(1, 2)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// assert_eq!(op.north(), &[-1.0, 0.0]);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn north(&self) -> &[T] {
+        &self.north
+    }
+
+    /// Take the five arrays back, in the order center, west, east, south, north (to modify
+    /// them and rebuild with [`Banded5::new`]).
+    ///
+    /// ```
+    /// # use quintet::prelude::*;
+    /// # let grid = Grid::new(2, 1)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let [mut center, west, east, south, north] = op.into_bands();
+    /// center[0] += 1.0;
+    /// let op = Banded5::new(grid, center, west, east, south, north)?;
+    /// assert_eq!(op.center(), &[5.0, 4.0]);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn into_bands(self) -> [Vec<T>; 5] {
+        [self.center, self.west, self.east, self.south, self.north]
+    }
+
+    fn resurvey(&mut self) -> Result<(), Error> {
+        let found = survey(self.grid, self.fixed.as_ref(), |i, j| self.coeffs(i, j))?;
+        self.first_nonpositive = found.first_nonpositive.map(|(k, _)| (k, self.center[k]));
+        Ok(())
+    }
+}
+
+impl<T: Scalar> Stencil5<T> for Banded5<T> {
+    fn grid(&self) -> Grid {
+        self.grid
+    }
+
+    #[inline]
+    fn coeffs(&self, i: usize, j: usize) -> Coeffs5<T> {
+        let k = self.grid.index(i, j);
+        Coeffs5 {
+            center: self.center[k],
+            west: self.west[k],
+            east: self.east[k],
+            south: self.south[k],
+            north: self.north[k],
+        }
+    }
+
+    fn fixed_cells(&self) -> Option<&FixedCells> {
+        self.fixed.as_ref()
+    }
+
+    fn apply_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
+        let (nx, ny) = (self.grid.nx(), self.grid.ny());
+        for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
+            let cells = j * nx..(j + 1) * nx;
+            let (c, w, e) = (
+                &self.center[cells.clone()],
+                &self.west[cells.clone()],
+                &self.east[cells.clone()],
+            );
+            let (s, n) = (&self.south[cells.clone()], &self.north[cells]);
+            let (south, row, north) = row_neighbourhood(x, nx, ny, j);
+            row_product(
+                |i| Coeffs5 {
+                    center: c[i],
+                    west: w[i],
+                    east: e[i],
+                    south: s[i],
+                    north: n[i],
+                },
+                south,
+                row,
+                north,
+                y_row,
+            );
+        }
+    }
+
+    fn first_nonpositive_center(&self) -> Option<(usize, T)> {
+        self.first_nonpositive
+    }
+
+    fn diagonal(&self, d: &mut [T]) -> Result<(), Error> {
+        check_len("diagonal", self.grid.cells(), d.len())?;
+        d.copy_from_slice(&self.center);
+        Ok(())
+    }
+}

@@ -1,0 +1,119 @@
+//! Checks on an operator's coefficients that name the offending cell.
+
+use super::{Coeffs5, FixedCells, Stencil5};
+use crate::{is_positive, to_f64, Error, Grid, Scalar, Side};
+
+/// What a full pass over the coefficients found (when no check failed).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(crate) struct Survey {
+    /// First free cell whose center is not positive, with its value.
+    pub first_nonpositive: Option<(usize, f64)>,
+}
+
+/// One pass over every cell: every coefficient finite, no coupling off the grid, and the first
+/// free cell with a non-positive center remembered (whether that is an error depends on the
+/// method, so it is not one here).
+pub(crate) fn survey<T: Scalar>(
+    grid: Grid,
+    fixed: Option<&FixedCells>,
+    coeffs: impl Fn(usize, usize) -> Coeffs5<T>,
+) -> Result<Survey, Error> {
+    let mut first_nonpositive = None;
+    for k in 0..grid.cells() {
+        let (i, j) = grid.coords(k);
+        let c = coeffs(i, j);
+        let named = [
+            ("center coefficient", c.center),
+            ("west coefficient", c.west),
+            ("east coefficient", c.east),
+            ("south coefficient", c.south),
+            ("north coefficient", c.north),
+        ];
+        if let Some(&(what, _)) = named.iter().find(|(_, v)| !v.is_finite()) {
+            return Err(Error::NonFinite {
+                what,
+                cell: k,
+                i,
+                j,
+            });
+        }
+        for side in Side::ALL {
+            let value = c.towards(side);
+            if grid.neighbour(k, side).is_none() && value != T::zero() {
+                return Err(Error::OffGridCoupling {
+                    cell: k,
+                    i,
+                    j,
+                    side,
+                    value: to_f64(value),
+                });
+            }
+        }
+        let free = !fixed.is_some_and(|f| f.contains(k));
+        if free && first_nonpositive.is_none() && !is_positive(c.center) {
+            first_nonpositive = Some((k, to_f64(c.center)));
+        }
+    }
+    Ok(Survey { first_nonpositive })
+}
+
+/// Check that the system the Krylov drivers see (free cells, couplings to fixed cells
+/// removed) is symmetric: for every pair of free neighbours, the coupling each way agrees to
+/// within `rel_tol · max(|a|, |b|)`.
+///
+/// # Errors
+///
+/// [`Error::Asymmetric`] naming the first pair (in increasing cell order) that disagrees, and
+/// [`Error::InvalidSetting`] if `rel_tol` is negative or not finite.
+///
+/// # Example
+///
+/// ```
+/// use quintet::prelude::*;
+///
+/// let grid = Grid::new(3, 1)?;
+/// let op = Banded5::from_fn(grid, |i, _| Coeffs5 {
+///     center: 2.0,
+///     west: if i > 0 { -1.0 } else { 0.0 },
+///     east: if i == 0 { -0.5 } else if i == 1 { -1.0 } else { 0.0 },
+///     ..Coeffs5::default()
+/// })?;
+/// let err = check_symmetry(&op, 1e-12).unwrap_err();
+/// assert!(matches!(err, Error::Asymmetric { cell: 0, neighbour: 1, .. }));
+/// # Ok::<(), quintet::Error>(())
+/// ```
+pub fn check_symmetry<T: Scalar, S: Stencil5<T> + ?Sized>(
+    op: &S,
+    rel_tol: f64,
+) -> Result<(), Error> {
+    if !(rel_tol >= 0.0 && rel_tol.is_finite()) {
+        return Err(Error::InvalidSetting {
+            name: "rel_tol",
+            value: rel_tol,
+            allowed: "a finite value >= 0",
+        });
+    }
+    let grid = op.grid();
+    for k in 0..grid.cells() {
+        let (i, j) = grid.coords(k);
+        let here = op.eliminated_coeffs(i, j);
+        for side in [Side::East, Side::North] {
+            let Some(n) = grid.neighbour(k, side) else {
+                continue;
+            };
+            let (ni, nj) = grid.coords(n);
+            let there = op.eliminated_coeffs(ni, nj);
+            let a = to_f64(here.towards(side));
+            let b = to_f64(there.towards(side.opposite()));
+            if (a - b).abs() > rel_tol * a.abs().max(b.abs()) {
+                return Err(Error::Asymmetric {
+                    cell: k,
+                    neighbour: n,
+                    forward: a,
+                    backward: b,
+                });
+            }
+        }
+    }
+    Ok(())
+}
