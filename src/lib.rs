@@ -95,7 +95,10 @@ pub mod stop;
 pub use error::Error;
 pub use grid::{Grid, Side};
 pub use monitor::Monitor;
-pub use precond::{Identity, Jacobi, Preconditioner};
+pub use precond::{
+    FactorSettings, Identity, IncompleteCholesky, Jacobi, Multigrid, MultigridSettings,
+    Preconditioner, Sip, SipSettings, Ssor, WeakPivot,
+};
 pub use solve::{
     estimate_relaxation, Cg, IterativeSolver, Pcg, RelaxationEstimate, Report, SolveOptions, Sor,
     SteepestDescent, SweepOrder, Workspace,
@@ -137,9 +140,10 @@ pub(crate) fn to_f64<T: Scalar>(v: T) -> f64 {
 pub mod prelude {
     pub use crate::{
         check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, Coeffs5, Error,
-        FixedCells, Grid, Identity, IterativeSolver, Jacobi, Pcg, Preconditioner, Progress, Report,
-        Side, SolveOptions, Sor, SteepestDescent, Stencil5, StopReason, StopRule, SweepOrder,
-        Tolerances, Workspace,
+        FactorSettings, FixedCells, Grid, Identity, IncompleteCholesky, IterativeSolver, Jacobi,
+        Multigrid, MultigridSettings, Pcg, Preconditioner, Progress, Report, Side, Sip,
+        SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule,
+        SweepOrder, Tolerances, WeakPivot, Workspace,
     };
 }
 

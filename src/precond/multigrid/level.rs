@@ -1,0 +1,423 @@
+//! One level of the hierarchy: the 5-point operator of a coarse grid, built from the next finer
+//! level's coefficients, and the grid transfers between the two.
+//!
+//! **Coarse operator.** Cells are aggregated 2 × 2 (1-wide aggregates at the far edge of an
+//! odd side). With `P₀` the piecewise-constant prolongation of the aggregates,
+//! `A_c = ½·P₀ᵀ·A·P₀` over the active (free) cells: each coarse coupling is half the sum of the
+//! fine couplings across the coarse face, each coarse center half the sum of the aggregate's
+//! centers and of twice its internal couplings. This is again a 5-point operator, symmetric
+//! when `A` is, and an M-matrix when `A` is one; for the diffusion part of a homogeneous medium
+//! it is exactly the rediscretised operator on the coarse grid (the Galerkin product with
+//! piecewise constants is twice too stiff there, which is the factor ½). It sums conductances
+//! across coarse faces, so it follows the user's jumping coefficients instead of assuming a
+//! Poisson operator.
+//!
+//! **Transfers.** Prolongation `P` is bilinear interpolation between coarse cell centres
+//! (weights 9/16, 3/16, 3/16, 1/16 in the interior of a regular grid), with constant
+//! extrapolation at the grid edges so that `P` reproduces constants; restriction is its
+//! transpose `Pᵀ`. Inactive cells (fixed cells, and coarse cells whose whole aggregate is
+//! fixed) are left out of both, so the V-cycle stays symmetric.
+
+use crate::precond::factor::{eliminated_row, lit};
+use crate::stencil::Stencil5;
+use crate::{Coeffs5, Error, FixedCells, Grid, Scalar};
+
+/// A source of eliminated rows: the fine operator or a coarse level.
+pub(crate) trait Rows<T: Scalar> {
+    fn grid(&self) -> Grid;
+    /// The eliminated row of cell `(i, j)`, `k = i + nx·j`.
+    fn row(&self, i: usize, j: usize, k: usize) -> Coeffs5<T>;
+    /// Whether cell `k` is an unknown (false for fixed cells and identity rows).
+    fn active(&self, k: usize) -> bool;
+}
+
+/// The user's operator, seen through its eliminated rows.
+pub(crate) struct FineRows<'a, S: ?Sized> {
+    pub(crate) op: &'a S,
+    pub(crate) fixed: Option<&'a FixedCells>,
+    pub(crate) nx: usize,
+    pub(crate) ny: usize,
+}
+
+impl<T: Scalar, S: Stencil5<T> + ?Sized> Rows<T> for FineRows<'_, S> {
+    fn grid(&self) -> Grid {
+        self.op.grid()
+    }
+    #[inline]
+    fn row(&self, i: usize, j: usize, _k: usize) -> Coeffs5<T> {
+        eliminated_row(self.op, self.fixed, self.nx, self.ny, i, j)
+    }
+    #[inline]
+    fn active(&self, k: usize) -> bool {
+        !self.fixed.is_some_and(|f| f.contains(k))
+    }
+}
+
+/// A coarse 5-point operator, stored as five arrays, with its active-cell mask.
+#[derive(Clone, Debug)]
+pub(crate) struct CoarseOperator<T> {
+    pub(crate) grid: Grid,
+    pub(crate) rows: Vec<Coeffs5<T>>,
+    pub(crate) active: Vec<bool>,
+}
+
+impl<T: Scalar> Rows<T> for CoarseOperator<T> {
+    fn grid(&self) -> Grid {
+        self.grid
+    }
+    #[inline]
+    fn row(&self, _i: usize, _j: usize, k: usize) -> Coeffs5<T> {
+        self.rows[k]
+    }
+    #[inline]
+    fn active(&self, k: usize) -> bool {
+        self.active[k]
+    }
+}
+
+/// Coarse-cell geometry along one axis: fine index → (parent, neighbour) aggregates, and
+/// whether the fine cell has a sibling in its aggregate.
+#[derive(Clone, Debug)]
+struct Axis {
+    parent: Vec<usize>,
+    neighbour: Vec<usize>,
+}
+
+impl Axis {
+    /// For a fine axis of `n` cells: the left cell of a pair looks towards the previous
+    /// aggregate, the right one towards the next; a 1-wide aggregate (last cell of an odd
+    /// axis) and the cells at the ends have no neighbour (`neighbour == parent`).
+    fn new(n: usize) -> Axis {
+        let nc = n.div_ceil(2);
+        let (mut parent, mut neighbour) = (Vec::with_capacity(n), Vec::with_capacity(n));
+        for i in 0..n {
+            let p = i / 2;
+            let paired = 2 * p + 1 < n;
+            let q = if !paired {
+                p
+            } else if i % 2 == 0 {
+                p.saturating_sub(1)
+            } else if p + 1 < nc {
+                p + 1
+            } else {
+                p
+            };
+            parent.push(p);
+            neighbour.push(q);
+        }
+        Axis { parent, neighbour }
+    }
+}
+
+/// Conductance of a coupling (zero for a non-negative one: only diffusion couplings count).
+#[inline]
+fn conductance<T: Scalar>(coupling: T) -> T {
+    if coupling < T::zero() {
+        -coupling
+    } else {
+        T::zero()
+    }
+}
+
+/// The path from one coarse centre to the next along a line of fine cells: half-cell
+/// conductance `g1` (None: the fine cell is the coarse centre), face conductance `gf`, half-cell
+/// conductance `g2` on the far side. Returns the share `w` of the far centre in the
+/// linear (flux-continuous) profile at the near fine cell, and the series conductance `G` of
+/// the whole path.
+#[inline]
+fn series<T: Scalar>(g1: Option<T>, gf: T, g2: Option<T>) -> (T, T) {
+    let zero = T::zero();
+    match (g1, g2) {
+        (None, None) => (zero, gf),
+        (None, Some(b)) => (zero, ratio(gf * b, gf + b)),
+        (Some(a), None) => (ratio(gf, gf + a), ratio(a * gf, a + gf)),
+        (Some(a), Some(b)) => {
+            let den = gf * b + a * b + a * gf;
+            (ratio(gf * b, den), ratio(a * gf * b, den))
+        }
+    }
+}
+
+/// `num / den`, zero when `den` is not positive.
+#[inline]
+fn ratio<T: Scalar>(num: T, den: T) -> T {
+    if den > T::zero() {
+        num / den
+    } else {
+        T::zero()
+    }
+}
+
+/// A coarse level: operator, transfers from the next finer grid, and its vectors.
+#[derive(Clone, Debug)]
+pub(crate) struct Level<T> {
+    pub(crate) op: CoarseOperator<T>,
+    ax: Axis,
+    ay: Axis,
+    /// Per fine cell: weight of the neighbouring aggregate in the east-west direction.
+    wx: Vec<T>,
+    /// Per fine cell: weight of the neighbouring aggregate in the south-north direction.
+    wy: Vec<T>,
+    /// Correction being computed on this level.
+    pub(crate) x: Vec<T>,
+    /// Restricted residual (right-hand side of this level).
+    pub(crate) b: Vec<T>,
+    /// Residual scratch.
+    pub(crate) r: Vec<T>,
+}
+
+impl<T: Scalar> Level<T> {
+    /// The level below `fine` (see the module notes).
+    ///
+    /// # Errors
+    ///
+    /// [`Error::PivotBreakdown`] naming the first fine cell of an aggregate whose coarse center
+    /// comes out non-positive or not finite.
+    pub(crate) fn below<R: Rows<T>>(fine: &R) -> Result<Level<T>, Error> {
+        let g = fine.grid();
+        let (nx, ny, n) = (g.nx(), g.ny(), g.cells());
+        let (ncx, ncy) = (nx.div_ceil(2), ny.div_ceil(2));
+        let grid = Grid::new(ncx, ncy)?;
+        let nc = grid.cells();
+        let (ax, ay) = (Axis::new(nx), Axis::new(ny));
+        let two: T = lit(2.0);
+        let half: T = lit(0.5);
+        // Conductances towards east and north, and row-sum excess, of every fine cell.
+        let mut east = vec![T::zero(); n];
+        let mut north = vec![T::zero(); n];
+        let mut excess = vec![T::zero(); n];
+        for j in 0..ny {
+            for i in 0..nx {
+                let k = i + nx * j;
+                if !fine.active(k) {
+                    continue;
+                }
+                let c = fine.row(i, j, k);
+                east[k] = conductance(c.east);
+                north[k] = conductance(c.north);
+                let sum = c.center + c.west + c.east + c.south + c.north;
+                excess[k] = if sum > T::zero() { sum } else { T::zero() };
+            }
+        }
+        // Half-cell conductance from a fine cell to its aggregate's centre along x (None: the
+        // aggregate is one active cell wide there, so the cell is the centre).
+        let half_x = |i: usize, j: usize| -> Option<T> {
+            let k = i + nx * j;
+            let sib = if i % 2 == 0 { i + 1 } else { i - 1 };
+            if sib >= nx || !fine.active(sib + nx * j) {
+                return None;
+            }
+            Some(two * east[k.min(sib + nx * j)])
+        };
+        let half_y = |i: usize, j: usize| -> Option<T> {
+            let k = i + nx * j;
+            let sib = if j % 2 == 0 { j + 1 } else { j - 1 };
+            if sib >= ny || !fine.active(i + nx * sib) {
+                return None;
+            }
+            Some(two * north[k.min(i + nx * sib)])
+        };
+        let zero = Coeffs5 {
+            center: T::zero(),
+            west: T::zero(),
+            east: T::zero(),
+            south: T::zero(),
+            north: T::zero(),
+        };
+        let mut rows = vec![zero; nc];
+        let mut active = vec![false; nc];
+        let mut wx = vec![T::zero(); n];
+        let mut wy = vec![T::zero(); n];
+        for j in 0..ny {
+            for i in 0..nx {
+                let k = i + nx * j;
+                if !fine.active(k) {
+                    continue;
+                }
+                let (ci, cj) = (ax.parent[i], ay.parent[j]);
+                let kc = ci + ncx * cj;
+                active[kc] = true;
+                let (gx, gy) = (half_x(i, j), half_y(i, j));
+                // Interpolation weights towards the neighbouring aggregates.
+                if ax.neighbour[i] != ci {
+                    let (face, far) = if i % 2 == 1 { (east[k], i + 1) } else { (east[k - 1], i - 1) };
+                    wx[k] = series(gx, face, half_x(far, j)).0;
+                }
+                if ay.neighbour[j] != cj {
+                    let (face, far) =
+                        if j % 2 == 1 { (north[k], j + 1) } else { (north[k - nx], j - 1) };
+                    wy[k] = series(gy, face, half_y(i, far)).0;
+                }
+                // Coarse couplings across the east and north faces of the aggregate.
+                if i + 1 < nx && ax.parent[i + 1] != ci {
+                    let t = series(gx, east[k], half_x(i + 1, j)).1;
+                    rows[kc].east = rows[kc].east - t;
+                    rows[kc + 1].west = rows[kc + 1].west - t;
+                }
+                if j + 1 < ny && ay.parent[j + 1] != cj {
+                    let t = series(gy, north[k], half_y(i, j + 1)).1;
+                    rows[kc].north = rows[kc].north - t;
+                    rows[kc + ncx].south = rows[kc + ncx].south - t;
+                }
+                // Row-sum excess (storage, fixed neighbours), reached from the coarse centre
+                // through the mean half-cell resistance.
+                let e = excess[k];
+                if e > T::zero() {
+                    let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
+                    let r = half * (resist(gx) + resist(gy));
+                    rows[kc].center = rows[kc].center + ratio(e, T::one() + e * r);
+                }
+            }
+        }
+        for (kc, (row, &on)) in rows.iter_mut().zip(&active).enumerate() {
+            if !on {
+                *row = Coeffs5::identity();
+                continue;
+            }
+            row.center = row.center - (row.west + row.east + row.south + row.north);
+            if !(row.center.is_finite() && row.center > T::zero()) {
+                let (ci, cj) = grid.coords(kc);
+                return Err(Error::PivotBreakdown {
+                    cell: g.index(2 * ci, 2 * cj),
+                    value: crate::to_f64(row.center),
+                });
+            }
+        }
+        Ok(Level {
+            op: CoarseOperator { grid, rows, active },
+            ax,
+            ay,
+            wx,
+            wy,
+            x: vec![T::zero(); nc],
+            b: vec![T::zero(); nc],
+            r: vec![T::zero(); nc],
+        })
+    }
+
+    /// Prolongation weights of fine cell `(i, j)`: coarse indices and weights of the four
+    /// coarse cells it interpolates from.
+    #[inline]
+    fn stencil(&self, i: usize, j: usize, k: usize) -> [(usize, T); 4] {
+        let ncx = self.op.grid.nx();
+        let (pi, qi, pj, qj) = (
+            self.ax.parent[i],
+            self.ax.neighbour[i],
+            self.ay.parent[j],
+            self.ay.neighbour[j],
+        );
+        let (wx, wy) = (self.wx[k], self.wy[k]);
+        let (ux, uy) = (T::one() - wx, T::one() - wy);
+        [
+            (pi + ncx * pj, ux * uy),
+            (qi + ncx * pj, wx * uy),
+            (pi + ncx * qj, ux * wy),
+            (qi + ncx * qj, wx * wy),
+        ]
+    }
+
+    /// `self.b = Pᵀ·r_fine` (inactive fine cells left out).
+    pub(crate) fn restrict<R: Rows<T>>(&mut self, fine: &R, r_fine: &[T]) {
+        let nx = fine.grid().nx();
+        let mut b = std::mem::take(&mut self.b);
+        b.iter_mut().for_each(|v| *v = T::zero());
+        for (j, row) in r_fine.chunks_exact(nx).enumerate() {
+            for (i, &r) in row.iter().enumerate() {
+                let k = i + nx * j;
+                if !fine.active(k) {
+                    continue;
+                }
+                for (kc, w) in self.stencil(i, j, k) {
+                    b[kc] = b[kc] + w * r;
+                }
+            }
+        }
+        self.b = b;
+    }
+
+    /// `x_fine += P·self.x` (inactive fine cells left out).
+    pub(crate) fn prolong_add<R: Rows<T>>(&self, fine: &R, x_fine: &mut [T]) {
+        let nx = fine.grid().nx();
+        let x = &self.x;
+        for (j, row) in x_fine.chunks_exact_mut(nx).enumerate() {
+            for (i, v) in row.iter_mut().enumerate() {
+                let k = i + nx * j;
+                if !fine.active(k) {
+                    continue;
+                }
+                let mut e = T::zero();
+                for (kc, w) in self.stencil(i, j, k) {
+                    e = e + w * x[kc];
+                }
+                *v = *v + e;
+            }
+        }
+    }
+
+    /// Bytes held: five coefficients, three vectors and the mask per coarse cell, two
+    /// interpolation weights per fine cell, and the axis tables.
+    pub(crate) fn bytes(&self) -> usize {
+        let t = std::mem::size_of::<T>();
+        let u = std::mem::size_of::<usize>();
+        let n = self.op.grid.cells();
+        n * (8 * t + 1)
+            + (self.wx.len() + self.wy.len()) * t
+            + (self.ax.parent.len() + self.ay.parent.len()) * 2 * u
+    }
+}
+
+/// One red-black Gauss–Seidel sweep on `x` for `A·x = b`: colour `first` (cells with
+/// `(i + j) % 2 == first`), then the other.
+pub(crate) fn red_black_sweep<T: Scalar, R: Rows<T>>(op: &R, b: &[T], x: &mut [T], first: usize) {
+    let g = op.grid();
+    let (nx, ny) = (g.nx(), g.ny());
+    for colour in [first, 1 - first] {
+        for j in 0..ny {
+            let start = (colour + j) % 2;
+            for i in (start..nx).step_by(2) {
+                let k = i + nx * j;
+                let c = op.row(i, j, k);
+                let mut s = b[k];
+                if i > 0 {
+                    s = s - c.west * x[k - 1];
+                }
+                if i + 1 < nx {
+                    s = s - c.east * x[k + 1];
+                }
+                if j > 0 {
+                    s = s - c.south * x[k - nx];
+                }
+                if j + 1 < ny {
+                    s = s - c.north * x[k + nx];
+                }
+                x[k] = s / c.center;
+            }
+        }
+    }
+}
+
+/// `r = b − A·x` with the eliminated rows.
+pub(crate) fn residual<T: Scalar, R: Rows<T>>(op: &R, b: &[T], x: &[T], r: &mut [T]) {
+    let g = op.grid();
+    let (nx, ny) = (g.nx(), g.ny());
+    for j in 0..ny {
+        for i in 0..nx {
+            let k = i + nx * j;
+            let c = op.row(i, j, k);
+            let mut s = c.center * x[k];
+            if i > 0 {
+                s = s + c.west * x[k - 1];
+            }
+            if i + 1 < nx {
+                s = s + c.east * x[k + 1];
+            }
+            if j > 0 {
+                s = s + c.south * x[k - nx];
+            }
+            if j + 1 < ny {
+                s = s + c.north * x[k + nx];
+            }
+            r[k] = b[k] - s;
+        }
+    }
+}

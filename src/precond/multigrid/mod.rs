@@ -1,0 +1,354 @@
+//! Geometric multigrid for the 5-point operator: a symmetric V-cycle whose coarse operators are
+//! built from the fine operator's own coefficients, usable as a PCG preconditioner
+//! ([`Multigrid`] implements [`Preconditioner`]) and as a standalone solver (it implements
+//! [`IterativeSolver`]).
+//!
+//! * **Coarsening**: 2 × 2 aggregation of cells on every level, until a level has at most
+//!   [`MultigridSettings::coarsest_cells`] cells (or cannot shrink further). Every level keeps a
+//!   5-point stencil: `A_c = ½·P₀ᵀ·A·P₀` with `P₀` the piecewise-constant prolongation (see
+//!   the level module's notes in the developer guide). For a heterogeneous medium the coarse
+//!   couplings are half the summed conductances across each coarse face, so they come from the
+//!   user's coefficients, not from a model problem.
+//! * **Transfers**: bilinear interpolation between coarse cell centres (`P`) and its transpose
+//!   (`R = Pᵀ`), fixed cells left out.
+//! * **Smoother**: red-black Gauss–Seidel, `ν` sweeps red-then-black before the coarse
+//!   correction and `ν` sweeps black-then-red after it (the mirror image), so the V-cycle is a
+//!   symmetric operator.
+//! * **Coarsest level**: solved exactly by a banded Cholesky factorisation.
+//!
+//! With `A` symmetric positive definite, every coarse operator is SPD and each Gauss–Seidel
+//! sweep is a contraction in the energy norm, so the V-cycle `B` is symmetric positive
+//! definite (its error operator `I − B·A` has every eigenvalue below 1) and PCG may use it.
+
+mod direct;
+mod level;
+
+use direct::{BandCholesky, MAX_DIRECT_CELLS};
+use level::{red_black_sweep, residual, FineRows, Level};
+
+use super::correction::correction_solve;
+use super::Preconditioner;
+use crate::solve::{IterativeSolver, Report, SolveOptions, Workspace};
+use crate::stencil::{check_grid, Stencil5};
+use crate::stop::Progress;
+use crate::{Error, Grid, Scalar};
+
+/// Settings of the multigrid hierarchy and cycle.
+///
+/// ```
+/// use quintet::MultigridSettings;
+/// let s = MultigridSettings { smoothing_sweeps: 1, ..Default::default() };
+/// assert_eq!(s.coarsest_cells, MultigridSettings::default().coarsest_cells);
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[non_exhaustive]
+pub struct MultigridSettings {
+    /// Red-black Gauss–Seidel sweeps before the coarse correction, and (mirrored) after it.
+    /// At least 1, at most 16. Default 2.
+    pub smoothing_sweeps: usize,
+    /// Coarsening stops at a level with at most this many cells, which is then solved exactly.
+    /// At least 1, at most 4096. Default 256.
+    pub coarsest_cells: usize,
+    /// Most levels, the fine one included. At least 1. Default 32.
+    pub max_levels: usize,
+}
+
+impl Default for MultigridSettings {
+    fn default() -> MultigridSettings {
+        MultigridSettings {
+            smoothing_sweeps: 2,
+            coarsest_cells: 256,
+            max_levels: 32,
+        }
+    }
+}
+
+/// A geometric multigrid V-cycle for a 5-point operator (see the [module notes](self)).
+///
+/// Built once from the operator (`S` is usually a reference, `&op`), then applied as many times
+/// as needed; applying it allocates nothing. One application is one V-cycle from a zero
+/// initial guess, `z = B·r`. As a PCG preconditioner the iteration count to a fixed relative
+/// residual does not grow with the grid size; as a standalone solver
+/// ([`IterativeSolver::solve`]) each iteration is one V-cycle on the current residual.
+///
+/// Storage beyond the fine operator: the coarse operators (five coefficients per coarse cell,
+/// a third of the fine cell count over all levels), three vectors per coarse cell, one
+/// fine-grid residual vector, and the coarsest factor; under the 1.5 × five-array budget of the
+/// fine operator ([`storage_bytes`](Multigrid::storage_bytes)).
+///
+/// # Example
+///
+/// ```
+/// use quintet::prelude::*;
+///
+/// let grid = Grid::new(256, 256)?;
+/// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+/// let rhs = vec![1.0; grid.cells()];
+/// let mut x = vec![0.0; grid.cells()];
+/// let mg = Multigrid::new(&op, MultigridSettings::default())?;
+/// let report = Pcg::new(mg).solve(&op, &rhs, &mut x)?;
+/// assert_eq!(report.method, "PCG + multigrid V-cycle");
+/// assert!(report.iterations <= 12);
+/// # Ok::<(), quintet::Error>(())
+/// ```
+#[derive(Clone, Debug)]
+pub struct Multigrid<T, S> {
+    op: S,
+    grid: Grid,
+    settings: MultigridSettings,
+    levels: Vec<Level<T>>,
+    direct: BandCholesky<T>,
+    fine_residual: Vec<T>,
+    /// Stopping rule for the standalone solver.
+    pub options: SolveOptions,
+}
+
+impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
+    /// Build the hierarchy for `op` (pass `&op` to borrow it).
+    ///
+    /// # Errors
+    ///
+    /// [`Error::InvalidSetting`] for settings out of range; [`Error::NonPositiveCenter`] for a
+    /// free cell whose center is not positive; [`Error::PivotBreakdown`] if a coarse center
+    /// comes out non-positive (the operator is not positive definite).
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(100, 40)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mg = Multigrid::new(&op, MultigridSettings::default())?;
+    /// assert_eq!(mg.level_grids()[1], Grid::new(50, 20)?);
+    /// let bad = MultigridSettings { smoothing_sweeps: 0, ..Default::default() };
+    /// assert!(matches!(Multigrid::new(&op, bad), Err(Error::InvalidSetting { .. })));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn new(op: S, settings: MultigridSettings) -> Result<Multigrid<T, S>, Error> {
+        let bad = |name, value: usize, allowed| {
+            Err(Error::InvalidSetting {
+                name,
+                value: value as f64,
+                allowed,
+            })
+        };
+        if !(1..=16).contains(&settings.smoothing_sweeps) {
+            return bad(
+                "smoothing_sweeps",
+                settings.smoothing_sweeps,
+                "1 to 16 sweeps",
+            );
+        }
+        if !(1..=MAX_DIRECT_CELLS).contains(&settings.coarsest_cells) {
+            return bad(
+                "coarsest_cells",
+                settings.coarsest_cells,
+                "1 to 4096 cells",
+            );
+        }
+        if settings.max_levels == 0 {
+            return bad("max_levels", 0, "at least 1 level");
+        }
+        super::check_centers(&op)?;
+        let grid = op.grid();
+        let fine = fine_rows(&op);
+        let mut levels: Vec<Level<T>> = Vec::new();
+        loop {
+            let current = levels.last().map_or(grid, |l| l.op.grid);
+            let shrinks = current.nx() > 1 || current.ny() > 1;
+            if current.cells() <= settings.coarsest_cells
+                || !shrinks
+                || levels.len() + 1 >= settings.max_levels
+            {
+                break;
+            }
+            let next = match levels.last() {
+                None => Level::below(&fine)?,
+                Some(l) => Level::below(&l.op)?,
+            };
+            levels.push(next);
+        }
+        let direct = match levels.last() {
+            None => BandCholesky::new(&fine)?,
+            Some(l) => BandCholesky::new(&l.op)?,
+        };
+        Ok(Multigrid {
+            grid,
+            settings,
+            levels,
+            direct,
+            fine_residual: vec![T::zero(); grid.cells()],
+            op,
+            options: SolveOptions::default(),
+        })
+    }
+
+    /// The same solver with `options` for standalone use.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(32, 32)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mg = Multigrid::new(&op, MultigridSettings::default())?.with_options(SolveOptions::default().tolerance(1e-10));
+    /// assert_eq!(mg.options.tolerances.relative, 1e-10);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn with_options(mut self, options: SolveOptions) -> Multigrid<T, S> {
+        self.options = options;
+        self
+    }
+
+    /// The grids of all levels, finest first.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(64, 64)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mg = Multigrid::new(&op, MultigridSettings::default())?;
+    /// let sides: Vec<usize> = mg.level_grids().iter().map(|g| g.nx()).collect();
+    /// assert_eq!(sides, vec![64, 32, 16]); // 16 x 16 = 256 cells: solved directly
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn level_grids(&self) -> Vec<Grid> {
+        std::iter::once(self.grid)
+            .chain(self.levels.iter().map(|l| l.op.grid))
+            .collect()
+    }
+
+    /// The settings the hierarchy was built with.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(8, 8)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mg = Multigrid::new(&op, MultigridSettings::default())?;
+    /// assert_eq!(mg.settings(), MultigridSettings::default());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn settings(&self) -> MultigridSettings {
+        self.settings
+    }
+
+    /// Bytes held by the hierarchy (coarse operators, level vectors, the fine residual vector
+    /// and the coarsest factor), not counting the fine operator itself.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(512, 512)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mg = Multigrid::new(&op, MultigridSettings::default())?;
+    /// let five_arrays = 5 * grid.cells() * std::mem::size_of::<f64>();
+    /// assert!((mg.storage_bytes() as f64) <= 1.5 * five_arrays as f64);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn storage_bytes(&self) -> usize {
+        self.levels.iter().map(Level::bytes).sum::<usize>()
+            + self.fine_residual.len() * std::mem::size_of::<T>()
+            + self.direct.bytes()
+    }
+
+    /// Pivots of the coarsest-level factor that were replaced because they came out at or
+    /// below rounding level (a singular coarsest operator, e.g. a model with no fixed cell and
+    /// no storage term). Zero for well-posed problems.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(40, 40)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// assert_eq!(Multigrid::new(&op, MultigridSettings::default())?.replaced_pivots(), 0);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn replaced_pivots(&self) -> usize {
+        self.direct.replaced
+    }
+
+    /// One V-cycle from a zero initial guess: `z = B·r`.
+    fn cycle(&mut self, r: &[T], z: &mut [T]) {
+        let n = self.grid.cells();
+        if r.len() < n || z.len() < n {
+            return;
+        }
+        let (r, z) = (&r[..n], &mut z[..n]);
+        if self.levels.is_empty() {
+            self.direct.solve(r, z);
+            return;
+        }
+        let nu = self.settings.smoothing_sweeps;
+        let fine = fine_rows(&self.op);
+        z.iter_mut().for_each(|v| *v = T::zero());
+        for _ in 0..nu {
+            red_black_sweep(&fine, r, z, 0);
+        }
+        residual(&fine, r, z, &mut self.fine_residual);
+        self.levels[0].restrict(&fine, &self.fine_residual);
+        // Down the hierarchy.
+        let last = self.levels.len() - 1;
+        for l in 0..last {
+            let (upper, lower) = self.levels.split_at_mut(l + 1);
+            let here = &mut upper[l];
+            here.x.iter_mut().for_each(|v| *v = T::zero());
+            for _ in 0..nu {
+                red_black_sweep(&here.op, &here.b, &mut here.x, 0);
+            }
+            residual(&here.op, &here.b, &here.x, &mut here.r);
+            lower[0].restrict(&here.op, &here.r);
+        }
+        let coarsest = &mut self.levels[last];
+        self.direct.solve(&coarsest.b, &mut coarsest.x);
+        // Back up, smoothing in the mirrored order.
+        for l in (0..last).rev() {
+            let (upper, lower) = self.levels.split_at_mut(l + 1);
+            let here = &mut upper[l];
+            lower[0].prolong_add(&here.op, &mut here.x);
+            for _ in 0..nu {
+                red_black_sweep(&here.op, &here.b, &mut here.x, 1);
+            }
+        }
+        self.levels[0].prolong_add(&fine, z);
+        for _ in 0..nu {
+            red_black_sweep(&fine, r, z, 1);
+        }
+    }
+}
+
+fn fine_rows<T: Scalar, S: Stencil5<T> + ?Sized>(op: &S) -> FineRows<'_, S> {
+    let g = op.grid();
+    FineRows {
+        op,
+        fixed: op.fixed_cells(),
+        nx: g.nx(),
+        ny: g.ny(),
+    }
+}
+
+impl<T: Scalar, S: Stencil5<T>> Preconditioner<T> for Multigrid<T, S> {
+    fn apply(&mut self, r: &[T], z: &mut [T]) {
+        self.cycle(r, z);
+    }
+    fn name(&self) -> &'static str {
+        "multigrid V-cycle"
+    }
+}
+
+impl<T: Scalar, S: Stencil5<T>> IterativeSolver<T> for Multigrid<T, S> {
+    /// Multigrid as a solver: each iteration is one V-cycle on the current residual,
+    /// `x ← x + B·(b − A·x)`. `op` must be the operator the hierarchy was built from.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::GridMismatch`] if `op` lives on another grid; otherwise as for every
+    /// [`IterativeSolver`].
+    fn solve_observed<S2: Stencil5<T> + ?Sized>(
+        &mut self,
+        op: &S2,
+        rhs: &[T],
+        x: &mut [T],
+        ws: &mut Workspace<T>,
+        observer: &mut dyn FnMut(&Progress<'_>),
+    ) -> Result<Report, Error> {
+        check_grid(self.grid, op.grid())?;
+        let method = format!("multigrid V({nu},{nu})", nu = self.settings.smoothing_sweeps);
+        let options = self.options.clone();
+        correction_solve(op, rhs, x, ws, observer, &options, method, |r, z| {
+            self.cycle(r, z)
+        })
+    }
+}
