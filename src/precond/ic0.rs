@@ -37,7 +37,6 @@ pub enum WeakPivot {
 /// assert_eq!(mic.compensation, 0.95);
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
-#[non_exhaustive]
 pub struct FactorSettings {
     /// Share `α ∈ [0, 1]` of the dropped fill-in moved onto the diagonal: 0 is IC(0), 1 is
     /// Gustafsson's MIC(0) (row sums of `M` equal those of `A`); values in between are the

@@ -17,7 +17,6 @@ use crate::{is_positive, to_f64, Error, Grid, Scalar};
 /// assert_eq!(s.alpha, 0.8);
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
-#[non_exhaustive]
 pub struct SipSettings {
     /// Stone's iteration parameter `α ∈ [0, 1)`: the weight of the Taylor-expansion
     /// cancellation of the dropped fill-in. 0 gives the plain zero-fill incomplete LU

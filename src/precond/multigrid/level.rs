@@ -228,6 +228,38 @@ impl<T: Scalar> Level<T> {
         let mut active = vec![false; nc];
         let mut wx = vec![T::zero(); n];
         let mut wy = vec![T::zero(); n];
+        // Pass 1: interpolation weights towards the neighbouring aggregates.
+        for j in 0..ny {
+            for i in 0..nx {
+                let k = i + nx * j;
+                if !fine.active(k) {
+                    continue;
+                }
+                let (ci, cj) = (ax.parent[i], ay.parent[j]);
+                active[ci + ncx * cj] = true;
+                if ax.neighbour[i] != ci {
+                    let (face, far) = if i % 2 == 1 {
+                        (east[k], i + 1)
+                    } else {
+                        (east[k - 1], i - 1)
+                    };
+                    wx[k] = series(half_x(i, j), face, half_x(far, j)).0;
+                }
+                if ay.neighbour[j] != cj {
+                    let (face, far) = if j % 2 == 1 {
+                        (north[k], j + 1)
+                    } else {
+                        (north[k - nx], j - 1)
+                    };
+                    wy[k] = series(half_y(i, j), face, half_y(i, far)).0;
+                }
+            }
+        }
+        // Pass 2: coarse couplings and centers. Each fine line's series conductance across a
+        // coarse face goes to the coarse lines that interpolate that fine line, in the
+        // proportions of the interpolation (a lumped Galerkin product in the cross direction),
+        // so the coarse operator sees the energy of the interpolated corrections.
+        let on = |kc: usize, fallback: usize| if active[kc] { kc } else { fallback };
         for j in 0..ny {
             for i in 0..nx {
                 let k = i + nx * j;
@@ -236,36 +268,49 @@ impl<T: Scalar> Level<T> {
                 }
                 let (ci, cj) = (ax.parent[i], ay.parent[j]);
                 let kc = ci + ncx * cj;
-                active[kc] = true;
                 let (gx, gy) = (half_x(i, j), half_y(i, j));
-                // Interpolation weights towards the neighbouring aggregates.
-                if ax.neighbour[i] != ci {
-                    let (face, far) = if i % 2 == 1 { (east[k], i + 1) } else { (east[k - 1], i - 1) };
-                    wx[k] = series(gx, face, half_x(far, j)).0;
-                }
-                if ay.neighbour[j] != cj {
-                    let (face, far) =
-                        if j % 2 == 1 { (north[k], j + 1) } else { (north[k - nx], j - 1) };
-                    wy[k] = series(gy, face, half_y(i, far)).0;
-                }
-                // Coarse couplings across the east and north faces of the aggregate.
                 if i + 1 < nx && ax.parent[i + 1] != ci {
                     let t = series(gx, east[k], half_x(i + 1, j)).1;
-                    rows[kc].east = rows[kc].east - t;
-                    rows[kc + 1].west = rows[kc + 1].west - t;
+                    let own = half * ((T::one() - wy[k]) + (T::one() - wy[k + 1]));
+                    let qj = ay.neighbour[j];
+                    let (a, b) = (on(ci + ncx * qj, kc), on(ci + 1 + ncx * qj, kc + 1));
+                    let (a, b) = if a == kc || b == kc + 1 { (kc, kc + 1) } else { (a, b) };
+                    for (l, r, share) in [(kc, kc + 1, own), (a, b, T::one() - own)] {
+                        rows[l].east = rows[l].east - t * share;
+                        rows[r].west = rows[r].west - t * share;
+                    }
                 }
                 if j + 1 < ny && ay.parent[j + 1] != cj {
                     let t = series(gy, north[k], half_y(i, j + 1)).1;
-                    rows[kc].north = rows[kc].north - t;
-                    rows[kc + ncx].south = rows[kc + ncx].south - t;
+                    let own = half * ((T::one() - wx[k]) + (T::one() - wx[k + nx]));
+                    let qi = ax.neighbour[i];
+                    let up = kc + ncx;
+                    let (a, b) = (on(qi + ncx * cj, kc), on(qi + ncx * (cj + 1), up));
+                    let (a, b) = if a == kc || b == up { (kc, up) } else { (a, b) };
+                    for (l, r, share) in [(kc, up, own), (a, b, T::one() - own)] {
+                        rows[l].north = rows[l].north - t * share;
+                        rows[r].south = rows[r].south - t * share;
+                    }
                 }
                 // Row-sum excess (storage, fixed neighbours), reached from the coarse centre
-                // through the mean half-cell resistance.
+                // through the mean half-cell resistance, spread like the interpolation.
                 let e = excess[k];
                 if e > T::zero() {
                     let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
                     let r = half * (resist(gx) + resist(gy));
-                    rows[kc].center = rows[kc].center + ratio(e, T::one() + e * r);
+                    let contribution = ratio(e, T::one() + e * r);
+                    let (pi, qi, pj, qj) = (ci, ax.neighbour[i], cj, ay.neighbour[j]);
+                    let (wxk, wyk) = (wx[k], wy[k]);
+                    let (ux, uy) = (T::one() - wxk, T::one() - wyk);
+                    for (target, w) in [
+                        (pi + ncx * pj, ux * uy),
+                        (qi + ncx * pj, wxk * uy),
+                        (pi + ncx * qj, ux * wyk),
+                        (qi + ncx * qj, wxk * wyk),
+                    ] {
+                        let t = on(target, kc);
+                        rows[t].center = rows[t].center + w * contribution;
+                    }
                 }
             }
         }

@@ -41,10 +41,10 @@ use crate::{Error, Grid, Scalar};
 /// assert_eq!(s.coarsest_cells, MultigridSettings::default().coarsest_cells);
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
-#[non_exhaustive]
 pub struct MultigridSettings {
     /// Red-black Gauss–Seidel sweeps before the coarse correction, and (mirrored) after it.
-    /// At least 1, at most 16. Default 2.
+    /// At least 1, at most 16. Default 3 (on the high-contrast test field, 2 sweeps cost a few
+    /// more PCG iterations than 3; on Poisson both give a grid-independent count).
     pub smoothing_sweeps: usize,
     /// Coarsening stops at a level with at most this many cells, which is then solved exactly.
     /// At least 1, at most 4096. Default 256.
@@ -56,7 +56,7 @@ pub struct MultigridSettings {
 impl Default for MultigridSettings {
     fn default() -> MultigridSettings {
         MultigridSettings {
-            smoothing_sweeps: 2,
+            smoothing_sweeps: 3,
             coarsest_cells: 256,
             max_levels: 32,
         }
