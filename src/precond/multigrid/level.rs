@@ -314,12 +314,21 @@ impl<T: Scalar> Level<T> {
                 }
             }
         }
-        for (kc, (row, &on)) in rows.iter_mut().zip(&active).enumerate() {
-            if !on {
+        for (kc, (row, on)) in rows.iter_mut().zip(active.iter_mut()).enumerate() {
+            if !*on {
                 *row = Coeffs5::identity();
                 continue;
             }
-            row.center = row.center - (row.west + row.east + row.south + row.north);
+            let couplings = row.west + row.east + row.south + row.north;
+            row.center = row.center - couplings;
+            if row.center == T::zero() && couplings == T::zero() {
+                // Every fine cell of the aggregate follows a neighbouring aggregate (their
+                // internal couplings are zero) and nothing interpolates from this one: it
+                // carries no unknown.
+                *row = Coeffs5::identity();
+                *on = false;
+                continue;
+            }
             if !(row.center.is_finite() && row.center > T::zero()) {
                 let (ci, cj) = grid.coords(kc);
                 return Err(Error::PivotBreakdown {
