@@ -75,37 +75,36 @@ impl<T: Scalar> Rows<T> for CoarseOperator<T> {
     }
 }
 
-/// Coarse-cell geometry along one axis: fine index → (parent, neighbour) aggregates, and
-/// whether the fine cell has a sibling in its aggregate.
-#[derive(Clone, Debug)]
+/// Coarse-cell geometry along one axis: fine index → parent and neighbour aggregates.
+#[derive(Clone, Copy, Debug)]
 struct Axis {
-    parent: Vec<usize>,
-    neighbour: Vec<usize>,
+    n: usize,
 }
 
 impl Axis {
-    /// For a fine axis of `n` cells: the left cell of a pair looks towards the previous
-    /// aggregate, the right one towards the next; a 1-wide aggregate (last cell of an odd
-    /// axis) and the cells at the ends have no neighbour (`neighbour == parent`).
-    fn new(n: usize) -> Axis {
-        let nc = n.div_ceil(2);
-        let (mut parent, mut neighbour) = (Vec::with_capacity(n), Vec::with_capacity(n));
-        for i in 0..n {
-            let p = i / 2;
-            let paired = 2 * p + 1 < n;
-            let q = if !paired {
-                p
-            } else if i % 2 == 0 {
-                p.saturating_sub(1)
-            } else if p + 1 < nc {
-                p + 1
-            } else {
-                p
-            };
-            parent.push(p);
-            neighbour.push(q);
+    /// The aggregate fine cell `i` belongs to.
+    #[inline]
+    fn parent(&self, i: usize) -> usize {
+        i / 2
+    }
+
+    /// The aggregate fine cell `i` interpolates from besides its own: the left cell of a pair
+    /// looks towards the previous aggregate, the right one towards the next; a 1-wide
+    /// aggregate (last cell of an odd axis) and the cells at the ends have none (the parent
+    /// is returned).
+    #[inline]
+    fn neighbour(&self, i: usize) -> usize {
+        let p = i / 2;
+        let paired = 2 * p + 1 < self.n;
+        if !paired {
+            p
+        } else if i % 2 == 0 {
+            p.saturating_sub(1)
+        } else if p + 1 < self.n.div_ceil(2) {
+            p + 1
+        } else {
+            p
         }
-        Axis { parent, neighbour }
     }
 }
 
@@ -154,10 +153,11 @@ pub(crate) struct Level<T> {
     pub(crate) op: CoarseOperator<T>,
     ax: Axis,
     ay: Axis,
-    /// Per fine cell: weight of the neighbouring aggregate in the east-west direction.
-    wx: Vec<T>,
+    /// Per fine cell: weight of the neighbouring aggregate in the east-west direction (kept
+    /// in `f32`, which is ample for a weight in [0, 1] and halves the storage in `f64`).
+    wx: Vec<f32>,
     /// Per fine cell: weight of the neighbouring aggregate in the south-north direction.
-    wy: Vec<T>,
+    wy: Vec<f32>,
     /// Correction being computed on this level.
     pub(crate) x: Vec<T>,
     /// Restricted residual (right-hand side of this level).
@@ -179,7 +179,7 @@ impl<T: Scalar> Level<T> {
         let (ncx, ncy) = (nx.div_ceil(2), ny.div_ceil(2));
         let grid = Grid::new(ncx, ncy)?;
         let nc = grid.cells();
-        let (ax, ay) = (Axis::new(nx), Axis::new(ny));
+        let (ax, ay) = (Axis { n: nx }, Axis { n: ny });
         let two: T = lit(2.0);
         let half: T = lit(0.5);
         // Conductances towards east and north, and row-sum excess, of every fine cell.
@@ -228,6 +228,7 @@ impl<T: Scalar> Level<T> {
         let mut active = vec![false; nc];
         let mut wx = vec![T::zero(); n];
         let mut wy = vec![T::zero(); n];
+        let narrow = |w: &[T]| -> Vec<f32> { w.iter().map(|v| v.to_f32().unwrap_or(0.0)).collect() };
         // Pass 1: interpolation weights towards the neighbouring aggregates.
         for j in 0..ny {
             for i in 0..nx {
@@ -235,9 +236,9 @@ impl<T: Scalar> Level<T> {
                 if !fine.active(k) {
                     continue;
                 }
-                let (ci, cj) = (ax.parent[i], ay.parent[j]);
+                let (ci, cj) = (ax.parent(i), ay.parent(j));
                 active[ci + ncx * cj] = true;
-                if ax.neighbour[i] != ci {
+                if ax.neighbour(i) != ci {
                     let (face, far) = if i % 2 == 1 {
                         (east[k], i + 1)
                     } else {
@@ -245,7 +246,7 @@ impl<T: Scalar> Level<T> {
                     };
                     wx[k] = series(half_x(i, j), face, half_x(far, j)).0;
                 }
-                if ay.neighbour[j] != cj {
+                if ay.neighbour(j) != cj {
                     let (face, far) = if j % 2 == 1 {
                         (north[k], j + 1)
                     } else {
@@ -266,13 +267,13 @@ impl<T: Scalar> Level<T> {
                 if !fine.active(k) {
                     continue;
                 }
-                let (ci, cj) = (ax.parent[i], ay.parent[j]);
+                let (ci, cj) = (ax.parent(i), ay.parent(j));
                 let kc = ci + ncx * cj;
                 let (gx, gy) = (half_x(i, j), half_y(i, j));
-                if i + 1 < nx && ax.parent[i + 1] != ci {
+                if i + 1 < nx && ax.parent(i + 1) != ci {
                     let t = series(gx, east[k], half_x(i + 1, j)).1;
                     let own = half * ((T::one() - wy[k]) + (T::one() - wy[k + 1]));
-                    let qj = ay.neighbour[j];
+                    let qj = ay.neighbour(j);
                     let (a, b) = (on(ci + ncx * qj, kc), on(ci + 1 + ncx * qj, kc + 1));
                     let (a, b) = if a == kc || b == kc + 1 { (kc, kc + 1) } else { (a, b) };
                     for (l, r, share) in [(kc, kc + 1, own), (a, b, T::one() - own)] {
@@ -280,10 +281,10 @@ impl<T: Scalar> Level<T> {
                         rows[r].west = rows[r].west - t * share;
                     }
                 }
-                if j + 1 < ny && ay.parent[j + 1] != cj {
+                if j + 1 < ny && ay.parent(j + 1) != cj {
                     let t = series(gy, north[k], half_y(i, j + 1)).1;
                     let own = half * ((T::one() - wx[k]) + (T::one() - wx[k + nx]));
-                    let qi = ax.neighbour[i];
+                    let qi = ax.neighbour(i);
                     let up = kc + ncx;
                     let (a, b) = (on(qi + ncx * cj, kc), on(qi + ncx * (cj + 1), up));
                     let (a, b) = if a == kc || b == up { (kc, up) } else { (a, b) };
@@ -299,7 +300,7 @@ impl<T: Scalar> Level<T> {
                     let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
                     let r = half * (resist(gx) + resist(gy));
                     let contribution = ratio(e, T::one() + e * r);
-                    let (pi, qi, pj, qj) = (ci, ax.neighbour[i], cj, ay.neighbour[j]);
+                    let (pi, qi, pj, qj) = (ci, ax.neighbour(i), cj, ay.neighbour(j));
                     let (wxk, wyk) = (wx[k], wy[k]);
                     let (ux, uy) = (T::one() - wxk, T::one() - wyk);
                     for (target, w) in [
@@ -341,8 +342,8 @@ impl<T: Scalar> Level<T> {
             op: CoarseOperator { grid, rows, active },
             ax,
             ay,
-            wx,
-            wy,
+            wx: narrow(&wx),
+            wy: narrow(&wy),
             x: vec![T::zero(); nc],
             b: vec![T::zero(); nc],
             r: vec![T::zero(); nc],
@@ -355,12 +356,12 @@ impl<T: Scalar> Level<T> {
     fn stencil(&self, i: usize, j: usize, k: usize) -> [(usize, T); 4] {
         let ncx = self.op.grid.nx();
         let (pi, qi, pj, qj) = (
-            self.ax.parent[i],
-            self.ax.neighbour[i],
-            self.ay.parent[j],
-            self.ay.neighbour[j],
+            self.ax.parent(i),
+            self.ax.neighbour(i),
+            self.ay.parent(j),
+            self.ay.neighbour(j),
         );
-        let (wx, wy) = (self.wx[k], self.wy[k]);
+        let (wx, wy): (T, T) = (lit(f64::from(self.wx[k])), lit(f64::from(self.wy[k])));
         let (ux, uy) = (T::one() - wx, T::one() - wy);
         [
             (pi + ncx * pj, ux * uy),
@@ -408,15 +409,12 @@ impl<T: Scalar> Level<T> {
         }
     }
 
-    /// Bytes held: five coefficients, three vectors and the mask per coarse cell, two
-    /// interpolation weights per fine cell, and the axis tables.
+    /// Bytes held: five coefficients, three vectors and the mask per coarse cell, and two
+    /// interpolation weights per fine cell.
     pub(crate) fn bytes(&self) -> usize {
         let t = std::mem::size_of::<T>();
-        let u = std::mem::size_of::<usize>();
         let n = self.op.grid.cells();
-        n * (8 * t + 1)
-            + (self.wx.len() + self.wy.len()) * t
-            + (self.ax.parent.len() + self.ay.parent.len()) * 2 * u
+        n * (8 * t + 1) + (self.wx.len() + self.wy.len()) * std::mem::size_of::<f32>()
     }
 }
 
