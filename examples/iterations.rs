@@ -23,7 +23,7 @@ const CAP: usize = 3000;
 
 fn main() -> Result<(), Error> {
     let large = std::env::args().skip(1).any(|a| a == "--large");
-    let mut sizes: Vec<usize> = std::env::var("QUINTET_SIZES").ok().map(|s| s.split(',').filter_map(|v| v.parse().ok()).collect()).unwrap_or(vec![64, 128, 256, 512, 1024]);
+    let mut sizes = vec![64, 128, 256, 512, 1024];
     if large {
         sizes.push(2048);
     }
@@ -91,7 +91,8 @@ fn run(method: &str, op: &Banded5<f64>, rhs: &[f64], x0: &[f64]) -> Result<Row, 
             timed(start, p, op, rhs, &mut x)
         }
         "mg" => {
-            let p = Pcg::new(Multigrid::new(op, MultigridSettings::default())?).with_options(options);
+            let p =
+                Pcg::new(Multigrid::new(op, MultigridSettings::default())?).with_options(options);
             timed(start, p, op, rhs, &mut x)
         }
         _ => {

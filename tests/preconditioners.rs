@@ -259,35 +259,65 @@ fn full_mic_on_a_singular_problem_stays_finite() {
 fn bad_settings_are_rejected_with_typed_errors() {
     let op = poisson(8);
     for omega in [0.0, 2.0, -1.0, f64::NAN] {
-        assert!(matches!(Ssor::new(&op, omega), Err(Error::InvalidSetting { .. })));
+        assert!(matches!(
+            Ssor::new(&op, omega),
+            Err(Error::InvalidSetting { .. })
+        ));
     }
     for compensation in [-0.1, 1.1, f64::NAN] {
         let s = FactorSettings {
             compensation,
             ..FactorSettings::ic0()
         };
-        assert!(matches!(IncompleteCholesky::new(&op, s), Err(Error::InvalidSetting { .. })));
+        assert!(matches!(
+            IncompleteCholesky::new(&op, s),
+            Err(Error::InvalidSetting { .. })
+        ));
     }
     let s = FactorSettings {
         pivot_floor: 1.0,
         ..FactorSettings::ic0()
     };
-    assert!(matches!(IncompleteCholesky::new(&op, s), Err(Error::InvalidSetting { .. })));
+    assert!(matches!(
+        IncompleteCholesky::new(&op, s),
+        Err(Error::InvalidSetting { .. })
+    ));
     for alpha in [-0.5, 1.0, f64::INFINITY] {
         let s = SipSettings {
             alpha,
             ..Default::default()
         };
-        assert!(matches!(Sip::new(&op, s), Err(Error::InvalidSetting { .. })));
+        assert!(matches!(
+            Sip::new(&op, s),
+            Err(Error::InvalidSetting { .. })
+        ));
     }
     for s in [
-        MultigridSettings { smoothing_sweeps: 0, ..Default::default() },
-        MultigridSettings { smoothing_sweeps: 17, ..Default::default() },
-        MultigridSettings { coarsest_cells: 0, ..Default::default() },
-        MultigridSettings { coarsest_cells: 5000, ..Default::default() },
-        MultigridSettings { max_levels: 0, ..Default::default() },
+        MultigridSettings {
+            smoothing_sweeps: 0,
+            ..Default::default()
+        },
+        MultigridSettings {
+            smoothing_sweeps: 17,
+            ..Default::default()
+        },
+        MultigridSettings {
+            coarsest_cells: 0,
+            ..Default::default()
+        },
+        MultigridSettings {
+            coarsest_cells: 5000,
+            ..Default::default()
+        },
+        MultigridSettings {
+            max_levels: 0,
+            ..Default::default()
+        },
     ] {
-        assert!(matches!(Multigrid::new(&op, s), Err(Error::InvalidSetting { .. })));
+        assert!(matches!(
+            Multigrid::new(&op, s),
+            Err(Error::InvalidSetting { .. })
+        ));
     }
     // A non-positive center is named.
     let grid = Grid::new(3, 1).unwrap();
@@ -296,9 +326,18 @@ fn bad_settings_are_rejected_with_typed_errors() {
         ..Coeffs5::default()
     })
     .unwrap();
-    assert!(matches!(Ssor::new(&bad, 1.0), Err(Error::NonPositiveCenter { cell: 1, .. })));
-    assert!(matches!(IncompleteCholesky::ic0(&bad), Err(Error::NonPositiveCenter { cell: 1, .. })));
-    assert!(matches!(Sip::new(&bad, SipSettings::default()), Err(Error::NonPositiveCenter { cell: 1, .. })));
+    assert!(matches!(
+        Ssor::new(&bad, 1.0),
+        Err(Error::NonPositiveCenter { cell: 1, .. })
+    ));
+    assert!(matches!(
+        IncompleteCholesky::ic0(&bad),
+        Err(Error::NonPositiveCenter { cell: 1, .. })
+    ));
+    assert!(matches!(
+        Sip::new(&bad, SipSettings::default()),
+        Err(Error::NonPositiveCenter { cell: 1, .. })
+    ));
     assert!(matches!(
         Multigrid::new(&bad, MultigridSettings::default()),
         Err(Error::NonPositiveCenter { cell: 1, .. })
@@ -307,7 +346,10 @@ fn bad_settings_are_rejected_with_typed_errors() {
     let mut sip = Sip::new(&op, SipSettings::default()).unwrap();
     let other = poisson(9);
     let mut x = vec![0.0; 81];
-    assert!(matches!(sip.solve(&other, &[1.0; 81], &mut x), Err(Error::GridMismatch { .. })));
+    assert!(matches!(
+        sip.solve(&other, &[1.0; 81], &mut x),
+        Err(Error::GridMismatch { .. })
+    ));
 }
 
 /// Wrong slice lengths handed to `apply` do not panic (the trait has no error channel; the
@@ -317,7 +359,11 @@ fn short_slices_do_not_panic() {
     let op = poisson(6);
     let mut sip = Sip::new(&op, SipSettings::default()).unwrap();
     let mut list = all_preconditioners(&op);
-    for pre in list.iter_mut().map(|p| p.as_mut()).chain([&mut sip as &mut dyn Preconditioner<f64>]) {
+    for pre in list
+        .iter_mut()
+        .map(|p| p.as_mut())
+        .chain([&mut sip as &mut dyn Preconditioner<f64>])
+    {
         let mut z = vec![0.0; 5];
         pre.apply(&[1.0; 3], &mut z);
         pre.apply(&[1.0; 36], &mut z);
@@ -334,9 +380,18 @@ fn single_precision_works() {
     let rhs = vec![1.0f32; grid.cells()];
     let opts = SolveOptions::default().tolerance(1e-4);
     let mut x = vec![0.0f32; grid.cells()];
-    Pcg::new(IncompleteCholesky::mic0(&op).unwrap()).with_options(opts.clone()).solve(&op, &rhs, &mut x).unwrap();
+    Pcg::new(IncompleteCholesky::mic0(&op).unwrap())
+        .with_options(opts.clone())
+        .solve(&op, &rhs, &mut x)
+        .unwrap();
     let mut x = vec![0.0f32; grid.cells()];
-    Pcg::new(Multigrid::new(&op, MultigridSettings::default()).unwrap()).with_options(opts.clone()).solve(&op, &rhs, &mut x).unwrap();
+    Pcg::new(Multigrid::new(&op, MultigridSettings::default()).unwrap())
+        .with_options(opts.clone())
+        .solve(&op, &rhs, &mut x)
+        .unwrap();
     let mut x = vec![0.0f32; grid.cells()];
-    Pcg::new(Ssor::new(&op, 1.3).unwrap()).with_options(opts).solve(&op, &rhs, &mut x).unwrap();
+    Pcg::new(Ssor::new(&op, 1.3).unwrap())
+        .with_options(opts)
+        .solve(&op, &rhs, &mut x)
+        .unwrap();
 }

@@ -9,6 +9,7 @@ use crate::{Error, Monitor, Scalar};
 
 /// Iterate `x ← x + step(b − A·x)` until `options`' rule stops. `step(r, z)` writes the
 /// correction for residual `r` into `z`. Fixed cells never move (their correction is zeroed).
+#[allow(clippy::too_many_arguments)]
 pub(crate) fn correction_solve<T: Scalar, S: Stencil5<T> + ?Sized>(
     op: &S,
     rhs: &[T],

@@ -18,7 +18,9 @@ pub fn random_diffusion(
     let n = grid.cells();
     let pick = |k: usize| values[k % values.len()];
     // Conductance of the east face and the north face of every cell.
-    let east: Vec<f64> = (0..n).map(|k| 10f64.powf(spread * (2.0 * pick(2 * k) - 1.0))).collect();
+    let east: Vec<f64> = (0..n)
+        .map(|k| 10f64.powf(spread * (2.0 * pick(2 * k) - 1.0)))
+        .collect();
     let north: Vec<f64> = (0..n)
         .map(|k| 10f64.powf(spread * (2.0 * pick(2 * k + 1) - 1.0)))
         .collect();
@@ -158,7 +160,9 @@ pub fn heterogeneous(n: usize) -> (Banded5<f64>, Vec<f64>, Vec<f64>) {
     let fixed: Vec<usize> = (0..n)
         .flat_map(|j| [grid.index(0, j), grid.index(n - 1, j)])
         .collect();
-    let op = op.with_fixed(FixedCells::new(grid, fixed).unwrap()).unwrap();
+    let op = op
+        .with_fixed(FixedCells::new(grid, fixed).unwrap())
+        .unwrap();
     let mut x0 = vec![0.0; grid.cells()];
     for j in 0..n {
         x0[grid.index(0, j)] = 1.0;

@@ -115,6 +115,7 @@ impl<T: Scalar> BandCholesky<T> {
     }
 
     /// `x = A⁻¹ b` (in cell order).
+    #[allow(clippy::needless_range_loop)] // band indexing: clearer as written
     pub(crate) fn solve(&mut self, b: &[T], x: &mut [T]) {
         let (n, m, w) = (self.n, self.m, self.m + 1);
         let y = &mut self.work;

@@ -1,22 +1,34 @@
 //! One level of the hierarchy: the 5-point operator of a coarse grid, built from the next finer
 //! level's coefficients, and the grid transfers between the two.
 //!
-//! **Coarse operator.** Cells are aggregated 2 × 2 (1-wide aggregates at the far edge of an
-//! odd side). With `P₀` the piecewise-constant prolongation of the aggregates,
-//! `A_c = ½·P₀ᵀ·A·P₀` over the active (free) cells: each coarse coupling is half the sum of the
-//! fine couplings across the coarse face, each coarse center half the sum of the aggregate's
-//! centers and of twice its internal couplings. This is again a 5-point operator, symmetric
-//! when `A` is, and an M-matrix when `A` is one; for the diffusion part of a homogeneous medium
-//! it is exactly the rediscretised operator on the coarse grid (the Galerkin product with
-//! piecewise constants is twice too stiff there, which is the factor ½). It sums conductances
-//! across coarse faces, so it follows the user's jumping coefficients instead of assuming a
-//! Poisson operator.
+//! Cells are aggregated 2 × 2 (1-wide aggregates at the far end of an odd side); the centre of
+//! an aggregate is the coarse cell centre. Everything is built from conductances
+//! `g = −coupling` (non-negative couplings count as zero conductance) along straight lines of
+//! fine cells, the way a hydrogeologist upscales a layered column:
 //!
-//! **Transfers.** Prolongation `P` is bilinear interpolation between coarse cell centres
-//! (weights 9/16, 3/16, 3/16, 1/16 in the interior of a regular grid), with constant
-//! extrapolation at the grid edges so that `P` reproduces constants; restriction is its
-//! transpose `Pᵀ`. Inactive cells (fixed cells, and coarse cells whose whole aggregate is
-//! fixed) are left out of both, so the V-cycle stays symmetric.
+//! * **Interpolation** (prolongation `P`). Along one axis, a fine cell lies between its own
+//!   aggregate's centre and the next aggregate's centre. The path between the two centres is
+//!   the half-cell inside the own aggregate (conductance `2·g_int`, with `g_int` the coupling
+//!   between the two siblings), the face (`g_f`) and the half-cell on the far side. The fine
+//!   cell takes the share `w = r₁/(r₁ + r_f + r₂)` of the far centre (`r = 1/g`), the value of
+//!   a flux-continuous linear profile. In a homogeneous medium `w = 1/4`, which is bilinear
+//!   interpolation between cell centres; across a barrier `w → 0`; a cell cut off from its
+//!   sibling follows the neighbour. In 2-D the weights of the two axes multiply. `P`
+//!   reproduces constants. Restriction is the transpose, `R = Pᵀ`.
+//! * **Coarse couplings.** The series conductance of that same path, for every fine line
+//!   crossing a coarse face, summed over the lines (parallel) — after sharing each line's
+//!   conductance between the coarse lines that interpolate it, in the proportions of the
+//!   interpolation in the cross direction (a lumped Galerkin product), so that a fine line that
+//!   follows the neighbouring coarse line gives its conductance to that line. For a homogeneous
+//!   medium this is the rediscretised operator on the coarse grid.
+//! * **Coarse centers**: the sum of the coarse conductances plus each fine cell's row-sum
+//!   excess (storage terms, couplings to fixed cells or to the zero values outside the grid),
+//!   reached from the coarse centre through the mean half-cell resistance and shared like the
+//!   interpolation.
+//!
+//! The coarse operator is again symmetric, 5-point and an M-matrix. Inactive cells (fixed
+//! cells, coarse cells with no unknown under them) are left out of `P` and `R` and are identity
+//! rows, so the V-cycle stays symmetric.
 
 use crate::precond::factor::{eliminated_row, lit};
 use crate::stencil::Stencil5;
@@ -228,7 +240,8 @@ impl<T: Scalar> Level<T> {
         let mut active = vec![false; nc];
         let mut wx = vec![T::zero(); n];
         let mut wy = vec![T::zero(); n];
-        let narrow = |w: &[T]| -> Vec<f32> { w.iter().map(|v| v.to_f32().unwrap_or(0.0)).collect() };
+        let narrow =
+            |w: &[T]| -> Vec<f32> { w.iter().map(|v| v.to_f32().unwrap_or(0.0)).collect() };
         // Pass 1: interpolation weights towards the neighbouring aggregates.
         for j in 0..ny {
             for i in 0..nx {
@@ -275,7 +288,11 @@ impl<T: Scalar> Level<T> {
                     let own = half * ((T::one() - wy[k]) + (T::one() - wy[k + 1]));
                     let qj = ay.neighbour(j);
                     let (a, b) = (on(ci + ncx * qj, kc), on(ci + 1 + ncx * qj, kc + 1));
-                    let (a, b) = if a == kc || b == kc + 1 { (kc, kc + 1) } else { (a, b) };
+                    let (a, b) = if a == kc || b == kc + 1 {
+                        (kc, kc + 1)
+                    } else {
+                        (a, b)
+                    };
                     for (l, r, share) in [(kc, kc + 1, own), (a, b, T::one() - own)] {
                         rows[l].east = rows[l].east - t * share;
                         rows[r].west = rows[r].west - t * share;

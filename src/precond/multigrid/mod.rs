@@ -5,12 +5,14 @@
 //!
 //! * **Coarsening**: 2 × 2 aggregation of cells on every level, until a level has at most
 //!   [`MultigridSettings::coarsest_cells`] cells (or cannot shrink further). Every level keeps a
-//!   5-point stencil: `A_c = ½·P₀ᵀ·A·P₀` with `P₀` the piecewise-constant prolongation (see
-//!   the level module's notes in the developer guide). For a heterogeneous medium the coarse
-//!   couplings are half the summed conductances across each coarse face, so they come from the
-//!   user's coefficients, not from a model problem.
-//! * **Transfers**: bilinear interpolation between coarse cell centres (`P`) and its transpose
-//!   (`R = Pᵀ`), fixed cells left out.
+//!   5-point stencil, built from the finer level's conductances by series (along a line of
+//!   cells) and parallel (across a coarse face) combination, so it follows the user's jumping
+//!   coefficients instead of assuming a model problem. In a homogeneous medium it is the
+//!   rediscretised operator.
+//! * **Transfers**: operator-dependent interpolation between coarse cell centres (`P`): each
+//!   fine cell takes the value of a flux-continuous linear profile between its own and the
+//!   neighbouring aggregate's centre (bilinear interpolation in a homogeneous medium, none
+//!   across a barrier); restriction is its transpose (`R = Pᵀ`); fixed cells are left out.
 //! * **Smoother**: red-black Gauss–Seidel, `ν` sweeps red-then-black before the coarse
 //!   correction and `ν` sweeps black-then-red after it (the mirror image), so the V-cycle is a
 //!   symmetric operator.
@@ -19,6 +21,17 @@
 //! With `A` symmetric positive definite, every coarse operator is SPD and each Gauss–Seidel
 //! sweep is a contraction in the energy norm, so the V-cycle `B` is symmetric positive
 //! definite (its error operator `I − B·A` has every eigenvalue below 1) and PCG may use it.
+//!
+//! **Measured** (`cargo run --release --example iterations`, `tests/multigrid.rs`): on the
+//! Dirichlet Poisson problem one V(3,3) cycle reduces the residual by a factor of about 0.08–0.09,
+//! whatever the grid size, and MG-PCG needs 7–8 iterations to 10⁻⁸ from 64² to 2048². On a
+//! layered field with blocks (conductivity contrast 10⁴) MG-PCG needs about 20 iterations, but
+//! the standalone cycle *diverges* there: the coarse operators of the lower levels, upscaled
+//! twice or more, under-estimate the energy of some interpolated corrections across layer
+//! boundaries, so the cycle over-corrects those components (eigenvalues of `B·A` above 2).
+//! PCG is unaffected by that (it only needs `B` SPD), so **use the V-cycle as a PCG
+//! preconditioner on heterogeneous fields**; the standalone solver is for smooth coefficients.
+//! Results support, and do not replace, engineering judgement: check the report.
 
 mod direct;
 mod level;
@@ -138,11 +151,7 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
             );
         }
         if !(1..=MAX_DIRECT_CELLS).contains(&settings.coarsest_cells) {
-            return bad(
-                "coarsest_cells",
-                settings.coarsest_cells,
-                "1 to 4096 cells",
-            );
+            return bad("coarsest_cells", settings.coarsest_cells, "1 to 4096 cells");
         }
         if settings.max_levels == 0 {
             return bad("max_levels", 0, "at least 1 level");
@@ -345,7 +354,10 @@ impl<T: Scalar, S: Stencil5<T>> IterativeSolver<T> for Multigrid<T, S> {
         observer: &mut dyn FnMut(&Progress<'_>),
     ) -> Result<Report, Error> {
         check_grid(self.grid, op.grid())?;
-        let method = format!("multigrid V({nu},{nu})", nu = self.settings.smoothing_sweeps);
+        let method = format!(
+            "multigrid V({nu},{nu})",
+            nu = self.settings.smoothing_sweeps
+        );
         let options = self.options.clone();
         correction_solve(op, rhs, x, ws, observer, &options, method, |r, z| {
             self.cycle(r, z)
