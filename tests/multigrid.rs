@@ -1,9 +1,9 @@
 //! Multigrid and incomplete-factorisation iteration counts against published behaviour, at
 //! sizes that run in a few seconds (the large sizes are in `examples/iterations.rs`).
 
-mod common;
+mod precond_problems;
 
-use common::{fitted_exponent, heterogeneous, iterations, poisson};
+use precond_problems::{fitted_exponent, heterogeneous, iterations, poisson};
 use quintet::prelude::*;
 
 /// Standalone V-cycle convergence factor on the Dirichlet Poisson problem, per cycle, from the

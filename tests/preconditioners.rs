@@ -1,9 +1,9 @@
 //! SSOR, IC(0), MIC(0), SIP and multigrid against outside references: a dense Cholesky solve
 //! (nalgebra), the symmetry PCG theory needs, and the exactness of IC(0) on a chain.
 
-mod common;
+mod precond_problems;
 
-use common::{dense_reference, poisson, random_diffusion};
+use precond_problems::{dense_reference, poisson, random_diffusion};
 use proptest::prelude::*;
 use quintet::prelude::*;
 

@@ -13,7 +13,7 @@
 //! | [`Multigrid`] | hierarchy | under 1 (coarse levels and vectors) | bounded, independent of `h` |
 //!
 //! Every preconditioner here is built from the operator's eliminated coefficients
-//! ([`Stencil5::eliminated_coeffs`](crate::Stencil5::eliminated_coeffs)): fixed cells are
+//! ([`Stencil5::eliminated_coeffs`]): fixed cells are
 //! identity rows, couplings towards them are removed.
 //!
 //! A preconditioner is built once from an operator (setup: factorisation, scaling, hierarchy)
