@@ -32,6 +32,7 @@ pub struct Workspace<T> {
     kernels: Option<Kernels<T>>,
     vectors: [Vec<T>; MAX_VECTORS],
     history: Vec<f64>,
+    threads_allowed: bool,
 }
 
 impl<T: Scalar> Workspace<T> {
@@ -46,7 +47,22 @@ impl<T: Scalar> Workspace<T> {
             kernels: None,
             vectors: Default::default(),
             history: Vec::new(),
+            threads_allowed: true,
         }
+    }
+
+    /// The same workspace, with the drivers' kernels allowed (`true`, the default) or not
+    /// allowed to use rayon's thread pool. Results are the same bits either way; turn threads
+    /// off when you run many independent solves in parallel yourself.
+    ///
+    /// ```
+    /// let ws = quintet::Workspace::<f64>::new().with_threads(false);
+    /// # let _ = ws;
+    /// ```
+    pub fn with_threads(mut self, allowed: bool) -> Workspace<T> {
+        self.threads_allowed = allowed;
+        self.kernels = self.kernels.map(|k| k.with_threads(allowed));
+        self
     }
 
     /// A workspace already sized for any driver on `grid`.
@@ -70,7 +86,7 @@ impl<T: Scalar> Workspace<T> {
         count: usize,
     ) -> (&mut Kernels<T>, &mut [Vec<T>; MAX_VECTORS], &mut Vec<f64>) {
         if self.kernels.as_ref().map(Kernels::grid) != Some(grid) {
-            self.kernels = Some(Kernels::new(grid));
+            self.kernels = Some(Kernels::new(grid).with_threads(self.threads_allowed));
         }
         let n = grid.cells();
         for v in self.vectors.iter_mut().take(count) {
