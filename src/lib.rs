@@ -97,10 +97,12 @@ pub use grid::{Grid, Side};
 pub use monitor::Monitor;
 pub use precond::{Identity, Jacobi, Preconditioner};
 pub use solve::{
-    estimate_relaxation, Cg, IterativeSolver, Pcg, RelaxationEstimate, Report, SolveOptions, Sor,
-    SteepestDescent, SweepOrder, Workspace,
+    estimate_relaxation, Cg, IterativeSolver, MixedRefinement, Pcg, RelaxationEstimate, Report,
+    SolveOptions, Sor, SteepestDescent, SweepOrder, Workspace,
 };
-pub use stencil::{check_symmetry, Banded5, ClosureStencil, Coeffs5, FixedCells, Stencil5};
+pub use stencil::{
+    check_symmetry, Banded5, ClosureStencil, Coeffs5, FixedCells, Stencil5, Symmetric5,
+};
 pub use stop::{Progress, StopReason, StopRule, Tolerances};
 
 /// The floating-point types quintet works in (`f64` and `f32`).
@@ -137,9 +139,9 @@ pub(crate) fn to_f64<T: Scalar>(v: T) -> f64 {
 pub mod prelude {
     pub use crate::{
         check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, Coeffs5, Error,
-        FixedCells, Grid, Identity, IterativeSolver, Jacobi, Pcg, Preconditioner, Progress, Report,
-        Side, SolveOptions, Sor, SteepestDescent, Stencil5, StopReason, StopRule, SweepOrder,
-        Tolerances, Workspace,
+        FixedCells, Grid, Identity, IterativeSolver, Jacobi, MixedRefinement, Pcg, Preconditioner,
+        Progress, Report, Side, SolveOptions, Sor, SteepestDescent, Stencil5, StopReason, StopRule,
+        SweepOrder, Symmetric5, Tolerances, Workspace,
     };
 }
 

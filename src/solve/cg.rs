@@ -98,11 +98,7 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for Pcg<P> {
         let (bb, mut rr) = begin(op, rhs, x, kernels, r, q)?;
         let pre = &mut self.preconditioner;
         let identity = pre.is_identity();
-        let method = if identity {
-            "CG".to_string()
-        } else {
-            format!("PCG + {}", pre.name())
-        };
+        let method = pcg_name(pre);
         let fixed = op.fixed_cells();
         let n = op.grid().cells();
         let all = 0..n;
@@ -166,5 +162,14 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for Pcg<P> {
                 return conclude(monitor.finish(method, reason));
             }
         }
+    }
+}
+
+/// The report name of PCG with `pre`: `"CG"` for the identity, `"PCG + <name>"` otherwise.
+pub(crate) fn pcg_name<T: Scalar>(pre: &impl Preconditioner<T>) -> String {
+    if pre.is_identity() {
+        "CG".to_string()
+    } else {
+        format!("PCG + {}", pre.name())
     }
 }

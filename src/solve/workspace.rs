@@ -10,6 +10,11 @@ pub(crate) const MAX_VECTORS: usize = 4;
 /// it to every solve of a time loop or a calibration sweep: after the first solve on a grid,
 /// nothing is allocated again (except the copy of the history in each [`Report`](crate::Report)).
 ///
+/// With the `parallel` feature, call threaded solves from inside a rayon pool
+/// (`pool.install(|| …)`) if every allocation matters: from a thread outside the pool, rayon
+/// passes each kernel's job through its global queue, which allocates a small block every 63
+/// jobs.
+///
 /// # Example
 ///
 /// ```
