@@ -10,7 +10,7 @@
 //! the bits of the result.
 //!
 //! **The reduction seam.** Every global reduction (sum of a dot product, maximum of a change)
-//! ends in [`Kernels::finish`], the one place a distributed backend would turn rank-local
+//! ends in one private function, `Kernels::finish`, the one place a distributed backend would turn rank-local
 //! partials into global values (an all-reduce). Neighbour access goes through
 //! [`Stencil5::apply_rows`], behind which a halo exchange can hide.
 //!
@@ -52,6 +52,7 @@ pub struct Kernels<T> {
     rows_per_block: usize,
     block_cells: usize,
     partials: Vec<(T, T)>,
+    threads_allowed: bool,
 }
 
 impl<T: Scalar> Kernels<T> {
@@ -71,7 +72,25 @@ impl<T: Scalar> Kernels<T> {
             rows_per_block,
             block_cells,
             partials: vec![(T::zero(), T::zero()); blocks],
+            threads_allowed: true,
         }
+    }
+
+    /// The same kernels, allowed (`true`, the default) or not allowed to use rayon's pool.
+    /// Results are the same bits either way; run serially when you parallelise over many
+    /// independent solves yourself (calibration runs, ensembles).
+    ///
+    /// ```
+    /// let grid = quintet::Grid::new(300, 300)?;
+    /// let mut serial = quintet::kernels::Kernels::<f64>::new(grid).with_threads(false);
+    /// let mut threaded = quintet::kernels::Kernels::<f64>::new(grid);
+    /// let v: Vec<f64> = (0..grid.cells()).map(|k| (k as f64).sin()).collect();
+    /// assert_eq!(serial.dot(&v, &v).to_bits(), threaded.dot(&v, &v).to_bits());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn with_threads(mut self, allowed: bool) -> Kernels<T> {
+        self.threads_allowed = allowed;
+        self
     }
 
     /// The grid these kernels are cut for.
@@ -349,7 +368,7 @@ impl<T: Scalar> Kernels<T> {
 
     #[cfg(feature = "parallel")]
     fn parallel(&self) -> bool {
-        self.grid.cells() >= PARALLEL_MIN_CELLS
+        self.threads_allowed && self.grid.cells() >= PARALLEL_MIN_CELLS
     }
 
     fn clip<'a>(&self, v: &'a [T]) -> &'a [T] {

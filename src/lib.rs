@@ -106,10 +106,12 @@ pub use precond::{
     Preconditioner, Sip, SipSettings, Ssor, WeakPivot,
 };
 pub use solve::{
-    estimate_relaxation, Cg, IterativeSolver, Pcg, RelaxationEstimate, Report, SolveOptions, Sor,
-    SteepestDescent, SweepOrder, Workspace,
+    estimate_relaxation, Cg, IterativeSolver, MixedRefinement, Pcg, RelaxationEstimate, Report,
+    SolveOptions, Sor, SteepestDescent, SweepOrder, Workspace,
 };
-pub use stencil::{check_symmetry, Banded5, ClosureStencil, Coeffs5, FixedCells, Stencil5};
+pub use stencil::{
+    check_symmetry, Banded5, ClosureStencil, Coeffs5, FixedCells, Stencil5, Symmetric5,
+};
 pub use stop::{Progress, StopReason, StopRule, Tolerances};
 
 /// The floating-point types quintet works in (`f64` and `f32`).
@@ -147,9 +149,9 @@ pub mod prelude {
     pub use crate::{
         check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, Coeffs5, Error,
         FactorSettings, FixedCells, Grid, Identity, IncompleteCholesky, IterativeSolver, Jacobi,
-        Multigrid, MultigridSettings, Pcg, Preconditioner, Progress, Report, Side, Sip,
-        SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule,
-        SweepOrder, Tolerances, WeakPivot, Workspace,
+        MixedRefinement, Multigrid, MultigridSettings, Pcg, Preconditioner, Progress, Report, Side,
+        Sip, SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule,
+        SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
     };
 }
 

@@ -98,11 +98,7 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for Pcg<P> {
         let (bb, mut rr) = begin(op, rhs, x, kernels, r, q)?;
         let pre = &mut self.preconditioner;
         let identity = pre.is_identity();
-        let method = if identity {
-            "CG".to_string()
-        } else {
-            format!("PCG + {}", pre.name())
-        };
+        let method = pcg_name(pre);
         let fixed = op.fixed_cells();
         let n = op.grid().cells();
         let all = 0..n;
@@ -117,15 +113,34 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for Pcg<P> {
             zero_fixed(fixed, &all, z);
             kernels.dot(r, z)
         };
-        let mut rz = if identity {
-            rr
-        } else {
-            precondition(r, z, kernels)
-        };
-        p.copy_from_slice(if identity { r } else { z });
         let mut refresh = Refresh::new(self.options.residual_refresh);
+        let mut rz_previous: Option<T> = None;
 
         loop {
+            let rz = if identity {
+                rr
+            } else {
+                precondition(r, z, kernels)
+            };
+            if !is_positive(rz) {
+                let iteration = monitor.iteration();
+                if !rz.is_finite() {
+                    return conclude(monitor.finish(method, StopReason::NonFinite));
+                }
+                let report = monitor.finish(method, StopReason::Breakdown);
+                return Err(Error::PreconditionerNotPositive {
+                    iteration,
+                    value: to_f64(rz),
+                    report: Box::new(report),
+                });
+            }
+            let direction = if identity { &*r } else { &*z };
+            match rz_previous {
+                None => p.copy_from_slice(direction),
+                Some(previous) => kernels.direction_update(direction, rz / previous, p),
+            }
+            rz_previous = Some(rz);
+
             let pq = kernels.apply_dot_free(op, p, q);
             if !is_positive(pq) {
                 if !pq.is_finite() {
@@ -146,32 +161,15 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for Pcg<P> {
             if let Some(reason) = verdict {
                 return conclude(monitor.finish(method, reason));
             }
-
-            let rz_new = if identity {
-                rr
-            } else {
-                precondition(r, z, kernels)
-            };
-            if !is_positive(rz_new) {
-                let reason = if rz_new.is_finite() {
-                    StopReason::Breakdown
-                } else {
-                    StopReason::NonFinite
-                };
-                let iteration = monitor.iteration();
-                let report = monitor.finish(method, reason);
-                if reason == StopReason::NonFinite {
-                    return conclude(report);
-                }
-                return Err(Error::PreconditionerNotPositive {
-                    iteration,
-                    value: to_f64(rz_new),
-                    report: Box::new(report),
-                });
-            }
-            let beta = rz_new / rz;
-            rz = rz_new;
-            kernels.direction_update(if identity { r } else { z }, beta, p);
         }
+    }
+}
+
+/// The report name of PCG with `pre`: `"CG"` for the identity, `"PCG + <name>"` otherwise.
+pub(crate) fn pcg_name<T: Scalar>(pre: &impl Preconditioner<T>) -> String {
+    if pre.is_identity() {
+        "CG".to_string()
+    } else {
+        format!("PCG + {}", pre.name())
     }
 }

@@ -4,9 +4,10 @@
 //!
 //! Every driver solves in place from the caller's `x` (a warm start), leaves fixed cells
 //! untouched, reuses a caller-owned [`Workspace`], and reports through the shared
-//! [`Monitor`](crate::Monitor).
+//! [`crate::Monitor`].
 
 mod cg;
+mod refine;
 mod relaxation;
 mod report;
 mod sor;
@@ -17,6 +18,7 @@ use std::fmt;
 use std::sync::Arc;
 
 pub use cg::{Cg, Pcg};
+pub use refine::MixedRefinement;
 pub use relaxation::{estimate_relaxation, RelaxationEstimate};
 pub use report::Report;
 pub use sor::{Sor, SweepOrder};

@@ -27,7 +27,7 @@ use crate::stop::{relative, StopReason};
 /// println!("{report}");
 /// # Ok::<(), quintet::Error>(())
 /// ```
-#[derive(Clone, Debug, PartialEq)]
+#[derive(Clone, PartialEq)]
 #[non_exhaustive]
 pub struct Report {
     /// The driver (and preconditioner) that ran, e.g. `"PCG + Jacobi"`.
@@ -118,5 +118,44 @@ impl fmt::Display for Report {
             self.reduction(),
             self.elapsed.as_secs_f64(),
         )
+    }
+}
+
+/// Debug output with the history shortened to its ends, so that printing an error from a
+/// long solve stays readable.
+impl fmt::Debug for Report {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.debug_struct("Report")
+            .field("method", &self.method)
+            .field("reason", &self.reason)
+            .field("iterations", &self.iterations)
+            .field("residual_norm", &self.residual_norm)
+            .field("initial_residual_norm", &self.initial_residual_norm)
+            .field("rhs_norm", &self.rhs_norm)
+            .field("history", &HistoryEnds(&self.history))
+            .field("elapsed", &self.elapsed)
+            .finish()
+    }
+}
+
+/// A residual history printed as its first and last few entries.
+struct HistoryEnds<'a>(&'a [f64]);
+
+impl fmt::Debug for HistoryEnds<'_> {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        const ENDS: usize = 3;
+        let h = self.0;
+        if h.len() <= 2 * ENDS + 1 {
+            return f.debug_list().entries(h).finish();
+        }
+        write!(f, "[")?;
+        for v in &h[..ENDS] {
+            write!(f, "{v:e}, ")?;
+        }
+        write!(f, "... {} more ...", h.len() - 2 * ENDS)?;
+        for v in &h[h.len() - ENDS..] {
+            write!(f, ", {v:e}")?;
+        }
+        write!(f, "]")
     }
 }

@@ -10,6 +10,11 @@ pub(crate) const MAX_VECTORS: usize = 4;
 /// it to every solve of a time loop or a calibration sweep: after the first solve on a grid,
 /// nothing is allocated again (except the copy of the history in each [`Report`](crate::Report)).
 ///
+/// With the `parallel` feature, call threaded solves from inside a rayon pool
+/// (`pool.install(|| …)`) if every allocation matters: from a thread outside the pool, rayon
+/// passes each kernel's job through its global queue, which allocates a small block every 63
+/// jobs.
+///
 /// # Example
 ///
 /// ```
@@ -32,6 +37,7 @@ pub struct Workspace<T> {
     kernels: Option<Kernels<T>>,
     vectors: [Vec<T>; MAX_VECTORS],
     history: Vec<f64>,
+    threads_allowed: bool,
 }
 
 impl<T: Scalar> Workspace<T> {
@@ -46,7 +52,22 @@ impl<T: Scalar> Workspace<T> {
             kernels: None,
             vectors: Default::default(),
             history: Vec::new(),
+            threads_allowed: true,
         }
+    }
+
+    /// The same workspace, with the drivers' kernels allowed (`true`, the default) or not
+    /// allowed to use rayon's thread pool. Results are the same bits either way; turn threads
+    /// off when you run many independent solves in parallel yourself.
+    ///
+    /// ```
+    /// let ws = quintet::Workspace::<f64>::new().with_threads(false);
+    /// # let _ = ws;
+    /// ```
+    pub fn with_threads(mut self, allowed: bool) -> Workspace<T> {
+        self.threads_allowed = allowed;
+        self.kernels = self.kernels.map(|k| k.with_threads(allowed));
+        self
     }
 
     /// A workspace already sized for any driver on `grid`.
@@ -70,7 +91,7 @@ impl<T: Scalar> Workspace<T> {
         count: usize,
     ) -> (&mut Kernels<T>, &mut [Vec<T>; MAX_VECTORS], &mut Vec<f64>) {
         if self.kernels.as_ref().map(Kernels::grid) != Some(grid) {
-            self.kernels = Some(Kernels::new(grid));
+            self.kernels = Some(Kernels::new(grid).with_threads(self.threads_allowed));
         }
         let n = grid.cells();
         for v in self.vectors.iter_mut().take(count) {

@@ -3,7 +3,8 @@
 use std::ops::Range;
 
 use super::{
-    check_grid, check_len, row_neighbourhood, row_product, survey, Coeffs5, FixedCells, Stencil5,
+    cast_scalar, check_grid, check_len, row_neighbourhood, row_product, survey, Coeffs5,
+    FixedCells, Stencil5,
 };
 use crate::{Error, Grid, Scalar};
 
@@ -166,6 +167,37 @@ impl<T: Scalar> Banded5<T> {
         Ok(self)
     }
 
+    /// The same operator in another scalar type (for example `f32` for a mixed-precision
+    /// inner solve), fixed cells included.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::NonFinite`] if a coefficient does not fit the new type (overflows to infinity).
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(4, 4)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let single: Banded5<f32> = op.cast()?;
+    /// assert_eq!(single.center()[0], 4.0f32);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn cast<U: Scalar>(&self) -> Result<Banded5<U>, Error> {
+        let convert = |v: &[T]| -> Vec<U> { v.iter().map(|&e| cast_scalar(e)).collect() };
+        let op = Banded5::new(
+            self.grid,
+            convert(&self.center),
+            convert(&self.west),
+            convert(&self.east),
+            convert(&self.south),
+            convert(&self.north),
+        )?;
+        match &self.fixed {
+            Some(fixed) => op.with_fixed(fixed.clone()),
+            None => Ok(op),
+        }
+    }
+
     /// Center (diagonal) coefficients.
     ///
     /// ```
@@ -279,13 +311,14 @@ impl<T: Scalar> Stencil5<T> for Banded5<T> {
     fn apply_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
         let (nx, ny) = (self.grid.nx(), self.grid.ny());
         for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
-            let cells = j * nx..(j + 1) * nx;
-            let (c, w, e) = (
-                &self.center[cells.clone()],
-                &self.west[cells.clone()],
-                &self.east[cells.clone()],
+            // Each band cut to exactly `nx` entries, so indexing below `nx` needs no checks.
+            let (c, w, e, s, n) = (
+                &self.center[j * nx..][..nx],
+                &self.west[j * nx..][..nx],
+                &self.east[j * nx..][..nx],
+                &self.south[j * nx..][..nx],
+                &self.north[j * nx..][..nx],
             );
-            let (s, n) = (&self.south[cells.clone()], &self.north[cells]);
             let (south, row, north) = row_neighbourhood(x, nx, ny, j);
             row_product(
                 |i| Coeffs5 {

@@ -1,6 +1,6 @@
 //! The 5-point operator: the [`Stencil5`] trait, its coefficient record [`Coeffs5`], and the
-//! implementations [`Banded5`] (five owned arrays) and [`ClosureStencil`] (coefficients computed
-//! on the fly).
+//! implementations [`Banded5`] (five owned arrays), [`Symmetric5`] (three arrays, for
+//! symmetric operators) and [`ClosureStencil`] (coefficients computed on the fly).
 //!
 //! Row `k` of `A·φ = q` reads
 //!
@@ -16,6 +16,7 @@
 mod banded;
 mod closure;
 mod fixed;
+mod symmetric;
 mod validate;
 
 use std::ops::Range;
@@ -23,6 +24,7 @@ use std::ops::Range;
 pub use banded::Banded5;
 pub use closure::ClosureStencil;
 pub use fixed::FixedCells;
+pub use symmetric::Symmetric5;
 pub use validate::check_symmetry;
 pub(crate) use validate::survey;
 
@@ -340,6 +342,11 @@ impl<T: Scalar, S: Stencil5<T> + ?Sized> Stencil5<T> for &S {
     }
 }
 
+/// `v` in another scalar type; NaN if it cannot be represented (validation then names it).
+pub(crate) fn cast_scalar<T: Scalar, U: Scalar>(v: T) -> U {
+    U::from(v).unwrap_or_else(U::nan)
+}
+
 /// `Err(LengthMismatch)` unless `found == expected`.
 pub(crate) fn check_len(what: &'static str, expected: usize, found: usize) -> Result<(), Error> {
     if expected == found {
@@ -383,6 +390,10 @@ pub(crate) fn row_neighbourhood<T>(
 
 /// The one row product every operator shares: `y_i = Σ coeff·x` over the row, in the fixed
 /// summation order center, west, east, south, north (absent neighbours skipped).
+///
+/// Interior cells of interior rows go through a branch-free loop over slices cut to one length,
+/// so the compiler drops the bounds checks and vectorises it; the two end cells of a row and
+/// the first and last rows take the general path. Both paths add in the same order.
 #[inline(always)]
 pub(crate) fn row_product<T: Scalar>(
     coeffs: impl Fn(usize) -> Coeffs5<T>,
@@ -391,22 +402,56 @@ pub(crate) fn row_product<T: Scalar>(
     north: Option<&[T]>,
     y: &mut [T],
 ) {
-    let nx = row.len();
-    for (i, yi) in y.iter_mut().enumerate().take(nx) {
-        let c = coeffs(i);
-        let mut s = c.center * row[i];
-        if i > 0 {
-            s = s + c.west * row[i - 1];
+    let nx = row.len().min(y.len());
+    let (row, y) = (&row[..nx], &mut y[..nx]);
+    match (south, north) {
+        (Some(xs), Some(xn)) if nx >= 3 && xs.len() >= nx && xn.len() >= nx => {
+            y[0] = cell_product(&coeffs, 0, south, row, north);
+            let m = nx - 2;
+            let (xw, xc, xe) = (&row[..m], &row[1..m + 1], &row[2..m + 2]);
+            let (xs, xn) = (&xs[1..m + 1], &xn[1..m + 1]);
+            let inner = &mut y[1..m + 1];
+            for i in 0..m {
+                let c = coeffs(i + 1);
+                inner[i] = c.center * xc[i]
+                    + c.west * xw[i]
+                    + c.east * xe[i]
+                    + c.south * xs[i]
+                    + c.north * xn[i];
+            }
+            y[nx - 1] = cell_product(&coeffs, nx - 1, south, row, north);
         }
-        if i + 1 < nx {
-            s = s + c.east * row[i + 1];
+        _ => {
+            for (i, yi) in y.iter_mut().enumerate() {
+                *yi = cell_product(&coeffs, i, south, row, north);
+            }
         }
-        if let Some(xs) = south {
-            s = s + c.south * xs[i];
-        }
-        if let Some(xn) = north {
-            s = s + c.north * xn[i];
-        }
-        *yi = s;
     }
+}
+
+/// `(A·x)_i` for one cell of a row, with the couplings towards missing neighbours left out.
+#[inline(always)]
+fn cell_product<T: Scalar>(
+    coeffs: &impl Fn(usize) -> Coeffs5<T>,
+    i: usize,
+    south: Option<&[T]>,
+    row: &[T],
+    north: Option<&[T]>,
+) -> T {
+    let nx = row.len();
+    let c = coeffs(i);
+    let mut s = c.center * row[i];
+    if i > 0 {
+        s = s + c.west * row[i - 1];
+    }
+    if i + 1 < nx {
+        s = s + c.east * row[i + 1];
+    }
+    if let Some(xs) = south {
+        s = s + c.south * xs[i];
+    }
+    if let Some(xn) = north {
+        s = s + c.north * xn[i];
+    }
+    s
 }

@@ -1,0 +1,290 @@
+//! Test problems and an independent dense reference, shared by the integration tests.
+//!
+//! Everything here is written from the definitions (row k of A·x = q reads
+//! `center·x_k + west·x_{k−1} + east·x_{k+1} + south·x_{k−nx} + north·x_{k+nx}`), without the
+//! crate's kernels, so the tests compare quintet with code that does not share its paths.
+
+#![allow(dead_code)]
+
+use nalgebra::{DMatrix, DVector};
+use quintet::{Banded5, Coeffs5, FixedCells, Grid};
+
+/// SplitMix64: a small deterministic generator for test data (Steele, Lea & Flood, "Fast
+/// splittable pseudorandom number generators", OOPSLA 2014).
+pub struct Rng(u64);
+
+impl Rng {
+    pub fn new(seed: u64) -> Rng {
+        Rng(seed)
+    }
+    pub fn next_u64(&mut self) -> u64 {
+        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
+        let mut z = self.0;
+        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+        z ^ (z >> 31)
+    }
+    /// Uniform in [0, 1).
+    pub fn uniform(&mut self) -> f64 {
+        (self.next_u64() >> 11) as f64 / (1u64 << 53) as f64
+    }
+    /// Uniform in [lo, hi).
+    pub fn range(&mut self, lo: f64, hi: f64) -> f64 {
+        lo + (hi - lo) * self.uniform()
+    }
+    /// Log-uniform in [lo, hi).
+    pub fn log_range(&mut self, lo: f64, hi: f64) -> f64 {
+        self.range(lo.ln(), hi.ln()).exp()
+    }
+}
+
+/// A test system: five coefficient arrays, fixed cells, right-hand side and the values held at
+/// the fixed cells (stored in `x0`, the initial guess).
+#[derive(Clone, Debug)]
+pub struct Problem {
+    pub grid: Grid,
+    pub bands: [Vec<f64>; 5],
+    pub fixed: Vec<usize>,
+    pub rhs: Vec<f64>,
+    pub x0: Vec<f64>,
+}
+
+impl Problem {
+    pub fn coeffs(&self, k: usize) -> Coeffs5<f64> {
+        let [c, w, e, s, n] = &self.bands;
+        Coeffs5 {
+            center: c[k],
+            west: w[k],
+            east: e[k],
+            south: s[k],
+            north: n[k],
+        }
+    }
+
+    pub fn banded(&self) -> Banded5<f64> {
+        let [c, w, e, s, n] = self.bands.clone();
+        let op = Banded5::new(self.grid, c, w, e, s, n).expect("valid test coefficients");
+        if self.fixed.is_empty() {
+            op
+        } else {
+            op.with_fixed(FixedCells::new(self.grid, self.fixed.iter().copied()).unwrap())
+                .unwrap()
+        }
+    }
+
+    pub fn is_fixed(&self, k: usize) -> bool {
+        self.fixed.contains(&k)
+    }
+
+    pub fn free_cells(&self) -> Vec<usize> {
+        (0..self.grid.cells())
+            .filter(|&k| !self.is_fixed(k))
+            .collect()
+    }
+
+    /// (A·x)_k from the raw coefficients.
+    pub fn row_times(&self, k: usize, x: &[f64]) -> f64 {
+        let (nx, ny) = (self.grid.nx(), self.grid.ny());
+        let (i, j) = (k % nx, k / nx);
+        let c = self.coeffs(k);
+        let mut s = c.center * x[k];
+        if i > 0 {
+            s += c.west * x[k - 1];
+        }
+        if i + 1 < nx {
+            s += c.east * x[k + 1];
+        }
+        if j > 0 {
+            s += c.south * x[k - nx];
+        }
+        if j + 1 < ny {
+            s += c.north * x[k + nx];
+        }
+        s
+    }
+
+    /// ‖b − A·x‖₂ over the free cells.
+    pub fn free_residual_norm(&self, x: &[f64]) -> f64 {
+        self.free_cells()
+            .iter()
+            .map(|&k| (self.rhs[k] - self.row_times(k, x)).powi(2))
+            .sum::<f64>()
+            .sqrt()
+    }
+
+    /// The dense system on the free cells: A_ff and b_f = q_f − A_f,fixed·x_fixed.
+    pub fn dense_free_system(&self) -> (DMatrix<f64>, DVector<f64>, Vec<usize>) {
+        let free = self.free_cells();
+        let m = free.len();
+        let mut pos = vec![usize::MAX; self.grid.cells()];
+        for (p, &k) in free.iter().enumerate() {
+            pos[k] = p;
+        }
+        let nx = self.grid.nx();
+        let mut a = DMatrix::zeros(m, m);
+        let mut b = DVector::zeros(m);
+        for (p, &k) in free.iter().enumerate() {
+            let c = self.coeffs(k);
+            a[(p, p)] = c.center;
+            b[p] = self.rhs[k];
+            let (i, j) = (k % nx, k / nx);
+            let neighbours = [
+                (i > 0, k.wrapping_sub(1), c.west),
+                (i + 1 < nx, k + 1, c.east),
+                (j > 0, k.wrapping_sub(nx), c.south),
+                (j + 1 < self.grid.ny(), k + nx, c.north),
+            ];
+            for (present, n, coupling) in neighbours {
+                if !present {
+                    continue;
+                }
+                if self.is_fixed(n) {
+                    b[p] -= coupling * self.x0[n];
+                } else {
+                    a[(p, pos[n])] = coupling;
+                }
+            }
+        }
+        (a, b, free)
+    }
+
+    /// The exact solution by a dense LU factorisation (nalgebra), fixed cells at their values.
+    pub fn reference_solution(&self) -> Vec<f64> {
+        let (a, b, free) = self.dense_free_system();
+        let mut x = self.x0.clone();
+        if free.is_empty() {
+            return x;
+        }
+        let sol = a.lu().solve(&b).expect("reference system is nonsingular");
+        for (p, &k) in free.iter().enumerate() {
+            x[k] = sol[p];
+        }
+        x
+    }
+
+    /// 2-norm condition number of A_ff from its eigenvalues (symmetric problems only).
+    pub fn condition_number(&self) -> f64 {
+        let (a, _, free) = self.dense_free_system();
+        if free.is_empty() {
+            return 1.0;
+        }
+        let eig = a.symmetric_eigen().eigenvalues;
+        let max = eig.iter().copied().fold(f64::MIN, f64::max);
+        let min = eig.iter().copied().fold(f64::MAX, f64::min);
+        max / min
+    }
+
+    /// ‖b_f‖₂ of the free-cell system.
+    pub fn free_rhs_norm(&self) -> f64 {
+        self.dense_free_system().1.norm()
+    }
+}
+
+/// The 5-point Laplacian (4, −1) on an `nx × ny` grid with zero values just outside.
+pub fn laplacian(nx: usize, ny: usize) -> Problem {
+    let grid = Grid::new(nx, ny).unwrap();
+    let mut bands: [Vec<f64>; 5] = Default::default();
+    for k in 0..grid.cells() {
+        let (i, j) = grid.coords(k);
+        let c = Coeffs5::<f64>::laplacian(grid, i, j);
+        for (b, v) in bands
+            .iter_mut()
+            .zip([c.center, c.west, c.east, c.south, c.north])
+        {
+            b.push(v);
+        }
+    }
+    Problem {
+        grid,
+        bands,
+        fixed: Vec::new(),
+        rhs: vec![1.0; grid.cells()],
+        x0: vec![0.0; grid.cells()],
+    }
+}
+
+/// A random symmetric, strictly diagonally dominant system with positive centers (so SPD):
+/// face couplings log-uniform over two decades (sign negative, or mixed when `mixed_signs`),
+/// centers the sum of |couplings| plus a margin, a random fraction of fixed cells whose rows
+/// hold unrelated garbage (the drivers must never use them), random rhs and fixed values.
+pub fn random_sdd(
+    nx: usize,
+    ny: usize,
+    seed: u64,
+    fixed_fraction: f64,
+    mixed_signs: bool,
+) -> Problem {
+    let grid = Grid::new(nx, ny).unwrap();
+    let n = grid.cells();
+    let mut rng = Rng::new(seed);
+    let [mut c, mut w, mut e, mut s, mut nn] = [(); 5].map(|_| vec![0.0; n]);
+    for k in 0..n {
+        let (i, j) = grid.coords(k);
+        if i + 1 < nx {
+            let mut a = -rng.log_range(0.1, 10.0);
+            if mixed_signs && rng.uniform() < 0.3 {
+                a = -a;
+            }
+            e[k] = a;
+            w[k + 1] = a;
+        }
+        if j + 1 < ny {
+            let mut a = -rng.log_range(0.1, 10.0);
+            if mixed_signs && rng.uniform() < 0.3 {
+                a = -a;
+            }
+            nn[k] = a;
+            s[k + nx] = a;
+        }
+    }
+    for k in 0..n {
+        let sum = w[k].abs() + e[k].abs() + s[k].abs() + nn[k].abs();
+        c[k] = sum * (1.0 + rng.range(0.05, 0.5)) + rng.range(0.05, 1.0);
+    }
+    let fixed: Vec<usize> = (0..n).filter(|_| rng.uniform() < fixed_fraction).collect();
+    let mut x0 = vec![0.0; n];
+    let mut rhs = vec![0.0; n];
+    for k in 0..n {
+        rhs[k] = rng.range(-1.0, 1.0);
+        if fixed.contains(&k) {
+            x0[k] = rng.range(-2.0, 2.0);
+            // Garbage in a fixed row: it must not influence anything.
+            c[k] = rng.range(0.5, 50.0);
+            rhs[k] = 1e6 * rng.range(-1.0, 1.0);
+        } else {
+            x0[k] = rng.range(-0.1, 0.1);
+        }
+    }
+    Problem {
+        grid,
+        bands: [c, w, e, s, nn],
+        fixed,
+        rhs,
+        x0,
+    }
+}
+
+/// ‖a − b‖₂.
+pub fn dist(a: &[f64], b: &[f64]) -> f64 {
+    a.iter()
+        .zip(b)
+        .map(|(x, y)| (x - y).powi(2))
+        .sum::<f64>()
+        .sqrt()
+}
+
+/// ‖a‖₂.
+pub fn norm(a: &[f64]) -> f64 {
+    a.iter().map(|x| x * x).sum::<f64>().sqrt()
+}
+
+/// Least-squares slope of log(y) against log(x).
+pub fn log_log_slope(x: &[f64], y: &[f64]) -> f64 {
+    let lx: Vec<f64> = x.iter().map(|v| v.ln()).collect();
+    let ly: Vec<f64> = y.iter().map(|v| v.ln()).collect();
+    let m = lx.len() as f64;
+    let (mx, my) = (lx.iter().sum::<f64>() / m, ly.iter().sum::<f64>() / m);
+    let sxy: f64 = lx.iter().zip(&ly).map(|(a, b)| (a - mx) * (b - my)).sum();
+    let sxx: f64 = lx.iter().map(|a| (a - mx).powi(2)).sum();
+    sxy / sxx
+}

@@ -1,0 +1,349 @@
+//! Every error kind provoked through the public API and matched, with its context (common
+//! practice: bad input gets a typed error that names the cell, never a panic).
+
+mod common;
+
+use quintet::prelude::*;
+
+fn laplace(grid: Grid) -> Banded5<f64> {
+    Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j)).unwrap()
+}
+
+#[test]
+fn invalid_grids() {
+    assert!(matches!(
+        Grid::new(0, 4),
+        Err(Error::InvalidGrid { nx: 0, ny: 4 })
+    ));
+    assert!(matches!(Grid::new(4, 0), Err(Error::InvalidGrid { .. })));
+    assert!(matches!(
+        Grid::new(usize::MAX, 3),
+        Err(Error::InvalidGrid { .. })
+    ));
+}
+
+#[test]
+fn length_mismatches_name_the_array() {
+    let grid = Grid::new(3, 3).unwrap();
+    let v = |n| vec![0.0; n];
+    let err = Banded5::new(grid, v(9), v(9), v(8), v(9), v(9)).unwrap_err();
+    assert_eq!(
+        err,
+        Error::LengthMismatch {
+            what: "east coefficients",
+            expected: 9,
+            found: 8
+        }
+    );
+    let op = laplace(grid);
+    let mut x = v(9);
+    let err = Cg::default().solve(&op, &v(10), &mut x).unwrap_err();
+    assert_eq!(
+        err,
+        Error::LengthMismatch {
+            what: "rhs",
+            expected: 9,
+            found: 10
+        }
+    );
+    let mut short = v(4);
+    let err = Sor::gauss_seidel()
+        .solve(&op, &v(9), &mut short)
+        .unwrap_err();
+    assert_eq!(
+        err,
+        Error::LengthMismatch {
+            what: "x",
+            expected: 9,
+            found: 4
+        }
+    );
+    let mut y = v(2);
+    assert!(matches!(
+        op.apply(&v(9), &mut y),
+        Err(Error::LengthMismatch { what: "y", .. })
+    ));
+    assert!(matches!(
+        op.diagonal(&mut y),
+        Err(Error::LengthMismatch {
+            what: "diagonal",
+            ..
+        })
+    ));
+}
+
+#[test]
+fn grid_mismatch_and_cells_out_of_range() {
+    let (a, b) = (Grid::new(3, 3).unwrap(), Grid::new(4, 3).unwrap());
+    let fixed = FixedCells::new(b, [0]).unwrap();
+    assert!(matches!(
+        laplace(a).with_fixed(fixed),
+        Err(Error::GridMismatch {
+            expected_nx: 3,
+            found_nx: 4,
+            ..
+        })
+    ));
+    assert_eq!(
+        FixedCells::new(a, [2, 9]).unwrap_err(),
+        Error::CellOutOfRange { cell: 9, cells: 9 }
+    );
+}
+
+#[test]
+fn non_finite_input_names_the_cell() {
+    let grid = Grid::new(4, 3).unwrap();
+    let bad_coeff = Banded5::from_fn(grid, |i, j| {
+        let mut c = Coeffs5::laplacian(grid, i, j);
+        if (i, j) == (2, 1) {
+            c.north = f64::NAN;
+        }
+        c
+    });
+    assert_eq!(
+        bad_coeff.unwrap_err(),
+        Error::NonFinite {
+            what: "north coefficient",
+            cell: 6,
+            i: 2,
+            j: 1
+        }
+    );
+    let op = laplace(grid);
+    let mut rhs = vec![1.0; 12];
+    rhs[5] = f64::INFINITY;
+    let mut x = vec![0.0; 12];
+    let err = Cg::default().solve(&op, &rhs, &mut x).unwrap_err();
+    assert_eq!(
+        err,
+        Error::NonFinite {
+            what: "rhs",
+            cell: 5,
+            i: 1,
+            j: 1
+        }
+    );
+    let rhs = vec![1.0; 12];
+    x[11] = f64::NAN;
+    let err = SteepestDescent::default()
+        .solve(&op, &rhs, &mut x)
+        .unwrap_err();
+    assert_eq!(
+        err,
+        Error::NonFinite {
+            what: "initial guess",
+            cell: 11,
+            i: 3,
+            j: 2
+        }
+    );
+}
+
+#[test]
+fn non_positive_centers_are_refused_where_the_method_needs_them() {
+    let grid = Grid::new(3, 2).unwrap();
+    let op = Banded5::from_fn(grid, |i, j| {
+        let mut c = Coeffs5::laplacian(grid, i, j);
+        if (i, j) == (1, 1) {
+            c.center = 0.0;
+        }
+        c
+    })
+    .unwrap();
+    let expect = Error::NonPositiveCenter {
+        cell: 4,
+        i: 1,
+        j: 1,
+        value: 0.0,
+    };
+    let (rhs, mut x) = (vec![1.0; 6], vec![0.0; 6]);
+    assert_eq!(Cg::default().solve(&op, &rhs, &mut x).unwrap_err(), expect);
+    assert_eq!(
+        Sor::gauss_seidel().solve(&op, &rhs, &mut x).unwrap_err(),
+        expect
+    );
+    assert_eq!(
+        SteepestDescent::default()
+            .solve(&op, &rhs, &mut x)
+            .unwrap_err(),
+        expect
+    );
+    assert_eq!(Jacobi::new(&op).unwrap_err(), expect);
+    assert_eq!(estimate_relaxation(&op, 10).unwrap_err(), expect);
+    // The same cell fixed: its center no longer matters.
+    let fixed = op
+        .clone()
+        .with_fixed(FixedCells::new(grid, [4]).unwrap())
+        .unwrap();
+    assert!(Cg::default().solve(&fixed, &rhs, &mut x).is_ok());
+}
+
+#[test]
+fn off_grid_couplings_name_cell_and_side() {
+    let grid = Grid::new(3, 3).unwrap();
+    let err = ClosureStencil::new(grid, move |i, j| {
+        let mut c = Coeffs5::laplacian(grid, i, j);
+        if (i, j) == (2, 1) {
+            c.east = -0.5;
+        }
+        c
+    })
+    .unwrap_err();
+    assert_eq!(
+        err,
+        Error::OffGridCoupling {
+            cell: 5,
+            i: 2,
+            j: 1,
+            side: Side::East,
+            value: -0.5
+        }
+    );
+}
+
+#[test]
+fn asymmetry_reports_the_first_pair() {
+    let grid = Grid::new(3, 3).unwrap();
+    let op = Banded5::from_fn(grid, |i, j| {
+        let mut c = Coeffs5::laplacian(grid, i, j);
+        if (i, j) == (1, 2) {
+            c.south = -2.0; // its south neighbour (1, 1) still says −1
+        }
+        c
+    })
+    .unwrap();
+    assert!(check_symmetry(&laplace(grid), 0.0).is_ok());
+    assert_eq!(
+        check_symmetry(&op, 1e-12).unwrap_err(),
+        Error::Asymmetric {
+            cell: 4,
+            neighbour: 7,
+            forward: -1.0,
+            backward: -2.0
+        }
+    );
+    // Couplings towards fixed cells are eliminated, so they cannot be asymmetric.
+    let fixed = op.with_fixed(FixedCells::new(grid, [7]).unwrap()).unwrap();
+    assert!(check_symmetry(&fixed, 1e-12).is_ok());
+    assert!(matches!(
+        check_symmetry(&fixed, -1.0),
+        Err(Error::InvalidSetting { .. })
+    ));
+}
+
+#[test]
+fn settings_out_of_range() {
+    for omega in [0.0, 2.0, -1.0, 2.5, f64::NAN] {
+        assert!(matches!(
+            Sor::new(omega),
+            Err(Error::InvalidSetting {
+                name: "relaxation factor omega",
+                ..
+            })
+        ));
+    }
+    let op = laplace(Grid::new(4, 4).unwrap());
+    assert!(matches!(
+        estimate_relaxation(&op, 0),
+        Err(Error::InvalidSetting { name: "steps", .. })
+    ));
+}
+
+#[test]
+fn cg_detects_an_indefinite_operator_at_the_iteration_it_happens() {
+    // A = [[1, −2], [−2, 1]] has positive centers but eigenvalues −1 and 3. From x₀ = 0 with
+    // b = (1, 0), worked by hand: p₀ = (1, 0), p₀·Ap₀ = 1, x₁ = (1, 0), r₁ = (0, 2), β = 4,
+    // p₁ = (4, 2), Ap₁ = (0, −6), p₁·Ap₁ = −12: the breakdown comes in iteration 2.
+    let grid = Grid::new(2, 1).unwrap();
+    let op = Banded5::new(
+        grid,
+        vec![1.0, 1.0],
+        vec![0.0, -2.0],
+        vec![-2.0, 0.0],
+        vec![0.0; 2],
+        vec![0.0; 2],
+    )
+    .unwrap();
+    let mut x = vec![0.0; 2];
+    let err = Cg::default().solve(&op, &[1.0, 0.0], &mut x).unwrap_err();
+    match &err {
+        Error::NotPositiveDefinite {
+            iteration,
+            curvature,
+            report,
+        } => {
+            assert_eq!(*iteration, 2);
+            assert!((curvature + 12.0).abs() < 1e-12, "{curvature}");
+            assert_eq!(report.iterations, 1);
+            assert_eq!(report.reason, StopReason::Breakdown);
+            assert_eq!(report.history.len(), 2);
+        }
+        other => panic!("expected NotPositiveDefinite, got {other}"),
+    }
+    assert_eq!(x, vec![1.0, 0.0], "the last iterate is kept");
+}
+
+#[test]
+fn pcg_detects_a_preconditioner_that_is_not_positive() {
+    struct Negated;
+    impl Preconditioner<f64> for Negated {
+        fn apply(&mut self, r: &[f64], z: &mut [f64]) {
+            for (zi, ri) in z.iter_mut().zip(r) {
+                *zi = -ri;
+            }
+        }
+    }
+    let op = laplace(Grid::new(5, 5).unwrap());
+    let mut x = vec![0.0; 25];
+    let err = Pcg::new(Negated)
+        .solve(&op, &[1.0; 25], &mut x)
+        .unwrap_err();
+    assert!(
+        matches!(err, Error::PreconditionerNotPositive { iteration: 0, value, .. } if value < 0.0)
+    );
+}
+
+#[test]
+fn non_convergence_hands_back_report_and_iterate() {
+    let grid = Grid::new(30, 30).unwrap();
+    let op = laplace(grid);
+    let rhs = vec![1.0; grid.cells()];
+    let mut x = vec![0.0; grid.cells()];
+    let mut sor = Sor::gauss_seidel().with_options(SolveOptions::default().max_iterations(7));
+    let err = sor.solve(&op, &rhs, &mut x).unwrap_err();
+    let report = err.report().unwrap();
+    assert!(matches!(err, Error::NotConverged { .. }));
+    assert_eq!(
+        (report.iterations, report.reason),
+        (7, StopReason::IterationLimit)
+    );
+    assert_eq!(report.history.len(), 8);
+    assert!(x.iter().any(|&v| v != 0.0), "the iterate is kept");
+    // The error message carries the figures a modeller needs.
+    let text = err.to_string();
+    assert!(
+        text.contains("did not converge after 7 iterations"),
+        "{text}"
+    );
+}
+
+#[test]
+fn overflow_mid_solve_stops_as_non_finite() {
+    // Coefficients near the top of the f64 range: the residual overflows to infinity.
+    let grid = Grid::new(4, 4).unwrap();
+    let big = 1e300;
+    let op = Banded5::from_fn(grid, |i, j| {
+        let c = Coeffs5::<f64>::laplacian(grid, i, j);
+        Coeffs5 {
+            center: c.center * big,
+            west: c.west * big,
+            east: c.east * big,
+            south: c.south * big,
+            north: c.north * big,
+        }
+    })
+    .unwrap();
+    let mut x = vec![1e10; 16];
+    let err = Cg::default().solve(&op, &[1.0; 16], &mut x).unwrap_err();
+    assert_eq!(err.report().map(|r| r.reason), Some(StopReason::NonFinite));
+}

@@ -1,0 +1,112 @@
+//! Every driver against a general-purpose dense direct solver (nalgebra's LU factorisation) on
+//! random symmetric, strictly diagonally dominant 5-point systems with fixed cells, including
+//! 1×1, 1×n and n×1 grids.
+//!
+//! Tolerance: for a solve stopped at `‖r‖/‖b‖ ≤ τ`, the error obeys
+//! `‖x − x*‖/‖x*‖ ≤ κ(A)·‖r‖/‖b‖` (Golub & Van Loan, Matrix Computations, 4th ed. 2013, §2.6.2),
+//! with κ computed from the dense matrix's eigenvalues. The check allows that bound plus a
+//! rounding allowance of `100·n·ε·κ`.
+
+mod common;
+
+use common::{dist, norm, random_sdd, Problem};
+use proptest::prelude::*;
+use quintet::prelude::*;
+
+const TOL: f64 = 1e-10;
+
+fn check_against_reference(
+    p: &Problem,
+    solver: &mut impl IterativeSolver<f64>,
+) -> Result<(), TestCaseError> {
+    let op = p.banded();
+    let mut x = p.x0.clone();
+    let report = solver
+        .solve(&op, &p.rhs, &mut x)
+        .map_err(|e| TestCaseError::fail(format!("{e}")))?;
+    prop_assert!(report.converged());
+    let exact = p.reference_solution();
+    let kappa = p.condition_number();
+    let n = p.grid.cells() as f64;
+    let free: Vec<usize> = p.free_cells();
+    let xf: Vec<f64> = free.iter().map(|&k| x[k]).collect();
+    let ef: Vec<f64> = free.iter().map(|&k| exact[k]).collect();
+    let rel_res = report.relative_residual();
+    let bound = kappa * rel_res + 100.0 * n * f64::EPSILON * kappa;
+    let err = dist(&xf, &ef) / norm(&ef).max(f64::MIN_POSITIVE);
+    prop_assert!(
+        err <= bound * 1.01 || norm(&ef) == 0.0,
+        "{}: error {err:e} > bound {bound:e} (kappa {kappa:e}, rel res {rel_res:e})",
+        report.method
+    );
+    // The reported residual is the true residual over the free cells (common practice).
+    let true_res = p.free_residual_norm(&x);
+    prop_assert!(
+        (true_res - report.residual_norm).abs() <= 1e-8 * p.free_rhs_norm().max(1e-300) + 1e-300
+    );
+    // Fixed cells hold their values bit for bit.
+    for &k in &p.fixed {
+        prop_assert_eq!(x[k].to_bits(), p.x0[k].to_bits());
+    }
+    Ok(())
+}
+
+fn problems() -> impl Strategy<Value = Problem> {
+    (
+        1usize..=10,
+        1usize..=10,
+        any::<u64>(),
+        0.0f64..0.4,
+        any::<bool>(),
+    )
+        .prop_map(|(nx, ny, seed, frac, mixed)| random_sdd(nx, ny, seed, frac, mixed))
+}
+
+fn options() -> SolveOptions {
+    SolveOptions::default()
+        .tolerance(TOL)
+        .max_iterations(1_000_000)
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(256))]
+
+    #[test]
+    fn steepest_descent_matches_dense_lu(p in problems()) {
+        check_against_reference(&p, &mut SteepestDescent::new(options()))?;
+    }
+
+    #[test]
+    fn cg_matches_dense_lu(p in problems()) {
+        check_against_reference(&p, &mut Cg::default().with_options(options()))?;
+    }
+
+    #[test]
+    fn jacobi_pcg_matches_dense_lu(p in problems()) {
+        let op = p.banded();
+        check_against_reference(&p, &mut Pcg::new(Jacobi::new(&op).unwrap()).with_options(options()))?;
+    }
+
+    #[test]
+    fn sor_lexicographic_matches_dense_lu(p in problems(), omega in 0.5f64..1.9) {
+        check_against_reference(&p, &mut Sor::new(omega).unwrap().with_options(options()))?;
+    }
+
+    #[test]
+    fn sor_red_black_matches_dense_lu(p in problems(), omega in 0.5f64..1.9) {
+        let mut sor = Sor::new(omega).unwrap().ordering(SweepOrder::RedBlack).with_options(options());
+        check_against_reference(&p, &mut sor)?;
+    }
+}
+
+#[test]
+fn degenerate_grids_solve_exactly() {
+    // 1×1, 1×n and n×1 (common practice: the shapes where edge handling breaks first).
+    for (nx, ny) in [(1, 1), (1, 17), (17, 1)] {
+        for seed in 0..8 {
+            let p = random_sdd(nx, ny, seed, 0.2, false);
+            check_against_reference(&p, &mut Cg::default().with_options(options())).unwrap();
+            check_against_reference(&p, &mut Sor::gauss_seidel().with_options(options())).unwrap();
+        }
+    }
+}

@@ -1,0 +1,227 @@
+//! Stopping rules, the observer hook, warm starts and fixed cells, through the drivers.
+
+mod common;
+
+use common::{laplacian, random_sdd};
+use quintet::prelude::*;
+use quintet::stop::{AllOf, AnyOf, Divergence, IterationLimit, RuleFn, SolutionChange, Stagnation};
+
+#[test]
+fn observer_sees_every_iteration_and_the_history() {
+    let p = laplacian(20, 20);
+    let op = p.banded();
+    let mut x = p.x0.clone();
+    let mut seen: Vec<(usize, f64)> = Vec::new();
+    let mut ws = Workspace::new();
+    let report = Cg::default()
+        .solve_observed(&op, &p.rhs, &mut x, &mut ws, &mut |prog: &Progress<'_>| {
+            assert_eq!(prog.history.len(), prog.iteration + 1);
+            seen.push((prog.iteration, prog.residual_norm));
+        })
+        .unwrap();
+    assert_eq!(seen.len(), report.iterations + 1);
+    for (k, (it, _)) in seen.iter().enumerate() {
+        assert_eq!(*it, k);
+    }
+    // Before the final true-residual check the observer saw the recursive residual; every
+    // earlier value is the history's.
+    for (k, (_, res)) in seen.iter().enumerate().take(report.iterations) {
+        assert_eq!(*res, report.history[k]);
+    }
+}
+
+#[test]
+fn a_user_rule_can_stop_with_its_own_verdict() {
+    let p = laplacian(16, 16);
+    let op = p.banded();
+    let converged_at_half = RuleFn(|prog: &Progress<'_>| {
+        (prog.reduction() < 0.5).then_some(StopReason::Custom {
+            converged: true,
+            label: "halved",
+        })
+    });
+    let mut x = p.x0.clone();
+    let report = Cg::default()
+        .with_options(SolveOptions::default().stop_when(converged_at_half))
+        .solve(&op, &p.rhs, &mut x)
+        .unwrap();
+    assert_eq!(
+        report.reason,
+        StopReason::Custom {
+            converged: true,
+            label: "halved"
+        }
+    );
+    assert!(report.reduction() < 0.5);
+
+    let give_up = RuleFn(|prog: &Progress<'_>| {
+        (prog.iteration == 3).then_some(StopReason::Custom {
+            converged: false,
+            label: "budget spent",
+        })
+    });
+    let mut x = p.x0.clone();
+    let err = Cg::default()
+        .with_options(SolveOptions::default().stop_when(give_up))
+        .solve(&op, &p.rhs, &mut x)
+        .unwrap_err();
+    assert_eq!(err.report().unwrap().iterations, 3);
+    assert!(err.to_string().contains("budget spent"));
+}
+
+#[test]
+fn solution_change_rule_stops_sor_and_combines_with_all_of() {
+    let p = laplacian(30, 30);
+    let op = p.banded();
+    let change_only = SolutionChange(1e-4);
+    let mut x = p.x0.clone();
+    let loose = Sor::new(1.8)
+        .unwrap()
+        .with_options(SolveOptions::default().stop_when(change_only))
+        .solve(&op, &p.rhs, &mut x)
+        .unwrap();
+    assert_eq!(loose.reason, StopReason::SolutionChangeMet);
+    let both = AllOf::new()
+        .and(SolutionChange(1e-4))
+        .and(quintet::stop::RelativeResidual(1e-10));
+    let mut x = p.x0.clone();
+    let strict = Sor::new(1.8)
+        .unwrap()
+        .with_options(SolveOptions::default().stop_when(both))
+        .solve(&op, &p.rhs, &mut x)
+        .unwrap();
+    assert!(strict.iterations > loose.iterations);
+    assert!(strict.relative_residual() <= 1e-10);
+}
+
+#[test]
+fn divergence_is_reported() {
+    // Gauss–Seidel on a matrix that is far from diagonally dominant (center 1, couplings −3)
+    // diverges (its iteration matrix has spectral radius > 1; common practice).
+    let grid = Grid::new(10, 1).unwrap();
+    let op = Banded5::from_fn(grid, |i, _| Coeffs5 {
+        center: 1.0,
+        west: if i > 0 { -3.0 } else { 0.0 },
+        east: if i + 1 < 10 { -3.0 } else { 0.0 },
+        ..Coeffs5::default()
+    })
+    .unwrap();
+    let rule = AnyOf::new().or(Divergence(1e3)).or(IterationLimit(10_000));
+    let mut x = vec![0.0; 10];
+    let err = Sor::gauss_seidel()
+        .with_options(SolveOptions::default().stop_when(rule))
+        .solve(&op, &[1.0; 10], &mut x)
+        .unwrap_err();
+    assert_eq!(err.report().unwrap().reason, StopReason::Diverged);
+}
+
+#[test]
+fn stagnation_ends_a_solve_stuck_at_the_rounding_floor() {
+    // f32 cannot reach 1e-9 on this system (see theory.rs): without a stagnation rule the
+    // solve would run to the iteration limit; with one it stops early and says why.
+    let grid = Grid::new(32, 32).unwrap();
+    let op = Banded5::from_fn(grid, |i, j| Coeffs5::<f32>::laplacian(grid, i, j)).unwrap();
+    let rule = AnyOf::new()
+        .or(quintet::stop::RelativeResidual(1e-9))
+        .or(Stagnation {
+            window: 100,
+            min_reduction: 0.01,
+        })
+        .or(IterationLimit(10_000));
+    let mut x = vec![0.0f32; grid.cells()];
+    let err = Cg::default()
+        .with_options(SolveOptions::default().stop_when(rule))
+        .solve(&op, &vec![1.0f32; grid.cells()], &mut x)
+        .unwrap_err();
+    let report = err.report().unwrap();
+    assert_eq!(report.reason, StopReason::Stagnated);
+    assert!(report.iterations < 1000, "{}", report.iterations);
+}
+
+#[test]
+fn a_converged_warm_start_takes_no_iterations() {
+    let p = random_sdd(12, 9, 4, 0.1, false);
+    let op = p.banded();
+    let mut x = p.x0.clone();
+    let mut ws = Workspace::new();
+    let mut cg = Cg::default();
+    let first = cg.solve_with(&op, &p.rhs, &mut x, &mut ws).unwrap();
+    assert!(first.iterations > 0);
+    let again = cg.solve_with(&op, &p.rhs, &mut x, &mut ws).unwrap();
+    assert_eq!(again.iterations, 0);
+    // One workspace serves grids of different sizes in turn.
+    let q = laplacian(5, 40);
+    let mut y = q.x0.clone();
+    assert!(cg.solve_with(&q.banded(), &q.rhs, &mut y, &mut ws).is_ok());
+    assert!(cg.solve_with(&op, &p.rhs, &mut x, &mut ws).is_ok());
+}
+
+#[test]
+fn an_all_fixed_grid_is_solved_before_it_starts() {
+    let grid = Grid::new(3, 3).unwrap();
+    let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))
+        .unwrap()
+        .with_fixed(FixedCells::new(grid, 0..9).unwrap())
+        .unwrap();
+    let mut x: Vec<f64> = (0..9).map(|k| k as f64).collect();
+    for report in [
+        Cg::default().solve(&op, &[5.0; 9], &mut x).unwrap(),
+        Sor::gauss_seidel().solve(&op, &[5.0; 9], &mut x).unwrap(),
+        SteepestDescent::default()
+            .solve(&op, &[5.0; 9], &mut x)
+            .unwrap(),
+    ] {
+        assert_eq!(report.iterations, 0);
+        assert_eq!(report.reason, StopReason::ExactSolution);
+    }
+    assert_eq!(x, (0..9).map(|k| k as f64).collect::<Vec<_>>());
+}
+
+#[test]
+fn fixed_cells_keep_their_values_and_zero_residual_in_every_driver() {
+    // Fixed rows carry garbage coefficients and a huge rhs (see random_sdd): if any driver
+    // used them, the reported residual (which must equal the free-cell residual computed here
+    // from the raw coefficients) or the fixed values would show it (common practice).
+    let p = random_sdd(15, 11, 21, 0.3, false);
+    let op = p.banded();
+    let opts = SolveOptions::default()
+        .tolerance(1e-9)
+        .max_iterations(100_000);
+    let check = |solver: &mut dyn FnMut(&mut [f64]) -> Result<Report, Error>| {
+        let mut x = p.x0.clone();
+        let report = solver(&mut x).unwrap();
+        for &k in &p.fixed {
+            assert_eq!(x[k].to_bits(), p.x0[k].to_bits(), "{}", report.method);
+        }
+        let free = p.free_residual_norm(&x);
+        assert!(
+            (free - report.residual_norm).abs() <= 1e-12 * p.free_rhs_norm(),
+            "{}",
+            report.method
+        );
+    };
+    check(&mut |x| SteepestDescent::new(opts.clone()).solve(&op, &p.rhs, x));
+    check(&mut |x| {
+        Cg::default()
+            .with_options(opts.clone())
+            .solve(&op, &p.rhs, x)
+    });
+    check(&mut |x| {
+        Pcg::new(Jacobi::new(&op).unwrap())
+            .with_options(opts.clone())
+            .solve(&op, &p.rhs, x)
+    });
+    check(&mut |x| {
+        Sor::new(1.5)
+            .unwrap()
+            .with_options(opts.clone())
+            .solve(&op, &p.rhs, x)
+    });
+    check(&mut |x| {
+        Sor::new(1.5)
+            .unwrap()
+            .ordering(SweepOrder::RedBlack)
+            .with_options(opts.clone())
+            .solve(&op, &p.rhs, x)
+    });
+}
