@@ -102,8 +102,8 @@ pub use error::Error;
 pub use grid::{Grid, Side};
 pub use monitor::Monitor;
 pub use precond::{
-    FactorSettings, Identity, IncompleteCholesky, Jacobi, Multigrid, MultigridSettings,
-    Preconditioner, Sip, SipSettings, Ssor, WeakPivot,
+    CoarseOperator, FactorSettings, Identity, IncompleteCholesky, Jacobi, Multigrid,
+    MultigridSettings, Preconditioner, Sip, SipSettings, Ssor, WeakPivot,
 };
 pub use solve::{
     estimate_relaxation, Cg, IterativeSolver, MixedRefinement, Pcg, RelaxationEstimate, Report,
@@ -147,11 +147,11 @@ pub(crate) fn to_f64<T: Scalar>(v: T) -> f64 {
 /// ```
 pub mod prelude {
     pub use crate::{
-        check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, Coeffs5, Error,
-        FactorSettings, FixedCells, Grid, Identity, IncompleteCholesky, IterativeSolver, Jacobi,
-        MixedRefinement, Multigrid, MultigridSettings, Pcg, Preconditioner, Progress, Report, Side,
-        Sip, SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule,
-        SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
+        check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, CoarseOperator, Coeffs5,
+        Error, FactorSettings, FixedCells, Grid, Identity, IncompleteCholesky, IterativeSolver,
+        Jacobi, MixedRefinement, Multigrid, MultigridSettings, Pcg, Preconditioner, Progress,
+        Report, Side, Sip, SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5,
+        StopReason, StopRule, SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
     };
 }
 

@@ -42,6 +42,17 @@ fn all_preconditioners(op: &Banded5<f64>) -> Vec<Box<dyn Preconditioner<f64> + '
             )
             .unwrap(),
         ),
+        Box::new(
+            Multigrid::new(
+                op,
+                MultigridSettings {
+                    coarsest_cells: 4,
+                    coarse_operator: CoarseOperator::LumpedGalerkin,
+                    ..Default::default()
+                },
+            )
+            .unwrap(),
+        ),
     ]
 }
 

@@ -31,7 +31,7 @@ mod ssor;
 
 pub use ic0::{FactorSettings, IncompleteCholesky, WeakPivot};
 pub use jacobi::Jacobi;
-pub use multigrid::{Multigrid, MultigridSettings};
+pub use multigrid::{CoarseOperator, Multigrid, MultigridSettings};
 pub use sip::{Sip, SipSettings};
 pub use ssor::Ssor;
 

@@ -380,7 +380,7 @@ impl<T: Scalar> IterativeSolver<T> for Sip<T> {
         let method = format!("SIP (alpha = {})", self.settings.alpha);
         let options = self.options.clone();
         let this = &*self;
-        correction_solve(op, rhs, x, ws, observer, &options, method, |r, z| {
+        correction_solve(op, rhs, x, ws, observer, &options, method, false, |r, z| {
             this.solve_lu(r, z)
         })
     }

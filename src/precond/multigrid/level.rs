@@ -30,6 +30,7 @@
 //! cells, coarse cells with no unknown under them) are left out of `P` and `R` and are identity
 //! rows, so the V-cycle stays symmetric.
 
+use super::CoarseOperator;
 use crate::precond::factor::{eliminated_row, lit};
 use crate::stencil::Stencil5;
 use crate::{Coeffs5, Error, FixedCells, Grid, Scalar};
@@ -67,13 +68,13 @@ impl<T: Scalar, S: Stencil5<T> + ?Sized> Rows<T> for FineRows<'_, S> {
 
 /// A coarse 5-point operator, stored as five arrays, with its active-cell mask.
 #[derive(Clone, Debug)]
-pub(crate) struct CoarseOperator<T> {
+pub(crate) struct LevelOperator<T> {
     pub(crate) grid: Grid,
     pub(crate) rows: Vec<Coeffs5<T>>,
     pub(crate) active: Vec<bool>,
 }
 
-impl<T: Scalar> Rows<T> for CoarseOperator<T> {
+impl<T: Scalar> Rows<T> for LevelOperator<T> {
     fn grid(&self) -> Grid {
         self.grid
     }
@@ -120,6 +121,26 @@ impl Axis {
     }
 }
 
+/// Own and neighbour weights of a stored interpolation weight: `w ≥ 0` is the share of the
+/// neighbouring aggregate; `w < 0` means the outward side is a zero-valued ghost (a grid edge or
+/// fixed cells) with share `|w|`, so the cell keeps `1 − |w|` of its own aggregate and nothing
+/// else.
+#[inline]
+fn split<T: Scalar>(w: T) -> (T, T) {
+    if w < T::zero() {
+        (T::one() + w, T::zero())
+    } else {
+        (T::one() - w, w)
+    }
+}
+
+/// The share of a cell's own aggregate among the aggregates it interpolates from.
+#[inline]
+fn own_share<T: Scalar>(w: T) -> T {
+    let (own, nb) = split(w);
+    ratio(own, own + nb)
+}
+
 /// Conductance of a coupling (zero for a non-negative one: only diffusion couplings count).
 #[inline]
 fn conductance<T: Scalar>(coupling: T) -> T {
@@ -162,7 +183,7 @@ fn ratio<T: Scalar>(num: T, den: T) -> T {
 /// A coarse level: operator, transfers from the next finer grid, and its vectors.
 #[derive(Clone, Debug)]
 pub(crate) struct Level<T> {
-    pub(crate) op: CoarseOperator<T>,
+    pub(crate) op: LevelOperator<T>,
     ax: Axis,
     ay: Axis,
     /// Per fine cell: weight of the neighbouring aggregate in the east-west direction (kept
@@ -185,7 +206,7 @@ impl<T: Scalar> Level<T> {
     ///
     /// [`Error::PivotBreakdown`] naming the first fine cell of an aggregate whose coarse center
     /// comes out non-positive or not finite.
-    pub(crate) fn below<R: Rows<T>>(fine: &R) -> Result<Level<T>, Error> {
+    pub(crate) fn below<R: Rows<T>>(fine: &R, rule: CoarseOperator) -> Result<Level<T>, Error> {
         let g = fine.grid();
         let (nx, ny, n) = (g.nx(), g.ny(), g.cells());
         let (ncx, ncy) = (nx.div_ceil(2), ny.div_ceil(2));
@@ -251,21 +272,64 @@ impl<T: Scalar> Level<T> {
                 }
                 let (ci, cj) = (ax.parent(i), ay.parent(j));
                 active[ci + ncx * cj] = true;
-                if ax.neighbour(i) != ci {
-                    let (face, far) = if i % 2 == 1 {
-                        (east[k], i + 1)
+                // Missing or fixed neighbours of this cell: its row-sum excess is shared among
+                // them as the conductance to a zero-valued ghost beyond each.
+                let missing = [
+                    i == 0 || !fine.active(k - 1),
+                    i + 1 == nx || !fine.active(k + 1),
+                    j == 0 || !fine.active(k - nx),
+                    j + 1 == ny || !fine.active(k + nx),
+                ];
+                let m = missing.iter().filter(|&&b| b).count();
+                let ghost = if m > 0 {
+                    excess[k] / T::from(m).unwrap_or_else(T::one)
+                } else {
+                    T::zero()
+                };
+                if 2 * ci + 1 < nx {
+                    // Paired in x: interpolate towards the outward side.
+                    let (out_missing, face, far) = if i % 2 == 1 {
+                        (
+                            missing[1],
+                            if i + 1 < nx { east[k] } else { T::zero() },
+                            i + 1,
+                        )
                     } else {
-                        (east[k - 1], i - 1)
+                        (
+                            missing[0],
+                            if i > 0 { east[k - 1] } else { T::zero() },
+                            i.wrapping_sub(1),
+                        )
                     };
-                    wx[k] = series(half_x(i, j), face, half_x(far, j)).0;
+                    wx[k] = if out_missing {
+                        -series(half_x(i, j), ghost, None).0
+                    } else if ax.neighbour(i) != ci {
+                        series(half_x(i, j), face, half_x(far, j)).0
+                    } else {
+                        T::zero()
+                    };
                 }
-                if ay.neighbour(j) != cj {
-                    let (face, far) = if j % 2 == 1 {
-                        (north[k], j + 1)
+                if 2 * cj + 1 < ny {
+                    let (out_missing, face, far) = if j % 2 == 1 {
+                        (
+                            missing[3],
+                            if j + 1 < ny { north[k] } else { T::zero() },
+                            j + 1,
+                        )
                     } else {
-                        (north[k - nx], j - 1)
+                        (
+                            missing[2],
+                            if j > 0 { north[k - nx] } else { T::zero() },
+                            j.wrapping_sub(1),
+                        )
                     };
-                    wy[k] = series(half_y(i, j), face, half_y(i, far)).0;
+                    wy[k] = if out_missing {
+                        -series(half_y(i, j), ghost, None).0
+                    } else if ay.neighbour(j) != cj {
+                        series(half_y(i, j), face, half_y(i, far)).0
+                    } else {
+                        T::zero()
+                    };
                 }
             }
         }
@@ -285,7 +349,7 @@ impl<T: Scalar> Level<T> {
                 let (gx, gy) = (half_x(i, j), half_y(i, j));
                 if i + 1 < nx && ax.parent(i + 1) != ci {
                     let t = series(gx, east[k], half_x(i + 1, j)).1;
-                    let own = half * ((T::one() - wy[k]) + (T::one() - wy[k + 1]));
+                    let own = half * (own_share(wy[k]) + own_share(wy[k + 1]));
                     let qj = ay.neighbour(j);
                     let (a, b) = (on(ci + ncx * qj, kc), on(ci + 1 + ncx * qj, kc + 1));
                     let (a, b) = if a == kc || b == kc + 1 {
@@ -300,7 +364,7 @@ impl<T: Scalar> Level<T> {
                 }
                 if j + 1 < ny && ay.parent(j + 1) != cj {
                     let t = series(gy, north[k], half_y(i, j + 1)).1;
-                    let own = half * ((T::one() - wx[k]) + (T::one() - wx[k + nx]));
+                    let own = half * (own_share(wx[k]) + own_share(wx[k + nx]));
                     let qi = ax.neighbour(i);
                     let up = kc + ncx;
                     let (a, b) = (on(qi + ncx * cj, kc), on(qi + ncx * (cj + 1), up));
@@ -315,10 +379,10 @@ impl<T: Scalar> Level<T> {
                 let e = excess[k];
                 if e > T::zero() {
                     let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
-                    let r = half * (resist(gx) + resist(gy));
+                    let r = resist(gx).min(resist(gy));
                     let contribution = ratio(e, T::one() + e * r);
                     let (pi, qi, pj, qj) = (ci, ax.neighbour(i), cj, ay.neighbour(j));
-                    let (wxk, wyk) = (wx[k], wy[k]);
+                    let (wxk, wyk) = (T::one() - own_share(wx[k]), T::one() - own_share(wy[k]));
                     let (ux, uy) = (T::one() - wxk, T::one() - wyk);
                     for (target, w) in [
                         (pi + ncx * pj, ux * uy),
@@ -332,13 +396,19 @@ impl<T: Scalar> Level<T> {
                 }
             }
         }
+        let galerkin = rule == CoarseOperator::LumpedGalerkin;
+        if galerkin {
+            rows = galerkin_lumped(fine, &ax, &ay, &wx, &wy, grid, &active);
+        }
         for (kc, (row, on)) in rows.iter_mut().zip(active.iter_mut()).enumerate() {
             if !*on {
                 *row = Coeffs5::identity();
                 continue;
             }
             let couplings = row.west + row.east + row.south + row.north;
-            row.center = row.center - couplings;
+            if !galerkin {
+                row.center = row.center - couplings;
+            }
             if row.center == T::zero() && couplings == T::zero() {
                 // Every fine cell of the aggregate follows a neighbouring aggregate (their
                 // internal couplings are zero) and nothing interpolates from this one: it
@@ -356,7 +426,7 @@ impl<T: Scalar> Level<T> {
             }
         }
         Ok(Level {
-            op: CoarseOperator { grid, rows, active },
+            op: LevelOperator { grid, rows, active },
             ax,
             ay,
             wx: narrow(&wx),
@@ -378,8 +448,10 @@ impl<T: Scalar> Level<T> {
             self.ay.parent(j),
             self.ay.neighbour(j),
         );
-        let (wx, wy): (T, T) = (lit(f64::from(self.wx[k])), lit(f64::from(self.wy[k])));
-        let (ux, uy) = (T::one() - wx, T::one() - wy);
+        let ((ux, wx), (uy, wy)) = (
+            split::<T>(lit(f64::from(self.wx[k]))),
+            split::<T>(lit(f64::from(self.wy[k]))),
+        );
         [
             (pi + ncx * pj, ux * uy),
             (qi + ncx * pj, wx * uy),
@@ -433,6 +505,205 @@ impl<T: Scalar> Level<T> {
         let n = self.op.grid.cells();
         n * (8 * t + 1) + (self.wx.len() + self.wy.len()) * std::mem::size_of::<f32>()
     }
+}
+
+/// The Galerkin product `Pᵀ·A·P` (a 25-point stencil for this interpolation), lumped onto a
+/// 5-point stencil. A positive entry is dropped and added to both diagonals (which can only
+/// raise the energy). A negative entry `−g` between coarse cells `a` and `c` at offset
+/// `(dx, dy)` is spread over the L-shaped lattice paths from `a` to `c` (one for a straight
+/// offset, two otherwise), each edge of a path receiving `g·(dx² + dy²)/(|dx| + |dy|)` divided
+/// by the number of paths: for a linear function this reproduces the energy of the dropped
+/// entry exactly in every direction of the gradient for straight offsets, and on average over
+/// directions for the others. A path through an inactive cell is replaced by the other; if
+/// both are blocked the entry goes to both diagonals as `2g` (`(u_a − u_c)² ≤ 2u_a² + 2u_c²`).
+fn galerkin_lumped<T: Scalar, R: Rows<T>>(
+    fine: &R,
+    ax: &Axis,
+    ay: &Axis,
+    wx: &[T],
+    wy: &[T],
+    grid: Grid,
+    active: &[bool],
+) -> Vec<Coeffs5<T>> {
+    let g = fine.grid();
+    let (nx, ny) = (g.nx(), g.ny());
+    let (ncx, ncy, nc) = (grid.nx(), grid.ny(), grid.cells());
+    let p_row = |i: usize, j: usize, k: usize| -> [(usize, usize, T); 4] {
+        let (pi, qi, pj, qj) = (ax.parent(i), ax.neighbour(i), ay.parent(j), ay.neighbour(j));
+        let ((u1, w1), (u2, w2)) = (split(wx[k]), split(wy[k]));
+        [
+            (pi, pj, u1 * u2),
+            (qi, pj, w1 * u2),
+            (pi, qj, u1 * w2),
+            (qi, qj, w1 * w2),
+        ]
+    };
+    let mut gal = vec![[T::zero(); 25]; nc];
+    for j in 0..ny {
+        for i in 0..nx {
+            let k = i + nx * j;
+            if !fine.active(k) {
+                continue;
+            }
+            let c = fine.row(i, j, k);
+            let mut nbrs = [(i, j, k, c.center); 5];
+            let mut m = 1;
+            if i > 0 {
+                nbrs[m] = (i - 1, j, k - 1, c.west);
+                m += 1;
+            }
+            if i + 1 < nx {
+                nbrs[m] = (i + 1, j, k + 1, c.east);
+                m += 1;
+            }
+            if j > 0 {
+                nbrs[m] = (i, j - 1, k - nx, c.south);
+                m += 1;
+            }
+            if j + 1 < ny {
+                nbrs[m] = (i, j + 1, k + nx, c.north);
+                m += 1;
+            }
+            let pf = p_row(i, j, k);
+            for &(gi, gj, gk, a) in &nbrs[..m] {
+                if a == T::zero() || !fine.active(gk) {
+                    continue;
+                }
+                let pg = p_row(gi, gj, gk);
+                for &(ci, cj, w1) in &pf {
+                    if w1 == T::zero() || !active[ci + ncx * cj] {
+                        continue;
+                    }
+                    for &(di, dj, w2) in &pg {
+                        if w2 == T::zero() || !active[di + ncx * dj] {
+                            continue;
+                        }
+                        let d = (di + 2 - ci) + 5 * (dj + 2 - cj);
+                        let slot = &mut gal[ci + ncx * cj][d];
+                        *slot = *slot + w1 * a * w2;
+                    }
+                }
+            }
+        }
+    }
+    let zero = Coeffs5 {
+        center: T::zero(),
+        west: T::zero(),
+        east: T::zero(),
+        south: T::zero(),
+        north: T::zero(),
+    };
+    let mut rows = vec![zero; nc];
+    for (kc, row) in rows.iter_mut().enumerate() {
+        row.center = gal[kc][12];
+    }
+    let half: T = lit(0.5);
+    let two: T = lit(2.0);
+    // Add conductance h to the edge from coarse (ai, aj) one step towards (+1,0) or (0,+1).
+    let add_edge = |rows: &mut Vec<Coeffs5<T>>, ai: usize, aj: usize, east: bool, h: T| {
+        let a = ai + ncx * aj;
+        let b = if east { a + 1 } else { a + ncx };
+        rows[a].center = rows[a].center + h;
+        rows[b].center = rows[b].center + h;
+        if east {
+            rows[a].east = rows[a].east - h;
+            rows[b].west = rows[b].west - h;
+        } else {
+            rows[a].north = rows[a].north - h;
+            rows[b].south = rows[b].south - h;
+        }
+    };
+    for cj in 0..ncy {
+        for ci in 0..ncx {
+            let a = ci + ncx * cj;
+            if !active[a] {
+                continue;
+            }
+            for dy in -2i64..=2 {
+                for dx in -2i64..=2 {
+                    // Each unordered pair once: offsets in the upper half-plane.
+                    if dy < 0 || (dy == 0 && dx <= 0) {
+                        continue;
+                    }
+                    let (ti, tj) = (ci as i64 + dx, cj as i64 + dy);
+                    if ti < 0 || tj < 0 || ti >= ncx as i64 || tj >= ncy as i64 {
+                        continue;
+                    }
+                    let (ti, tj) = (ti as usize, tj as usize);
+                    let c = ti + ncx * tj;
+                    let d_ac = ((dx + 2) + 5 * (dy + 2)) as usize;
+                    let d_ca = ((2 - dx) + 5 * (2 - dy)) as usize;
+                    let v = half * (gal[a][d_ac] + gal[c][d_ca]);
+                    if v == T::zero() || !active[c] {
+                        continue;
+                    }
+                    // Remove the pair's term from the diagonals (it contributed −v to each).
+                    rows[a].center = rows[a].center + v;
+                    rows[c].center = rows[c].center + v;
+                    if v > T::zero() {
+                        continue;
+                    }
+                    let gcond = -v;
+                    let len = (dx.unsigned_abs() + dy.unsigned_abs()) as usize;
+                    // The two L-shaped paths: x first, then y; y first, then x.
+                    let path = |x_first: bool| -> Vec<(usize, usize, bool)> {
+                        let mut steps = Vec::with_capacity(len);
+                        let (mut i, mut j) = (ci as i64, cj as i64);
+                        let sx = dx.signum();
+                        let moves_x = (0..dx.unsigned_abs()).map(|_| true);
+                        let moves_y = (0..dy.unsigned_abs()).map(|_| false);
+                        let order: Vec<bool> = if x_first {
+                            moves_x.chain(moves_y).collect()
+                        } else {
+                            moves_y.chain(moves_x).collect()
+                        };
+                        for mx in order {
+                            if mx {
+                                let ni = i + sx;
+                                steps.push((i.min(ni) as usize, j as usize, true));
+                                i = ni;
+                            } else {
+                                steps.push((i as usize, j as usize, false));
+                                j += 1;
+                            }
+                        }
+                        steps
+                    };
+                    let open = |steps: &[(usize, usize, bool)]| {
+                        steps.iter().all(|&(i, j, east)| {
+                            let b = if east {
+                                (i + 1) + ncx * j
+                            } else {
+                                i + ncx * (j + 1)
+                            };
+                            active[i + ncx * j] && active[b]
+                        })
+                    };
+                    let paths: Vec<Vec<(usize, usize, bool)>> = if dx == 0 || dy == 0 {
+                        vec![path(true)]
+                    } else {
+                        vec![path(true), path(false)]
+                    };
+                    let usable: Vec<&Vec<(usize, usize, bool)>> =
+                        paths.iter().filter(|p| open(p)).collect();
+                    if usable.is_empty() {
+                        rows[a].center = rows[a].center + two * gcond;
+                        rows[c].center = rows[c].center + two * gcond;
+                        continue;
+                    }
+                    let weight = (dx * dx + dy * dy) as f64 / len as f64;
+                    let share =
+                        gcond * lit::<T>(weight) / T::from(usable.len()).unwrap_or_else(T::one);
+                    for p in usable {
+                        for &(i, j, east) in p {
+                            add_edge(&mut rows, i, j, east, share);
+                        }
+                    }
+                }
+            }
+        }
+    }
+    rows
 }
 
 /// One red-black Gauss–Seidel sweep on `x` for `A·x = b`: colour `first` (cells with
