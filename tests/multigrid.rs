@@ -72,7 +72,12 @@ fn lumped_galerkin_on_the_heterogeneous_field() {
     let mut x = x0.clone();
     let report = mg.solve(&op, &rhs, &mut x).unwrap();
     eprintln!("{report}");
-    let it = iterations(&mut Pcg::new(Multigrid::new(&op, settings).unwrap()), &op, &rhs, &x0);
+    let it = iterations(
+        &mut Pcg::new(Multigrid::new(&op, settings).unwrap()),
+        &op,
+        &rhs,
+        &x0,
+    );
     eprintln!("lumped Galerkin MG-PCG: {it} iterations");
     assert!(it <= 25);
 }
