@@ -8,14 +8,21 @@ use crate::stencil::Stencil5;
 use crate::{Coeffs5, FixedCells, Grid, Scalar};
 
 /// Pivots and lower couplings of `M = s⁻¹·(P + L)·P⁻¹·(P + Lᵀ)`.
+///
+/// Built in two steps: [`lower_part`](LowerFactor::lower_part) stores the raw couplings of `L`
+/// and the caller computes the pivots from them; [`finish`](LowerFactor::finish) then scales
+/// the couplings by the pivots, `a_k = L[k, k−1]/p_{k−1}`, `b_k = L[k, k−nx]/p_{k−nx}`, so that
+/// `M = s⁻¹·(I + L·P⁻¹)·P·(I + P⁻¹·Lᵀ)` is applied with one multiply-subtract per coupling and
+/// the same two arrays serve both sweeps (`(P⁻¹Lᵀ)[k, k+1] = a_{k+1}`,
+/// `(P⁻¹Lᵀ)[k, k+nx] = b_{k+nx}`).
 #[derive(Clone, Debug)]
 pub(crate) struct LowerFactor<T> {
     pub(crate) grid: Grid,
     /// `1 / p_k`.
     pub(crate) inv_pivot: Vec<T>,
-    /// `L[k, k−1]`: the eliminated west coupling of cell `k`.
+    /// Before `finish`: `L[k, k−1]`, the eliminated west coupling. After: `a_k`.
     pub(crate) west: Vec<T>,
-    /// `L[k, k−nx]`: the eliminated south coupling of cell `k`.
+    /// Before `finish`: `L[k, k−nx]`, the eliminated south coupling. After: `b_k`.
     pub(crate) south: Vec<T>,
     /// `s`: `z` is multiplied by it at the end.
     pub(crate) scale: T,
@@ -40,45 +47,80 @@ impl<T: Scalar> LowerFactor<T> {
         }
     }
 
-    /// `z = M⁻¹ r`: forward sweep `(P + L)·y = r`, backward sweep `(P + Lᵀ)·z = P·y`, in place
-    /// in `z`, then `z *= s`. Allocates nothing.
+    /// Scale the couplings by the pivots (call once, after setting `inv_pivot`).
+    pub(crate) fn finish(mut self) -> LowerFactor<T> {
+        let nx = self.grid.nx();
+        let n = self.grid.cells();
+        for k in (0..n).rev() {
+            if k % nx != 0 {
+                self.west[k] = self.west[k] * self.inv_pivot[k - 1];
+            }
+            if k >= nx {
+                self.south[k] = self.south[k] * self.inv_pivot[k - nx];
+            }
+        }
+        self
+    }
+
+    /// `z = M⁻¹ r`: forward sweep `(I + L·P⁻¹)·u = r`, backward sweep
+    /// `(I + P⁻¹·Lᵀ)·z = P⁻¹·u`, in place in `z`, then `z *= s`. Allocates nothing.
     pub(crate) fn solve(&self, r: &[T], z: &mut [T]) {
-        let (nx, n) = (self.grid.nx(), self.grid.cells());
+        let (nx, ny, n) = (self.grid.nx(), self.grid.ny(), self.grid.cells());
         if r.len() < n || z.len() < n {
             return;
         }
-        let ny = self.grid.ny();
-        let (w, s, d) = (&self.west, &self.south, &self.inv_pivot);
+        let (a, b, d) = (&self.west[..n], &self.south[..n], &self.inv_pivot[..n]);
+        let z = &mut z[..n];
         for j in 0..ny {
-            let row = j * nx;
-            for i in 0..nx {
-                let k = row + i;
-                let mut acc = r[k];
-                if i > 0 {
-                    acc = acc - w[k] * z[k - 1];
+            let row = j * nx..(j + 1) * nx;
+            let (before, rest) = z.split_at_mut(j * nx);
+            let cur = &mut rest[..nx];
+            let (rr, ar, br) = (&r[row.clone()], &a[row.clone()], &b[row]);
+            let mut left = T::zero();
+            if j == 0 {
+                for i in 0..nx {
+                    let u = rr[i] - ar[i] * left;
+                    cur[i] = u;
+                    left = u;
                 }
-                if j > 0 {
-                    acc = acc - s[k] * z[k - nx];
+            } else {
+                let prev = &before[(j - 1) * nx..];
+                for i in 0..nx {
+                    let u = (rr[i] - br[i] * prev[i]) - ar[i] * left;
+                    cur[i] = u;
+                    left = u;
                 }
-                z[k] = acc * d[k];
             }
         }
+        let s = self.scale;
         for j in (0..ny).rev() {
-            let row = j * nx;
-            for i in (0..nx).rev() {
-                let k = row + i;
-                let mut acc = T::zero();
-                if i + 1 < nx {
-                    acc = acc + w[k + 1] * z[k + 1];
+            let start = j * nx;
+            let (upto, after) = z.split_at_mut(start + nx);
+            let cur = &mut upto[start..];
+            let dr = &d[start..start + nx];
+            // a_{k+1} for the cells of this row (the last one has no east neighbour).
+            let ar = &a[start + 1..(start + nx).min(n)];
+            let mut right = T::zero();
+            if j + 1 == ny {
+                for i in (0..nx).rev() {
+                    let east = if i + 1 < nx { ar[i] * right } else { T::zero() };
+                    let v = cur[i] * dr[i] - east;
+                    cur[i] = v;
+                    right = v;
                 }
-                if j + 1 < ny {
-                    acc = acc + s[k + nx] * z[k + nx];
+            } else {
+                let next = &after[..nx];
+                let bn = &b[start + nx..start + 2 * nx];
+                for i in (0..nx).rev() {
+                    let east = if i + 1 < nx { ar[i] * right } else { T::zero() };
+                    let v = (cur[i] * dr[i] - bn[i] * next[i]) - east;
+                    cur[i] = v;
+                    right = v;
                 }
-                z[k] = z[k] - acc * d[k];
             }
         }
-        if self.scale != T::one() {
-            z[..n].iter_mut().for_each(|v| *v = *v * self.scale);
+        if s != T::one() {
+            z.iter_mut().for_each(|v| *v = *v * s);
         }
     }
 

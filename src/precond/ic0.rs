@@ -102,10 +102,11 @@ impl FactorSettings {
 /// exact Cholesky factor. The upper couplings are taken as the transpose of the lower ones
 /// (the operator itself when it is symmetric).
 ///
-/// **Weak pivots.** For an M-matrix (positive centers, non-positive couplings, weakly diagonally
-/// dominant with a fixed cell or a positive storage term in every connected region) every
-/// pivot of IC(0) is positive, and so is every MIC(0) pivot with `α < 1`. Elsewhere a pivot can
-/// fall to or below zero; [`FactorSettings::weak_pivot`] decides between a documented
+/// **Weak pivots.** For an M-matrix every pivot of IC(0) is positive (Meijerink & van der
+/// Vorst 1977); for MIC(0) the same holds for diagonally dominant M-matrices that are strictly
+/// dominant somewhere in every connected region — a fixed cell or a storage term — (Gustafsson
+/// 1978, from memory), though with `α = 1` pivots far from any such row can become small.
+/// Elsewhere a pivot can fall to or below zero; [`FactorSettings::weak_pivot`] decides between a documented
 /// replacement (the default: the cell's center, counted in
 /// [`replaced_pivots`](IncompleteCholesky::replaced_pivots)) and an error. No NaN ever reaches
 /// the factor. Storage: three arrays of one entry per cell.
@@ -250,7 +251,7 @@ impl<T: Scalar> IncompleteCholesky<T> {
             }
         }
         Ok(IncompleteCholesky {
-            factor,
+            factor: factor.finish(),
             settings,
             replaced,
         })

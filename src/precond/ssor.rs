@@ -76,7 +76,10 @@ impl<T: Scalar> Ssor<T> {
             *d = w / center;
         }
         factor.scale = lit::<T>(2.0) - w;
-        Ok(Ssor { factor, omega })
+        Ok(Ssor {
+            factor: factor.finish(),
+            omega,
+        })
     }
 
     /// The relaxation factor ω.
