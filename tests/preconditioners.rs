@@ -24,7 +24,7 @@ fn all_preconditioners(op: &Banded5<f64>) -> Vec<Box<dyn Preconditioner<f64> + '
             IncompleteCholesky::new(
                 op,
                 FactorSettings {
-                    compensation: 1.0,
+                    compensation: 0.9,
                     ..FactorSettings::mic0()
                 },
             )

@@ -69,16 +69,19 @@ impl FactorSettings {
         }
     }
 
-    /// MIC(0) with `α = 0.99`: nearly full row-sum compensation, relaxed a little so that
-    /// problems with few fixed cells (pivots near zero with `α = 1`) stay well away from the
-    /// pivot floor.
+    /// MIC(0) with `α = 1`: Gustafsson's full row-sum compensation, with the weak-pivot
+    /// safeguard as the stabiliser. Relaxed values (`α` a little below 1) keep pivots further
+    /// from zero on nearly singular problems (few fixed cells, no storage), but give back the
+    /// `h^{-1/2}` growth on large grids: measured PCG iteration-growth exponents on the
+    /// Dirichlet Poisson problem, n = 64 … 1024, are 0.60 for `α = 1`, 0.77 for `α = 0.99` and
+    /// 0.86 for `α = 0.95` (IC(0): 0.9).
     ///
     /// ```
-    /// assert_eq!(quintet::FactorSettings::mic0().compensation, 0.99);
+    /// assert_eq!(quintet::FactorSettings::mic0().compensation, 1.0);
     /// ```
     pub fn mic0() -> FactorSettings {
         FactorSettings {
-            compensation: 0.99,
+            compensation: 1.0,
             ..FactorSettings::ic0()
         }
     }
@@ -161,7 +164,7 @@ impl<T: Scalar> IncompleteCholesky<T> {
     /// use quintet::prelude::*;
     /// let grid = Grid::new(16, 16)?;
     /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
-    /// assert_eq!(IncompleteCholesky::mic0(&op)?.settings().compensation, 0.99);
+    /// assert_eq!(IncompleteCholesky::mic0(&op)?.settings().compensation, 1.0);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn mic0<S: Stencil5<T> + ?Sized>(op: &S) -> Result<IncompleteCholesky<T>, Error> {
