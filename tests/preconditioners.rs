@@ -454,10 +454,11 @@ fn closure_and_banded_operators_give_the_same_bits() {
         .map(|k| ((k * 31) % 17) as f64 - 8.0)
         .collect();
     let (mut za, mut zb) = (vec![0.0; grid.cells()], vec![0.0; grid.cells()]);
-    let pairs: Vec<(
-        Box<dyn Preconditioner<f64> + '_>,
-        Box<dyn Preconditioner<f64> + '_>,
-    )> = vec![
+    type Pair<'a> = (
+        Box<dyn Preconditioner<f64> + 'a>,
+        Box<dyn Preconditioner<f64> + 'a>,
+    );
+    let pairs: Vec<Pair<'_>> = vec![
         (
             Box::new(Ssor::new(&banded, 1.3).unwrap()),
             Box::new(Ssor::new(&closure, 1.3).unwrap()),
