@@ -330,6 +330,16 @@ fn bad_settings_are_rejected_with_typed_errors() {
             Err(Error::InvalidSetting { .. })
         ));
     }
+    // A hierarchy whose coarsest level would be too big for the direct solve says so.
+    let big = poisson(100);
+    let one_level = MultigridSettings {
+        max_levels: 1,
+        ..Default::default()
+    };
+    assert!(matches!(
+        Multigrid::new(&big, one_level),
+        Err(Error::InvalidSetting { .. })
+    ));
     // A non-positive center is named.
     let grid = Grid::new(3, 1).unwrap();
     let bad = Banded5::from_fn(grid, |i, _| Coeffs5 {
