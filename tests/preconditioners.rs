@@ -91,7 +91,7 @@ proptest! {
 
     /// PCG with each preconditioner agrees with nalgebra's dense Cholesky solution of the
     /// free-cell system. Bound: ‖x − x*‖/‖x*‖ ≤ κ(A)·‖r‖/‖b‖ (common practice: the standard
-    /// residual bound, e.g. Golub & Van Loan, Matrix Computations, 4th ed. 2013, §2.6), with
+    /// residual bound, e.g. Golub & Van Loan, Matrix Computations, 4th ed. 2013, §2.6.2), with
     /// the residual PCG actually reached and κ(A) from nalgebra's eigenvalues, plus κ·100·ε for
     /// the dense solve's own rounding.
     #[test]
@@ -126,7 +126,8 @@ proptest! {
 
     /// ⟨M⁻¹u, v⟩ = ⟨u, M⁻¹v⟩ to rounding for random u, v (PCG needs a symmetric M; common
     /// practice). Rounding allowance: n·ε per inner product (the standard dot-product error
-    /// bound, Higham, Accuracy and Stability of Numerical Algorithms, 2002, §3.1) times 10³ for
+    /// bound, Higham, Accuracy and Stability of Numerical Algorithms, 2nd ed. 2002, §3.1, from
+    /// memory) times 10³ for
     /// the rounding inside the sweeps that produce M⁻¹u.
     #[test]
     fn preconditioners_are_symmetric(
@@ -155,7 +156,8 @@ proptest! {
     }
 
     /// Stone's iteration, standalone, converges to nalgebra's dense solution on diagonally
-    /// dominant M-matrices (Stone 1968 analyses the method for these). Same residual bound as
+    /// dominant M-matrices (Stone 1968 analyses the method for these; from memory). Same residual
+    /// bound as
     /// above.
     #[test]
     fn sip_iteration_matches_dense_cholesky(
