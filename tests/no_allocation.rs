@@ -1,4 +1,4 @@
-//! Applying a preconditioner allocates nothing (the requirement; setup may allocate).
+//! Applying a preconditioner allocates nothing (a design rule of the crate; setup may allocate).
 //! A counting global allocator sees every allocation of this test binary.
 
 use std::alloc::{GlobalAlloc, Layout, System};
