@@ -6,7 +6,7 @@
 //! | preconditioner | setup | storage (`T` entries per cell) | PCG iterations, Dirichlet Poisson, 64² → 1024² (measured) |
 //! |---|---|---|---|
 //! | [`Jacobi`] | none | 1 | as CG: `∝ h⁻¹` (119 → 941 at 512²) |
-//! | [`Ssor`] (ω = 1) | one pass | 3 | `∝ h⁻¹`, half of CG's (60 → 807) |
+//! | [`Ssor`] | one pass | 3 | `∝ h⁻¹` with ω = 1 (60 → 807); `∝ h^{-1/2}` with ω = 2/(1 + πh) (34 → 102 at 512²) |
 //! | [`IncompleteCholesky`] IC(0) | one pass | 3 | `∝ h⁻¹`, a third of CG's (52 → 682) |
 //! | [`IncompleteCholesky`] MIC(0) | one pass | 3 | `∝ h^{-1/2}` (36 → 191) |
 //! | [`Sip`] (symmetrised) | one pass | 6 | between IC(0) and MIC(0) (33 → 379); not positive definite on high-contrast fields |

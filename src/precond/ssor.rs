@@ -12,10 +12,13 @@ use crate::{Error, Scalar};
 /// south couplings of the eliminated system (fixed cells are identity rows). `M` is symmetric
 /// positive definite for every ω in (0, 2) and every operator with positive centers, so PCG
 /// may use it; the upper couplings are taken as the transpose of the lower ones, which is the
-/// operator itself when it is symmetric. ω = 1 is symmetric Gauss–Seidel. With a good ω
-/// (near the SOR optimum) the PCG iteration count grows like `h^{-1/2}` on the model problem
-/// instead of CG's `h⁻¹` (Axelsson & Barker 1984, from memory); with ω = 1 the growth stays
-/// `h⁻¹`, at a smaller constant. Storage: three arrays of one entry per cell.
+/// operator itself when it is symmetric. ω = 1 is symmetric Gauss–Seidel. With a good ω the
+/// PCG iteration count grows like `h^{-1/2}` on the model problem instead of CG's `h⁻¹`
+/// (Axelsson & Barker 1984, from memory); with ω = 1 the growth stays `h⁻¹`, at half CG's
+/// count. Measured on the Dirichlet Poisson problem from 64² to 512²: ω = 1 needs 60 → 405
+/// iterations; ω = 2/(1 + πh) (that is `2/(1 + √(2(1 − ρ_J)))` with the Jacobi radius
+/// `ρ_J = cos πh`) needs 34 → 102, within 10 % of the best ω found by a scan. Storage: three
+/// arrays of one entry per cell.
 ///
 /// # Example
 ///
