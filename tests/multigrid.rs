@@ -174,8 +174,9 @@ fn hierarchy_memory_is_bounded() {
     }
 }
 
-/// Odd and one-cell-wide grids and fixed cells work: MG-PCG converges (against the dense
-/// solve in the preconditioner tests; here on sizes too big for a dense reference).
+/// Odd and one-cell-wide grids and scattered fixed cells: MG-PCG on these Laplacians stays
+/// within the same 12-iteration band as on the square Poisson problem (grid independence must
+/// not depend on the grid being square or a power of two; common practice). Measured: 0–7.
 #[test]
 fn awkward_grids_converge() {
     for (nx, ny) in [(1, 300), (300, 1), (33, 65), (2, 2), (1, 1), (129, 3)] {
@@ -195,6 +196,6 @@ fn awkward_grids_converge() {
         )
         .unwrap();
         let it = iterations(&mut Pcg::new(mg), &op, &vec![1.0; cells], &vec![0.5; cells]);
-        assert!(it <= 30, "{nx} x {ny}: {it}");
+        assert!(it <= 12, "{nx} x {ny}: {it}");
     }
 }
