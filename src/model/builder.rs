@@ -1,0 +1,602 @@
+//! [`Model`]: geometry, medium and conditions, collected before assembly.
+
+use super::assemble;
+use super::field::{Field, Profile};
+use super::geometry::Geometry;
+use super::medium::{Conductivity, Storage};
+use super::steady::SteadySystem;
+use crate::{Error, Grid, Side};
+
+/// A handle to one condition of a [`Model`], returned when the condition is added. Use it to
+/// change the condition's values between solves or during a transient run
+/// ([`Forcing`](super::Forcing)) and to find its line in a [`Budget`](super::Budget).
+///
+/// ```
+/// use quintet::model::{Conductivity, Geometry, Model};
+/// let mut model = Model::new(Geometry::cell_centered(5, 5, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+/// let heater = model.point_source("heater", 12, 3.0)?;
+/// assert_eq!(model.label(heater), Some("heater"));
+/// # Ok::<(), quintet::Error>(())
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
+pub struct ConditionId(pub(crate) usize);
+
+impl ConditionId {
+    /// The position of the condition in the order it was added (0 for the first).
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(5, 5, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// let first = model.point_source("heater", 12, 3.0)?;
+    /// assert_eq!(first.index(), 0);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn index(self) -> usize {
+        self.0
+    }
+}
+
+/// What to do when some connected group of active cells has nothing that sets its level (no
+/// prescribed value and no exchange reaching it): the steady equations are then singular,
+/// with every constant shift of that group's values another solution.
+///
+/// ```
+/// use quintet::model::SingularPolicy;
+/// assert_eq!(SingularPolicy::default(), SingularPolicy::Reject);
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq, Default)]
+pub enum SingularPolicy {
+    /// Refuse to assemble, with [`Error::FloatingRegion`] naming a cell of the group.
+    #[default]
+    Reject,
+    /// Solve the compatible problem: the sources of each such group must balance (to one part
+    /// in a million of their total magnitude, else [`Error::UnbalancedSources`]); the rest of
+    /// the imbalance is removed from the right-hand side, and after the solve the group's
+    /// volume-weighted mean is set to this value.
+    FixMean(f64),
+}
+
+/// Which cells a condition applies to.
+#[derive(Clone, Debug, PartialEq)]
+pub(crate) enum Target {
+    Edge(Side),
+    Cells(Vec<usize>),
+    Everywhere,
+}
+
+/// What a condition prescribes.
+#[derive(Clone, Debug, PartialEq)]
+pub(crate) enum Spec {
+    Value(Profile),
+    Flux(Profile),
+    Exchange {
+        coefficient: Profile,
+        external: Profile,
+    },
+    PointSource(f64),
+    ArealSource(Field),
+    VolumetricSource(Field),
+}
+
+/// One condition as the caller gave it.
+#[derive(Clone, Debug, PartialEq)]
+pub(crate) struct Condition {
+    pub(crate) label: String,
+    pub(crate) target: Target,
+    pub(crate) spec: Spec,
+}
+
+/// A conduction (heat) or confined-flow (groundwater) model on a structured grid: geometry,
+/// conductivity, inactive cells, boundary conditions and sources, and optionally storage.
+///
+/// Build it up, then [`assemble`](Model::assemble) it into a [`SteadySystem`] for any driver,
+/// or hand it to a [`Stepper`](super::Stepper) for a transient run. Conditions are applied in
+/// the order added; where two prescribed values reach the same cell, the later one wins. Edge
+/// conditions and distributed sources skip inactive cells and cells whose value is prescribed;
+/// a condition placed on one such cell by name is an error. Sources are positive into the
+/// model: a pumping well or a cooler is a negative source.
+///
+/// # Example
+///
+/// ```
+/// use quintet::model::{Conductivity, Geometry, Model};
+/// use quintet::prelude::*;
+///
+/// // A confined aquifer, 30 x 20 cells of 50 m, 10 m thick, K = 2e-4 m/s.
+/// let geometry = Geometry::cell_centered(30, 20, 50.0, 50.0, 10.0)?;
+/// let mut model = Model::new(geometry, Conductivity::isotropic(2e-4))?;
+/// model.prescribe_edge("lake", Side::West, 15.0)?;          // head on the west edge, m
+/// model.areal_source("recharge", 5e-9)?;                     // m/s over the plan area
+/// let well = model.point_source("supply well", 315, -4e-3)?; // m³/s, pumping
+///
+/// let system = model.assemble()?;
+/// let mut heads = system.initial_solution(15.0);
+/// let mut pcg = Pcg::new(Jacobi::new(system.operator())?)
+///     .with_options(SolveOptions::default().tolerance(1e-10));
+/// system.solve(&mut pcg, &mut heads, &mut Workspace::new())?;
+/// let budget = system.budget(&heads)?;
+/// assert!(budget.discrepancy_percent().abs() < 1e-6);
+/// assert_eq!(budget.line(well).map(|l| l.outflow), Some(4e-3));
+/// # Ok::<(), quintet::Error>(())
+/// ```
+#[derive(Clone, Debug, PartialEq)]
+pub struct Model {
+    pub(crate) geometry: Geometry,
+    pub(crate) conductivity: Conductivity,
+    pub(crate) active: Vec<bool>,
+    pub(crate) inactive_value: f64,
+    pub(crate) storage: Option<Storage>,
+    pub(crate) conditions: Vec<Condition>,
+    pub(crate) singular: SingularPolicy,
+}
+
+impl Model {
+    /// A model with every cell active, no conditions (every edge no-flow / insulated) and no
+    /// storage.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::LengthMismatch`] if a per-cell conductivity does not have one value per cell.
+    ///
+    /// ```
+    /// use quintet::model::{Conductivity, Geometry, Model};
+    /// let g = Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?;
+    /// assert!(Model::new(g.clone(), Conductivity::isotropic(vec![1.0; 3])).is_err());
+    /// assert!(Model::new(g, Conductivity::isotropic(1.0)).is_ok());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn new(geometry: Geometry, conductivity: Conductivity) -> Result<Model, Error> {
+        conductivity.check_len(geometry.grid())?;
+        Ok(Model {
+            active: vec![true; geometry.grid().cells()],
+            geometry,
+            conductivity,
+            inactive_value: 0.0,
+            storage: None,
+            conditions: Vec::new(),
+            singular: SingularPolicy::Reject,
+        })
+    }
+
+    /// The geometry.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// let model = Model::new(Geometry::cell_centered(4, 2, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// assert_eq!(model.geometry().grid().cells(), 8);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn geometry(&self) -> &Geometry {
+        &self.geometry
+    }
+
+    /// The grid of the geometry.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// let model = Model::new(Geometry::cell_centered(4, 2, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// assert_eq!(model.grid().nx(), 4);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn grid(&self) -> Grid {
+        self.geometry.grid()
+    }
+
+    /// Remove cells from the model (outside the aquifer or the body). Inactive cells carry no
+    /// flow, take no part in the budget, and hold the inactive value (default 0) in every
+    /// solution: they become identity rows with no couplings, fixed at that value, so the
+    /// operator stays symmetric.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::CellOutOfRange`] for an index off the grid (no cell is changed then).
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// let mut model = Model::new(Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.deactivate([0, 1, 4])?;
+    /// assert!(!model.is_active(4) && model.is_active(5));
+    /// assert!(model.deactivate([16]).is_err());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn deactivate(&mut self, cells: impl IntoIterator<Item = usize>) -> Result<(), Error> {
+        let cells = self.checked_cells(cells)?;
+        for k in cells {
+            self.active[k] = false;
+        }
+        Ok(())
+    }
+
+    /// Whether cell `k` is active (`false` off the grid).
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// let model = Model::new(Geometry::cell_centered(2, 2, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// assert!(model.is_active(3) && !model.is_active(4));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn is_active(&self, k: usize) -> bool {
+        self.active.get(k).copied().unwrap_or(false)
+    }
+
+    /// The value inactive cells hold in every solution (default 0, in the unit of the
+    /// solution). Choose one that cannot be mistaken for a result, such as an elevation below
+    /// the aquifer base.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::InvalidSetting`] for a value that is not finite.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// let mut model = Model::new(Geometry::cell_centered(2, 2, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.set_inactive_value(-999.0)?;
+    /// assert!(model.set_inactive_value(f64::NAN).is_err());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_inactive_value(&mut self, value: f64) -> Result<(), Error> {
+        if !value.is_finite() {
+            return Err(Error::InvalidSetting {
+                name: "inactive value",
+                value,
+                allowed: "a finite value",
+            });
+        }
+        self.inactive_value = value;
+        Ok(())
+    }
+
+    /// Give the model storage, for transient runs (a steady assembly ignores it).
+    ///
+    /// # Errors
+    ///
+    /// [`Error::LengthMismatch`] for a per-cell field of the wrong length. Values are checked
+    /// (finite, `>= 0`) at active cells when a run is set up.
+    ///
+    /// ```
+    /// use quintet::model::{Conductivity, Geometry, Model, Storage};
+    /// let mut model = Model::new(Geometry::cell_centered(2, 2, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.set_storage(Storage::per_volume(2.0e6))?; // J/(m³·K)
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_storage(&mut self, storage: Storage) -> Result<(), Error> {
+        storage.values().check_len("storage", self.grid())?;
+        self.storage = Some(storage);
+        Ok(())
+    }
+
+    /// Choose what a steady assembly does with a singular problem (default:
+    /// [`SingularPolicy::Reject`]).
+    ///
+    /// ```
+    /// use quintet::model::{Conductivity, Geometry, Model, SingularPolicy};
+    /// let mut model = Model::new(Geometry::cell_centered(2, 2, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.set_singular_policy(SingularPolicy::FixMean(20.0));
+    /// assert!(model.assemble().is_ok()); // all edges insulated, mean held at 20
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_singular_policy(&mut self, policy: SingularPolicy) {
+        self.singular = policy;
+    }
+
+    /// The label of a condition, if it belongs to this model.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(2, 2, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// let id = model.areal_source("rain", 1e-8)?;
+    /// assert_eq!(model.label(id), Some("rain"));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn label(&self, id: ConditionId) -> Option<&str> {
+        self.conditions.get(id.0).map(|c| c.label.as_str())
+    }
+
+    /// Hold the listed cells at prescribed values (fixed head or temperature at the cells'
+    /// nodes): one value for all, or one per listed cell. The cells must be active.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::CellOutOfRange`], [`Error::LengthMismatch`] for a profile that does not match
+    /// the cells, [`Error::NonFinite`] for a non-finite value.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.prescribe_cells("spring", [4], 102.5)?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn prescribe_cells(
+        &mut self,
+        label: impl Into<String>,
+        cells: impl IntoIterator<Item = usize>,
+        values: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let cells = self.checked_cells(cells)?;
+        let values = values.into();
+        self.check_profile("prescribed value", &cells, &values)?;
+        Ok(self.push(label, Target::Cells(cells), Spec::Value(values)))
+    }
+
+    /// Prescribe the value on the edge `side` (fixed head or temperature on the boundary line):
+    /// one value, or one per cell along the edge. On a cell-centred axis the value acts on the
+    /// outer faces of the edge cells, through half a cell of conduction; on a node-centred axis
+    /// the edge nodes are held at it.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::LengthMismatch`], [`Error::NonFinite`].
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Side};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.prescribe_edge("cold wall", Side::North, vec![5.0, 6.0, 7.0])?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn prescribe_edge(
+        &mut self,
+        label: impl Into<String>,
+        side: Side,
+        values: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let values = values.into();
+        self.check_profile("prescribed value", &self.geometry.edge(side), &values)?;
+        Ok(self.push(label, Target::Edge(side), Spec::Value(values)))
+    }
+
+    /// Prescribe the flux through the edge `side`, per unit face area, positive into the
+    /// model: W/m² for heat, m/s (m³/s per m²) for groundwater. An edge with no condition is
+    /// already no-flow (insulated); this is for nonzero fluxes.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::LengthMismatch`], [`Error::NonFinite`].
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Side};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.edge_flux("solar gain", Side::South, 350.0)?; // W/m²
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn edge_flux(
+        &mut self,
+        label: impl Into<String>,
+        side: Side,
+        flux: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let flux = flux.into();
+        self.check_profile("edge flux", &self.geometry.edge(side), &flux)?;
+        Ok(self.push(label, Target::Edge(side), Spec::Flux(flux)))
+    }
+
+    /// Exchange through the edge `side` with an outside value: the flow into the model is
+    /// `h·A·(φ_outside − φ_face)`, with `A` the face area and `h` per unit area — a convection
+    /// coefficient (W/(m²·K)) for heat, or a conductance per area (1/s, bed conductivity over
+    /// bed thickness) for a river, lake or drain-like edge. On a cell-centred axis the half
+    /// cell between node and face is added in series.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::LengthMismatch`], [`Error::NonFinite`], and [`Error::InvalidProperty`] for a
+    /// negative coefficient.
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Side};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 0.1, 0.1, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.edge_exchange("air", Side::East, 25.0, 20.0)?; // h = 25 W/(m²·K), 20 °C air
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn edge_exchange(
+        &mut self,
+        label: impl Into<String>,
+        side: Side,
+        coefficient: impl Into<Profile>,
+        outside: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let (coefficient, external) = (coefficient.into(), outside.into());
+        let cells = self.geometry.edge(side);
+        self.check_profile("exchange coefficient", &cells, &coefficient)?;
+        self.check_profile("outside value", &cells, &external)?;
+        self.check_nonnegative("exchange coefficient", &cells, &coefficient)?;
+        let spec = Spec::Exchange {
+            coefficient,
+            external,
+        };
+        Ok(self.push(label, Target::Edge(side), spec))
+    }
+
+    /// Exchange between the listed cells and an outside value: the flow into each cell is
+    /// `C·(φ_outside − φ_cell)` with `C` a conductance per cell — W/K for heat (a cooling
+    /// channel), m²/s for a river, drain or leaky layer in the cell. The cells must be active
+    /// and not prescribed.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::CellOutOfRange`], [`Error::LengthMismatch`], [`Error::NonFinite`],
+    /// [`Error::InvalidProperty`] for a negative conductance.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 50.0, 50.0, 10.0)?, Conductivity::isotropic(1e-4))?;
+    /// // A stream through the middle row: conductance 0.02 m²/s, stage 31.2 m.
+    /// model.cell_exchange("stream", [3, 4, 5], 0.02, 31.2)?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn cell_exchange(
+        &mut self,
+        label: impl Into<String>,
+        cells: impl IntoIterator<Item = usize>,
+        conductance: impl Into<Profile>,
+        outside: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let cells = self.checked_cells(cells)?;
+        let (coefficient, external) = (conductance.into(), outside.into());
+        self.check_profile("exchange conductance", &cells, &coefficient)?;
+        self.check_profile("outside value", &cells, &external)?;
+        self.check_nonnegative("exchange conductance", &cells, &coefficient)?;
+        let spec = Spec::Exchange {
+            coefficient,
+            external,
+        };
+        Ok(self.push(label, Target::Cells(cells), spec))
+    }
+
+    /// A point source in cell `k`: W for heat (a heater; negative for a cooler), m³/s for
+    /// groundwater (an injection well; negative for a pumping well). The cell must be active
+    /// and not prescribed.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::CellOutOfRange`], [`Error::NonFinite`].
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 50.0, 50.0, 10.0)?, Conductivity::isotropic(1e-4))?;
+    /// model.point_source("well 2", 4, -0.01)?; // pumping 10 L/s
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn point_source(
+        &mut self,
+        label: impl Into<String>,
+        k: usize,
+        rate: f64,
+    ) -> Result<ConditionId, Error> {
+        let cells = self.checked_cells([k])?;
+        self.check_profile("point source rate", &cells, &Profile::Uniform(rate))?;
+        Ok(self.push(label, Target::Cells(cells), Spec::PointSource(rate)))
+    }
+
+    /// A source spread over the plan area of every active, non-prescribed cell, per unit plan
+    /// area: recharge (m/s) for groundwater, W/m² for heat.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::LengthMismatch`], [`Error::NonFinite`].
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 50.0, 50.0, 10.0)?, Conductivity::isotropic(1e-4))?;
+    /// model.areal_source("recharge", 3.2e-9)?; // about 100 mm per year
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn areal_source(
+        &mut self,
+        label: impl Into<String>,
+        rate: impl Into<Field>,
+    ) -> Result<ConditionId, Error> {
+        let rate = rate.into();
+        self.check_field("areal source", &rate)?;
+        Ok(self.push(label, Target::Everywhere, Spec::ArealSource(rate)))
+    }
+
+    /// A source spread over the volume of every active, non-prescribed cell, per unit volume:
+    /// heat generation (W/m³), or a volumetric water source (1/s).
+    ///
+    /// # Errors
+    ///
+    /// [`Error::LengthMismatch`], [`Error::NonFinite`].
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 0.01, 0.01, 0.01)?, Conductivity::isotropic(15.0))?;
+    /// model.volumetric_source("resistive heating", 2.0e6)?; // W/m³
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn volumetric_source(
+        &mut self,
+        label: impl Into<String>,
+        rate: impl Into<Field>,
+    ) -> Result<ConditionId, Error> {
+        let rate = rate.into();
+        self.check_field("volumetric source", &rate)?;
+        Ok(self.push(label, Target::Everywhere, Spec::VolumetricSource(rate)))
+    }
+
+    /// Assemble the steady system: face conductances, the symmetric operator with its fixed
+    /// cells, the right-hand side and the budget bookkeeping.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::InvalidProperty`] naming the first active cell with a negative or non-finite
+    /// conductivity or a thickness that is not positive; [`Error::InactiveCell`] and
+    /// [`Error::PrescribedCellConflict`] for conditions placed by name on cells where they
+    /// cannot act; [`Error::FloatingRegion`] or [`Error::UnbalancedSources`] for a singular
+    /// problem (see [`SingularPolicy`]).
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Error};
+    /// let mut model = Model::new(Geometry::cell_centered(3, 3, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// // No prescribed value and no exchange: the level is undetermined.
+    /// assert!(matches!(model.assemble(), Err(Error::FloatingRegion { cells: 9, .. })));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn assemble(&self) -> Result<SteadySystem, Error> {
+        SteadySystem::from_assembly(assemble::assemble(self, false)?, self.singular)
+    }
+
+    fn push(&mut self, label: impl Into<String>, target: Target, spec: Spec) -> ConditionId {
+        self.conditions.push(Condition {
+            label: label.into(),
+            target,
+            spec,
+        });
+        ConditionId(self.conditions.len() - 1)
+    }
+
+    fn checked_cells(&self, cells: impl IntoIterator<Item = usize>) -> Result<Vec<usize>, Error> {
+        let n = self.grid().cells();
+        let cells: Vec<usize> = cells.into_iter().collect();
+        match cells.iter().find(|&&k| k >= n) {
+            Some(&cell) => Err(Error::CellOutOfRange { cell, cells: n }),
+            None => Ok(cells),
+        }
+    }
+
+    fn check_profile(
+        &self,
+        what: &'static str,
+        cells: &[usize],
+        values: &Profile,
+    ) -> Result<(), Error> {
+        values.check_len(what, cells.len())?;
+        match (0..cells.len()).find(|&n| !values.at(n).is_finite()) {
+            Some(n) => Err(non_finite(what, self.grid(), cells[n])),
+            None => Ok(()),
+        }
+    }
+
+    fn check_nonnegative(
+        &self,
+        what: &'static str,
+        cells: &[usize],
+        values: &Profile,
+    ) -> Result<(), Error> {
+        match (0..cells.len()).find(|&n| values.at(n) < 0.0) {
+            Some(n) => {
+                let (i, j) = self.grid().coords(cells[n]);
+                Err(Error::InvalidProperty {
+                    what,
+                    cell: cells[n],
+                    i,
+                    j,
+                    value: values.at(n),
+                    allowed: "finite and >= 0",
+                })
+            }
+            None => Ok(()),
+        }
+    }
+
+    fn check_field(&self, what: &'static str, field: &Field) -> Result<(), Error> {
+        field.check_len(what, self.grid())?;
+        match (0..self.grid().cells()).find(|&k| !field.at(k).is_finite()) {
+            Some(k) => Err(non_finite(what, self.grid(), k)),
+            None => Ok(()),
+        }
+    }
+}
+
+fn non_finite(what: &'static str, grid: Grid, cell: usize) -> Error {
+    let (i, j) = grid.coords(cell);
+    Error::NonFinite { what, cell, i, j }
+}
