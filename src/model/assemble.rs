@@ -33,7 +33,7 @@ pub(crate) struct Assembly {
     pub(crate) book: Book,
     pub(crate) inactive: Vec<usize>,
     pub(crate) inactive_value: f64,
-    /// Storage capacity per cell (J/K or m²; zero at fixed cells), for transient runs.
+    /// Storage capacity per cell (J/K or m²; zero at inactive cells), for transient runs.
     pub(crate) capacity: Vec<f64>,
     pub(crate) floating: Vec<Region>,
     pub(crate) volumes: Vec<f64>,
@@ -141,7 +141,7 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
             {
                 book.open(label, FlowKind::PrescribedValue, Action::Conductance);
                 for (t, k) in g.edge(*side).into_iter().enumerate() {
-                    if !fixed_mask[k] {
+                    if model.active[k] {
                         let w = 1.0 / resistance(model, k, *side);
                         book.push(k, w, values.at(t));
                         bands[0][k] += w;
@@ -163,11 +163,9 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
                     book.push(k, 0.0, values.at(t));
                     for side in Side::ALL {
                         let cf = face(k, side);
-                        if let Some(nb) = grid.neighbour(k, side).filter(|&nb| !fixed_mask[nb]) {
-                            if cf > 0.0 {
-                                book.link(nb, cf);
-                                anchored[nb] = true;
-                            }
+                        if let (Some(nb), true) = (grid.neighbour(k, side), cf > 0.0) {
+                            book.link(nb, cf);
+                            anchored[nb] = true;
                         }
                     }
                 }
@@ -175,7 +173,7 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
             (Spec::Flux(flux), Target::Edge(side)) => {
                 book.open(label, FlowKind::PrescribedFlux, Action::Source);
                 for (t, k) in g.edge(*side).into_iter().enumerate() {
-                    if !fixed_mask[k] {
+                    if model.active[k] {
                         book.push(k, g.face_area(k, *side), flux.at(t));
                     }
                 }
@@ -193,7 +191,7 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
                         .edge(*side)
                         .into_iter()
                         .enumerate()
-                        .filter(|&(_, k)| !fixed_mask[k])
+                        .filter(|&(_, k)| model.active[k])
                         .map(|(t, k)| {
                             let film = coefficient.at(t) * g.face_area(k, *side);
                             let r = resistance(model, k, *side);
@@ -240,7 +238,7 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
                     FlowKind::VolumetricSource
                 };
                 book.open(label, kind, Action::Source);
-                for k in (0..n).filter(|&k| !fixed_mask[k]) {
+                for k in (0..n).filter(|&k| model.active[k]) {
                     let w = if areal { g.plan_area(k) } else { g.volume(k) };
                     book.push(k, w, rate.at(k));
                 }
@@ -254,7 +252,7 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
 
     let mut capacity = vec![0.0; n];
     if let (true, Some(storage)) = (transient, &model.storage) {
-        for k in (0..n).filter(|&k| !fixed_mask[k]) {
+        for k in (0..n).filter(|&k| model.active[k]) {
             let size = if storage.is_per_volume() {
                 g.volume(k)
             } else {

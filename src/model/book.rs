@@ -7,8 +7,10 @@
 //!   area or volume, a point rate);
 //! * a **conductance** slot adds `weight` to the center and `weight·level` to the right-hand
 //!   side, so its flow into the model is `weight·(level − φ_cell)`;
-//! * a **fixed** slot holds its cell at `level`; its flow into the model is the sum over its
-//!   links `C·(φ_fixed − φ_free)` to free neighbours.
+//! * a **fixed** slot holds its cell at `level`; its flow into the model is what keeps the
+//!   cell there: conduction to its active neighbours, `Σ C·(φ_fixed − φ_nb)` over its links,
+//!   less the flows the other slots bring into the same cell (plus storage uptake in a time
+//!   step).
 
 use std::ops::Range;
 
@@ -33,7 +35,7 @@ pub(crate) struct Term {
     pub(crate) slots: Range<usize>,
 }
 
-/// A fixed slot's coupling to one free neighbour.
+/// A fixed slot's coupling to one active neighbour.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub(crate) struct Link {
     pub(crate) free: usize,
@@ -116,57 +118,88 @@ impl Book {
         }
     }
 
-    /// Flow into the model through slot `s` with solution `x` and levels `levels`.
+    /// Flow into the model through source or conductance slot `s`.
     fn slot_flow(&self, action: Action, s: usize, x: &[f64], levels: &[f64]) -> f64 {
         match action {
             Action::Source => self.weights[s] * levels[s],
             Action::Conductance => self.weights[s] * (levels[s] - x[self.cells[s]]),
-            Action::Fixed => {
-                let here = x[self.cells[s]];
-                self.links[self.link_ranges[s].clone()]
-                    .iter()
-                    .map(|l| l.conductance * (here - x[l.free]))
-                    .sum()
-            }
+            Action::Fixed => 0.0,
         }
     }
 
-    /// The budget lines of all terms: each slot's flow, weighted `theta` at the new state and
-    /// `1 − theta` at the previous one (if any), split into inflow and outflow per slot.
+    /// Conduction out of fixed slot `s` to its active neighbours.
+    fn conduction_out(&self, s: usize, x: &[f64]) -> f64 {
+        let here = x[self.cells[s]];
+        self.links[self.link_ranges[s].clone()]
+            .iter()
+            .map(|l| l.conductance * (here - x[l.free]))
+            .sum()
+    }
+
+    /// The budget lines of all terms. Each slot's flow is weighted `theta` at the new state
+    /// and `1 − theta` at the previous one (if any), then counted as inflow or outflow.
+    ///
+    /// A fixed cell belongs to the model like any other; the flow through its prescribed value
+    /// is what holds it there: conduction out of it, minus what the other conditions bring
+    /// into it, plus what it takes into storage (`storage_uptake`, per cell, if given).
     pub(crate) fn lines(
         &self,
         new: (&[f64], &[f64]),
         previous: Option<(&[f64], &[f64], f64)>,
+        storage_uptake: Option<&dyn Fn(usize) -> f64>,
     ) -> Vec<BudgetLine> {
-        self.terms
+        let weighted = |f: &dyn Fn(&[f64], &[f64]) -> f64| -> f64 {
+            let now = f(new.0, new.1);
+            match previous {
+                None => now,
+                Some((x, levels, theta)) => theta * now + (1.0 - theta) * f(x, levels),
+            }
+        };
+        let mut into_fixed = vec![0.0; self.grid.cells()];
+        let mut lines: Vec<BudgetLine> = self
+            .terms
             .iter()
-            .map(|term| {
-                let (mut inflow, mut outflow) = (0.0, 0.0);
-                for s in term.slots.clone() {
-                    let mut flow = self.slot_flow(term.action, s, new.0, new.1);
-                    if let Some((x, levels, theta)) = previous {
-                        flow = theta * flow
-                            + (1.0 - theta) * self.slot_flow(term.action, s, x, levels);
-                    }
-                    if flow >= 0.0 {
-                        inflow += flow;
-                    } else {
-                        outflow -= flow;
-                    }
-                }
-                BudgetLine {
-                    label: term.label.clone(),
-                    kind: term.kind,
-                    inflow,
-                    outflow,
-                }
+            .map(|term| BudgetLine {
+                label: term.label.clone(),
+                kind: term.kind,
+                inflow: 0.0,
+                outflow: 0.0,
             })
-            .collect()
+            .collect();
+        let book_flow = |line: &mut BudgetLine, flow: f64| {
+            if flow >= 0.0 {
+                line.inflow += flow;
+            } else {
+                line.outflow -= flow;
+            }
+        };
+        for (term, line) in self.terms.iter().zip(lines.iter_mut()) {
+            if term.action == Action::Fixed {
+                continue;
+            }
+            for s in term.slots.clone() {
+                let flow = weighted(&|x, levels| self.slot_flow(term.action, s, x, levels));
+                into_fixed[self.cells[s]] += flow;
+                book_flow(line, flow);
+            }
+        }
+        for (term, line) in self.terms.iter().zip(lines.iter_mut()) {
+            if term.action != Action::Fixed {
+                continue;
+            }
+            for s in term.slots.clone() {
+                let k = self.cells[s];
+                let uptake = storage_uptake.map_or(0.0, |f| f(k));
+                let flow = weighted(&|x, _| self.conduction_out(s, x)) - into_fixed[k] + uptake;
+                book_flow(line, flow);
+            }
+        }
+        lines
     }
 
     /// The budget of a steady solution.
     pub(crate) fn steady_budget(&self, x: &[f64]) -> Budget {
-        Budget::from_lines(self.lines((x, &self.levels), None))
+        Budget::from_lines(self.lines((x, &self.levels), None, None))
     }
 }
 

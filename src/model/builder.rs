@@ -92,9 +92,10 @@ pub(crate) struct Condition {
 /// Build it up, then [`assemble`](Model::assemble) it into a [`SteadySystem`] for any driver,
 /// or hand it to a [`Stepper`](super::Stepper) for a transient run. Conditions are applied in
 /// the order added; where two prescribed values reach the same cell, the later one wins. Edge
-/// conditions and distributed sources skip inactive cells and cells whose value is prescribed;
-/// a condition placed on one such cell by name is an error. Sources are positive into the
-/// model: a pumping well or a cooler is a negative source.
+/// conditions and distributed sources skip inactive cells; on a prescribed cell they cannot
+/// change the solution, and the budget shows their flow passing straight out through the
+/// prescribed value. A condition placed by name on an inactive or prescribed cell is an error.
+/// Sources are positive into the model: a pumping well or a cooler is a negative source.
 ///
 /// # Example
 ///
@@ -466,8 +467,7 @@ impl Model {
         Ok(self.push(label, Target::Cells(cells), Spec::PointSource(rate)))
     }
 
-    /// A source spread over the plan area of every active, non-prescribed cell, per unit plan
-    /// area: recharge (m/s) for groundwater, W/m² for heat.
+    /// A source spread over the plan area of every active cell, per unit plan area: recharge (m/s) for groundwater, W/m² for heat.
     ///
     /// # Errors
     ///
@@ -489,7 +489,7 @@ impl Model {
         Ok(self.push(label, Target::Everywhere, Spec::ArealSource(rate)))
     }
 
-    /// A source spread over the volume of every active, non-prescribed cell, per unit volume:
+    /// A source spread over the volume of every active cell, per unit volume:
     /// heat generation (W/m³), or a volumetric water source (1/s).
     ///
     /// # Errors

@@ -408,16 +408,14 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
     /// ```
     pub fn budget(&self) -> Option<Budget> {
         let new = (&self.x[..], &self.book.levels[..]);
-        let mut lines = match self.last {
+        let uptake = |k: usize| self.capacity_dt[k] * (self.x[k] - self.x_start[k]);
+        let previous = match self.last {
             LastStep::None => return None,
-            LastStep::Implicit => self.book.lines(new, None),
-            LastStep::Trapezoid => self
-                .book
-                .lines(new, Some((&self.x_start, &self.levels_start, 0.5))),
-            LastStep::HalfSteps => self
-                .book
-                .lines(new, Some((&self.x_mid, &self.levels_mid, 0.5))),
+            LastStep::Implicit => None,
+            LastStep::Trapezoid => Some((&self.x_start[..], &self.levels_start[..], 0.5)),
+            LastStep::HalfSteps => Some((&self.x_mid[..], &self.levels_mid[..], 0.5)),
         };
+        let mut lines = self.book.lines(new, previous, Some(&uptake));
         let (mut inflow, mut outflow) = (0.0, 0.0);
         for ((c, x1), x0) in self.capacity_dt.iter().zip(&self.x).zip(&self.x_start) {
             let release = -c * (x1 - x0);
