@@ -222,7 +222,7 @@ pub enum Error {
     },
 
     /// A condition handle does not belong to the model it was used with.
-    #[error("condition {id} does not exist in this model ({count} conditions)")]
+    #[error("condition handle {id} does not belong to this model (it has {count} conditions); handles work only with the model that issued them")]
     UnknownCondition {
         /// The handle's number.
         id: usize,

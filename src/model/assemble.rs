@@ -115,7 +115,7 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
     });
 
     // Conditions into slots.
-    let mut book = Book::new(grid);
+    let mut book = Book::new(model.tag, grid);
     let mut anchored = vec![false; n];
     for (c, cond) in model.conditions.iter().enumerate() {
         let label = cond.label.as_str();

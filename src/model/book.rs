@@ -45,6 +45,7 @@ pub(crate) struct Link {
 /// All terms, with their slots in flat arrays.
 #[derive(Clone, Debug, PartialEq)]
 pub(crate) struct Book {
+    pub(crate) model: u64,
     pub(crate) grid: Grid,
     pub(crate) terms: Vec<Term>,
     pub(crate) cells: Vec<usize>,
@@ -56,8 +57,9 @@ pub(crate) struct Book {
 }
 
 impl Book {
-    pub(crate) fn new(grid: Grid) -> Book {
+    pub(crate) fn new(model: u64, grid: Grid) -> Book {
         Book {
+            model,
             grid,
             terms: Vec::new(),
             cells: Vec::new(),
@@ -342,13 +344,17 @@ impl Forcing<'_> {
     }
 
     fn slots(&self, id: ConditionId) -> Result<Range<usize>, Error> {
+        let unknown = Error::UnknownCondition {
+            id: id.index,
+            count: self.book.terms.len(),
+        };
+        if id.model != self.book.model {
+            return Err(unknown);
+        }
         self.book
             .terms
-            .get(id.0)
+            .get(id.index)
             .map(|t| t.slots.clone())
-            .ok_or(Error::UnknownCondition {
-                id: id.0,
-                count: self.book.terms.len(),
-            })
+            .ok_or(unknown)
     }
 }

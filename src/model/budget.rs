@@ -198,7 +198,7 @@ impl Budget {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn line(&self, id: ConditionId) -> Option<&BudgetLine> {
-        self.lines.get(id.0)
+        self.lines.get(id.index)
     }
 
     /// Inflow and outflow summed by kind, in the order of [`FlowKind`] (kinds with no

@@ -1,5 +1,7 @@
 //! [`Model`]: geometry, medium and conditions, collected before assembly.
 
+use std::sync::atomic::{AtomicU64, Ordering};
+
 use super::assemble;
 use super::field::{Field, Profile};
 use super::geometry::Geometry;
@@ -18,8 +20,17 @@ use crate::{Error, Grid, Side};
 /// assert_eq!(model.label(heater), Some("heater"));
 /// # Ok::<(), quintet::Error>(())
 /// ```
+///
+/// A handle remembers the model it came from (a clone of a model shares its handles); using
+/// it with another model's system is [`Error::UnknownCondition`].
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
-pub struct ConditionId(pub(crate) usize);
+pub struct ConditionId {
+    pub(crate) model: u64,
+    pub(crate) index: usize,
+}
+
+/// Source of model tags, so that handles from one model are refused by another.
+static NEXT_MODEL_TAG: AtomicU64 = AtomicU64::new(1);
 
 impl ConditionId {
     /// The position of the condition in the order it was added (0 for the first).
@@ -32,7 +43,7 @@ impl ConditionId {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn index(self) -> usize {
-        self.0
+        self.index
     }
 }
 
@@ -122,6 +133,7 @@ pub(crate) struct Condition {
 /// ```
 #[derive(Clone, Debug, PartialEq)]
 pub struct Model {
+    pub(crate) tag: u64,
     pub(crate) geometry: Geometry,
     pub(crate) conductivity: Conductivity,
     pub(crate) active: Vec<bool>,
@@ -149,6 +161,7 @@ impl Model {
     pub fn new(geometry: Geometry, conductivity: Conductivity) -> Result<Model, Error> {
         conductivity.check_len(geometry.grid())?;
         Ok(Model {
+            tag: NEXT_MODEL_TAG.fetch_add(1, Ordering::Relaxed),
             active: vec![true; geometry.grid().cells()],
             geometry,
             conductivity,
@@ -290,7 +303,10 @@ impl Model {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn label(&self, id: ConditionId) -> Option<&str> {
-        self.conditions.get(id.0).map(|c| c.label.as_str())
+        if id.model != self.tag {
+            return None;
+        }
+        self.conditions.get(id.index).map(|c| c.label.as_str())
     }
 
     /// Hold the listed cells at prescribed values (fixed head or temperature at the cells'
@@ -540,7 +556,10 @@ impl Model {
             target,
             spec,
         });
-        ConditionId(self.conditions.len() - 1)
+        ConditionId {
+            model: self.tag,
+            index: self.conditions.len() - 1,
+        }
     }
 
     fn checked_cells(&self, cells: impl IntoIterator<Item = usize>) -> Result<Vec<usize>, Error> {
