@@ -8,10 +8,12 @@
 //! conductivities over the node spacing (Patankar 1980, *Numerical Heat Transfer and Fluid
 //! Flow*, §4.2).
 
+use super::axis::AxisLayout;
 use super::book::{Action, Book};
 use super::budget::FlowKind;
-use super::builder::{Model, Spec, Target};
-use super::geometry::{AxisLayout, Geometry};
+use super::builder::Model;
+use super::conditions::{Spec, Target};
+use super::geometry::Geometry;
 use super::medium::ConductivityBasis;
 use crate::{Error, Grid, Side};
 

@@ -82,20 +82,23 @@
 //! ```
 
 mod assemble;
+mod axis;
 mod book;
 mod budget;
 mod builder;
+mod conditions;
 mod field;
 mod geometry;
 mod medium;
 mod steady;
 mod transient;
 
+pub use axis::{Axis, AxisLayout};
 pub use book::Forcing;
 pub use budget::{Budget, BudgetLine, BudgetTable, BudgetWarning, FlowKind};
 pub use builder::{ConditionId, Model, SingularPolicy};
 pub use field::{Field, Profile};
-pub use geometry::{Axis, AxisLayout, Geometry};
+pub use geometry::Geometry;
 pub use medium::{Conductivity, ConductivityBasis, Storage};
 pub use steady::SteadySystem;
 pub use transient::{Stepper, TimeScheme, DEFAULT_DAMPED_STEPS};

@@ -13,16 +13,15 @@
 //! `(2S/Δt + A)·φ = 2S/Δt·φᵐ + b`, is the same operator as Crank–Nicolson's times two, so the
 //! damped start below costs nothing extra.
 
+mod state;
+mod step;
+
 use super::assemble;
 use super::book::{Book, Forcing};
-use super::budget::{Budget, BudgetLine, FlowKind};
 use super::builder::Model;
 use crate::kernels::Kernels;
 use crate::stencil::check_len;
-use crate::{
-    Banded5, Coeffs5, Error, FixedCells, Grid, IterativeSolver, Jacobi, Pcg, Report, Stencil5,
-    Workspace,
-};
+use crate::{Banded5, Error, FixedCells, IterativeSolver, Jacobi, Pcg, Report, Workspace};
 
 /// Crank–Nicolson steps replaced by damped steps unless the caller says otherwise.
 pub const DEFAULT_DAMPED_STEPS: usize = 2;
@@ -57,34 +56,9 @@ impl TimeScheme {
     }
 }
 
-/// The conduction operator `A`, seen through the step operator `S/Δt + θ·A`: the couplings
-/// divided by θ (exact for θ = ½ and 1) and the stored center of `A`.
-struct Conduction<'a> {
-    step: &'a Banded5<f64>,
-    center: &'a [f64],
-    inv_theta: f64,
-}
-
-impl Stencil5<f64> for Conduction<'_> {
-    fn grid(&self) -> Grid {
-        self.step.grid()
-    }
-    fn coeffs(&self, i: usize, j: usize) -> Coeffs5<f64> {
-        let k = self.step.grid().index(i, j);
-        let c = self.step.coeffs(i, j);
-        Coeffs5 {
-            center: self.center[k],
-            west: c.west * self.inv_theta,
-            east: c.east * self.inv_theta,
-            south: c.south * self.inv_theta,
-            north: c.north * self.inv_theta,
-        }
-    }
-}
-
 /// How the last step's boundary flows are weighted in its budget.
 #[derive(Clone, Copy, Debug, PartialEq)]
-enum LastStep {
+pub(crate) enum LastStep {
     None,
     /// Flows at the end of the step only.
     Implicit,
@@ -106,12 +80,13 @@ enum LastStep {
 /// # Example
 ///
 /// ```
-/// use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
+/// use quintet::model::{Axis, Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
 /// use quintet::Side;
 ///
 /// // A concrete slab 0.2 m thick (k = 1.4 W/(m·K), ρc = 2.0e6 J/(m³·K)) at 10 °C; at t = 0
-/// // its west face is brought to 60 °C, its east face stays insulated.
-/// let geometry = Geometry::node_centered(41, 1, 0.005, 1.0, 1.0)?;
+/// // its west face is brought to 60 °C, its east face stays insulated. One square metre of
+/// // face: 41 nodes across the slab, one cell of 1 m along it, 1 m deep.
+/// let geometry = Geometry::new(Axis::uniform_nodes(41, 0.005)?, Axis::uniform_cells(1, 1.0)?, 1.0)?;
 /// let mut model = Model::new(geometry, Conductivity::isotropic(1.4))?;
 /// model.set_storage(Storage::per_volume(2.0e6))?;
 /// model.prescribe_edge("heated face", Side::West, 60.0)?;
@@ -389,221 +364,6 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
         self.book.fill_rhs(&mut self.b_prev);
         Ok(())
     }
-
-    /// The budget of the last step: boundary and source flows averaged over the step as the
-    /// scheme weights them, and storage release (entering) or uptake (leaving), W or m³/s.
-    /// `None` before the first step.
-    ///
-    /// ```
-    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
-    /// # let mut model = Model::new(Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
-    /// # model.set_storage(Storage::per_area(1.0))?;
-    /// model.point_source("heater", 5, 1.0)?;
-    /// let mut run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 1.0, 0.0, &[0.0; 16])?;
-    /// assert!(run.budget().is_none());
-    /// run.step()?;
-    /// let budget = run.budget().expect("one step taken");
-    /// assert!((budget.total_out - 1.0).abs() < 1e-6); // all the heat went into storage
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    pub fn budget(&self) -> Option<Budget> {
-        let new = (&self.x[..], &self.book.levels[..]);
-        let uptake = |k: usize| self.capacity_dt[k] * (self.x[k] - self.x_start[k]);
-        let previous = match self.last {
-            LastStep::None => return None,
-            LastStep::Implicit => None,
-            LastStep::Trapezoid => Some((&self.x_start[..], &self.levels_start[..], 0.5)),
-            LastStep::HalfSteps => Some((&self.x_mid[..], &self.levels_mid[..], 0.5)),
-        };
-        let mut lines = self.book.lines(new, previous, Some(&uptake));
-        let (mut inflow, mut outflow) = (0.0, 0.0);
-        for ((c, x1), x0) in self.capacity_dt.iter().zip(&self.x).zip(&self.x_start) {
-            let release = -c * (x1 - x0);
-            if release >= 0.0 {
-                inflow += release;
-            } else {
-                outflow -= release;
-            }
-        }
-        lines.push(BudgetLine {
-            label: "storage".to_string(),
-            kind: FlowKind::Storage,
-            inflow,
-            outflow,
-        });
-        Some(Budget::from_lines(lines))
-    }
-
-    /// The current solution (at [`time`](Stepper::time)).
-    ///
-    /// ```
-    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
-    /// # let mut model = Model::new(Geometry::cell_centered(4, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
-    /// # model.set_storage(Storage::per_area(1.0))?;
-    /// let run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 1.0, 0.0, &[3.0; 4])?;
-    /// assert_eq!(run.solution(), &[3.0; 4]);
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    pub fn solution(&self) -> &[f64] {
-        &self.x
-    }
-
-    /// The current time (s).
-    ///
-    /// ```
-    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
-    /// # let mut model = Model::new(Geometry::cell_centered(4, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
-    /// # model.set_storage(Storage::per_area(1.0))?;
-    /// let run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 1.0, 100.0, &[0.0; 4])?;
-    /// assert_eq!(run.time(), 100.0);
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    pub fn time(&self) -> f64 {
-        self.time
-    }
-
-    /// Steps taken.
-    ///
-    /// ```
-    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
-    /// # let mut model = Model::new(Geometry::cell_centered(4, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
-    /// # model.set_storage(Storage::per_area(1.0))?;
-    /// let run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 1.0, 0.0, &[0.0; 4])?;
-    /// assert_eq!(run.steps(), 0);
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    pub fn steps(&self) -> usize {
-        self.steps
-    }
-
-    /// The time step (s).
-    ///
-    /// ```
-    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
-    /// # let mut model = Model::new(Geometry::cell_centered(4, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
-    /// # model.set_storage(Storage::per_area(1.0))?;
-    /// let run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 2.5, 0.0, &[0.0; 4])?;
-    /// assert_eq!(run.time_step(), 2.5);
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    pub fn time_step(&self) -> f64 {
-        self.dt
-    }
-
-    /// The step operator `S/Δt + θ·A`, with its fixed cells.
-    ///
-    /// ```
-    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
-    /// # let mut model = Model::new(Geometry::cell_centered(4, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
-    /// # model.set_storage(Storage::per_area(1.0))?;
-    /// let run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 2.0, 0.0, &[0.0; 4])?;
-    /// assert_eq!(run.operator().center()[0], 0.5 + 1.0); // S/Δt + conductance to the one neighbour
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    pub fn operator(&self) -> &Banded5<f64> {
-        &self.step_op
-    }
-
-    /// The driver, for example to change its options between steps.
-    ///
-    /// ```
-    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
-    /// # use quintet::SolveOptions;
-    /// # let mut model = Model::new(Geometry::cell_centered(4, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
-    /// # model.set_storage(Storage::per_area(1.0))?;
-    /// let mut run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 1.0, 0.0, &[0.0; 4])?;
-    /// run.solver_mut().options = SolveOptions::default().tolerance(1e-12);
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    pub fn solver_mut(&mut self) -> &mut S {
-        &mut self.solver
-    }
-
-    /// One step from `x_start`; returns the report of the last solve.
-    fn advance(
-        &mut self,
-        forcing: &mut dyn FnMut(f64, &mut Forcing<'_>) -> Result<(), Error>,
-    ) -> Result<(Report, LastStep), Error> {
-        let (t0, dt) = (self.time, self.dt);
-        match self.scheme {
-            TimeScheme::BackwardEuler => {
-                self.set_levels(forcing, t0 + dt)?;
-                self.rhs.fill(0.0);
-                self.add_storage_term(false);
-                add_scaled(&mut self.rhs, 1.0, &self.b_new);
-                Ok((self.solve()?, LastStep::Implicit))
-            }
-            TimeScheme::CrankNicolson if self.steps < self.damped_steps => {
-                // Two backward-Euler half steps: (S/Δt + A/2)·φ = S/Δt·φᵐ + b/2.
-                self.set_levels(forcing, t0 + 0.5 * dt)?;
-                self.rhs.fill(0.0);
-                self.add_storage_term(false);
-                add_scaled(&mut self.rhs, 0.5, &self.b_new);
-                self.solve()?;
-                self.x_mid.copy_from_slice(&self.x);
-                self.levels_mid.copy_from_slice(&self.book.levels);
-                self.set_levels(forcing, t0 + dt)?;
-                self.rhs.fill(0.0);
-                self.add_storage_term(true);
-                add_scaled(&mut self.rhs, 0.5, &self.b_new);
-                Ok((self.solve()?, LastStep::HalfSteps))
-            }
-            TimeScheme::CrankNicolson => {
-                // rhs = S/Δt·φⁿ − A·φⁿ/2 + (bⁿ + bⁿ⁺¹)/2, with A·φⁿ taken before the
-                // prescribed cells move to their new values.
-                let conduction = Conduction {
-                    step: &self.step_op,
-                    center: &self.a_center,
-                    inv_theta: 2.0,
-                };
-                self.kernels.apply(&conduction, &self.x, &mut self.rhs);
-                self.rhs.iter_mut().for_each(|v| *v *= -0.5);
-                self.add_storage_term(false);
-                add_scaled(&mut self.rhs, 0.5, &self.b_prev);
-                self.set_levels(forcing, t0 + dt)?;
-                add_scaled(&mut self.rhs, 0.5, &self.b_new);
-                Ok((self.solve()?, LastStep::Trapezoid))
-            }
-        }
-    }
-
-    /// Levels at time `t` from the forcing; prescribed cells take them, `b_new` is rebuilt.
-    fn set_levels(
-        &mut self,
-        forcing: &mut dyn FnMut(f64, &mut Forcing<'_>) -> Result<(), Error>,
-        t: f64,
-    ) -> Result<(), Error> {
-        forcing(
-            t,
-            &mut Forcing {
-                book: &mut self.book,
-            },
-        )?;
-        self.write_fixed();
-        self.book.fill_rhs(&mut self.b_new);
-        Ok(())
-    }
-
-    /// `rhs += S/Δt · φ`, with φ the solution at the start of the step, or (`from_mid`) after
-    /// the first half step.
-    fn add_storage_term(&mut self, from_mid: bool) {
-        let base = if from_mid { &self.x_mid } else { &self.x_start };
-        for ((r, c), x) in self.rhs.iter_mut().zip(&self.capacity_dt).zip(base) {
-            *r += c * x;
-        }
-    }
-
-    fn solve(&mut self) -> Result<Report, Error> {
-        self.solver
-            .solve_with(&self.step_op, &self.rhs, &mut self.x, &mut self.ws)
-    }
-
-    fn write_fixed(&mut self) {
-        self.book.write_fixed(&mut self.x);
-        for &k in &self.inactive {
-            self.x[k] = self.inactive_value;
-        }
-    }
 }
 
 impl Stepper<Pcg<Jacobi<f64>>> {
@@ -632,12 +392,5 @@ impl Stepper<Pcg<Jacobi<f64>>> {
         Stepper::new(model, scheme, dt, start_time, initial, |op| {
             Ok(Pcg::new(Jacobi::new(op)?))
         })
-    }
-}
-
-/// `y += a·x`.
-fn add_scaled(y: &mut [f64], a: f64, x: &[f64]) {
-    for (yi, xi) in y.iter_mut().zip(x) {
-        *yi += a * xi;
     }
 }
