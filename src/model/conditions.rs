@@ -152,7 +152,9 @@ impl Model {
     /// Exchange between the listed cells and an outside value: the flow into each cell is
     /// `C·(φ_outside − φ_cell)` with `C` a conductance per cell — W/K for heat (a cooling
     /// channel), m²/s for a river, drain or leaky layer in the cell. The cells must be active
-    /// and not prescribed.
+    /// and not prescribed. The exchange is linear and works both ways: a drain that only
+    /// removes water while the head is above its level, or a river that disconnects from a
+    /// deep water table, is not modelled — check the signs of the budget line.
     ///
     /// # Errors
     ///
@@ -188,6 +190,12 @@ impl Model {
     /// A point source in cell `k`: W for heat (a heater; negative for a cooler), m³/s for
     /// groundwater (an injection well; negative for a pumping well). The cell must be active
     /// and not prescribed.
+    ///
+    /// The value computed in the source's own cell is a cell average and depends on the cell
+    /// size (the exact solution is logarithmically singular at a point): it is not the head in
+    /// a pumping well nor the temperature of a heater. Estimate those with a well-radius
+    /// correction, or spread the source over its real footprint with an areal or volumetric
+    /// source.
     ///
     /// # Errors
     ///

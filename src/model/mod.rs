@@ -67,7 +67,7 @@
 //! model.edge_exchange("river", Side::West, 1e-6, 40.0)?;
 //! model.prescribe_edge("downstream", Side::East, 38.0)?;
 //! model.areal_source("recharge", 4e-9)?;
-//! let well = model.geometry().cell_at(1200.0, 500.0).ok_or(Error::CellOutOfRange { cell: 0, cells: 0 })?;
+//! let well = model.geometry().cell_at(1200.0, 500.0).expect("inside the model");
 //! model.point_source("well", well, -5e-3)?;
 //!
 //! let system = model.assemble()?;
