@@ -23,7 +23,12 @@ use crate::kernels::Kernels;
 use crate::stencil::check_len;
 use crate::{Banded5, Error, FixedCells, IterativeSolver, Jacobi, Pcg, Report, Workspace};
 
-/// Crank–Nicolson steps replaced by damped steps unless the caller says otherwise.
+/// Crank–Nicolson steps replaced by damped steps (two backward-Euler half steps each) unless
+/// the caller says otherwise with [`Stepper::damped_start`].
+///
+/// ```
+/// assert_eq!(quintet::model::DEFAULT_DAMPED_STEPS, 2);
+/// ```
 pub const DEFAULT_DAMPED_STEPS: usize = 2;
 
 /// The time discretisation.
