@@ -10,7 +10,7 @@
 //! the bits of the result.
 //!
 //! **The reduction seam.** Every global reduction (sum of a dot product, maximum of a change)
-//! ends in [`Kernels::finish`], the one place a distributed backend would turn rank-local
+//! ends in one private function, `Kernels::finish`, the one place a distributed backend would turn rank-local
 //! partials into global values (an all-reduce). Neighbour access goes through
 //! [`Stencil5::apply_rows`], behind which a halo exchange can hide.
 //!

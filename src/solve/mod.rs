@@ -4,7 +4,7 @@
 //!
 //! Every driver solves in place from the caller's `x` (a warm start), leaves fixed cells
 //! untouched, reuses a caller-owned [`Workspace`], and reports through the shared
-//! [`Monitor`](crate::Monitor).
+//! [`crate::Monitor`].
 
 mod cg;
 mod relaxation;
