@@ -175,24 +175,26 @@ impl Axis {
         self.widths.len()
     }
 
-    /// Control-volume width of node `i` (m).
+    /// Control-volume width of node `i` (m); NaN past the end of the axis.
     ///
     /// ```
-    /// assert_eq!(quintet::model::Axis::cells(vec![3.0, 4.0])?.width(1), 4.0);
+    /// let axis = quintet::model::Axis::cells(vec![3.0, 4.0])?;
+    /// assert_eq!(axis.width(1), 4.0);
+    /// assert!(axis.width(2).is_nan());
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn width(&self, i: usize) -> f64 {
-        self.widths[i]
+        self.widths.get(i).copied().unwrap_or(f64::NAN)
     }
 
-    /// Position of node `i` (m from the low edge).
+    /// Position of node `i` (m from the low edge); NaN past the end of the axis.
     ///
     /// ```
     /// assert_eq!(quintet::model::Axis::cells(vec![3.0, 4.0])?.position(1), 5.0);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn position(&self, i: usize) -> f64 {
-        self.positions[i]
+        self.positions.get(i).copied().unwrap_or(f64::NAN)
     }
 
     /// All node positions (m), low edge first.
@@ -206,25 +208,25 @@ impl Axis {
     }
 
     /// Distance from node `i` to the low face of its control volume (m); 0 for the first node
-    /// of a node-centred axis.
+    /// of a node-centred axis, NaN past the end of the axis.
     ///
     /// ```
     /// assert_eq!(quintet::model::Axis::uniform_cells(2, 4.0)?.to_low_face(0), 2.0);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn to_low_face(&self, i: usize) -> f64 {
-        self.to_low[i]
+        self.to_low.get(i).copied().unwrap_or(f64::NAN)
     }
 
     /// Distance from node `i` to the high face of its control volume (m); 0 for the last node
-    /// of a node-centred axis.
+    /// of a node-centred axis, NaN past the end of the axis.
     ///
     /// ```
     /// assert_eq!(quintet::model::Axis::uniform_nodes(2, 4.0)?.to_high_face(1), 0.0);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn to_high_face(&self, i: usize) -> f64 {
-        self.to_high[i]
+        self.to_high.get(i).copied().unwrap_or(f64::NAN)
     }
 
     /// Length of the axis from the low edge to the high edge (m).

@@ -7,7 +7,8 @@ use crate::{Error, Grid, Side};
 /// The geometry of a model: an x axis (east, index `i`), a y axis (north, index `j`) and the
 /// thickness of the layer (m) in every cell, perpendicular to the grid. Flows across a face
 /// pass through `face length × thickness`; volumetric quantities use `plan area × thickness`.
-/// For a plane problem "per metre of depth", give a thickness of 1 m.
+/// For a plane problem "per metre of depth", give a thickness of 1 m. Queries for a cell
+/// index off the grid return NaN.
 ///
 /// # Example
 ///
