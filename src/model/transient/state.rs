@@ -2,7 +2,7 @@
 
 use super::{LastStep, Stepper};
 use crate::model::budget::{Budget, BudgetLine, FlowKind};
-use crate::{Banded5, IterativeSolver};
+use crate::{Banded5, IterativeSolver, Stencil5};
 
 impl<S: IterativeSolver<f64>> Stepper<S> {
     /// The budget of the last step: boundary and source flows averaged over the step as the
@@ -132,5 +132,18 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
     /// ```
     pub fn solver_mut(&mut self) -> &mut S {
         &mut self.solver
+    }
+}
+
+impl<S> std::fmt::Debug for Stepper<S> {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        f.debug_struct("Stepper")
+            .field("scheme", &self.scheme)
+            .field("time_step", &self.dt)
+            .field("time", &self.time)
+            .field("steps", &self.steps)
+            .field("damped_steps", &self.damped_steps)
+            .field("grid", &self.step_op.grid())
+            .finish_non_exhaustive()
     }
 }
