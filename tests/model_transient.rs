@@ -149,8 +149,9 @@ fn plain_crank_nicolson_keeps_the_step_change_oscillation() {
     assert!(plain > 100.0 * damped);
 }
 
-/// A manufactured transient (Roache 1998, as in the steady case): `u(x, t) = (1 + x/L)·sin ωt
-/// + sin(πx/L)·cos ωt` on `0 ≤ x ≤ L`, driven by the source `f = ρc·∂u/∂t − k·∂²u/∂x²`, the
+/// A manufactured transient (Roache 1998, as in the steady case):
+/// `u(x, t) = (1 + x/L)·sin ωt + sin(πx/L)·cos ωt` on `0 ≤ x ≤ L`, driven by the source
+/// `f = ρc·∂u/∂t − k·∂²u/∂x²`, the
 /// prescribed value `u(0, t)` on the west edge and, on the east edge, convection to the
 /// outside value `u_ext = u(L, t) + (k/h)·∂u/∂x(L, t)` — all three changed every step through
 /// the forcing closure. Over one period the time error dominates (the spatial error of the
