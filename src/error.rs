@@ -166,6 +166,110 @@ pub enum Error {
         value: f64,
     },
 
+    /// A grid spacing (cell width or distance between nodes) is zero, negative or not finite.
+    #[error("{what} {index} is {value}; spacings must be positive and finite")]
+    InvalidSpacing {
+        /// Which spacing (`"cell width"` or `"node spacing"`).
+        what: &'static str,
+        /// Its position along the axis (the column or row, or the gap after that node).
+        index: usize,
+        /// The value found.
+        value: f64,
+    },
+
+    /// A per-cell property (conductivity, thickness, storage, exchange coefficient, ...) is
+    /// outside its allowed range at an active cell.
+    #[error("{what} at cell {cell} (i = {i}, j = {j}) is {value}; it must be {allowed}")]
+    InvalidProperty {
+        /// Which property.
+        what: &'static str,
+        /// Cell index `k = i + nx·j`.
+        cell: usize,
+        /// Column.
+        i: usize,
+        /// Row.
+        j: usize,
+        /// The value found.
+        value: f64,
+        /// What is allowed (for example `"finite and >= 0"`).
+        allowed: &'static str,
+    },
+
+    /// A condition names a cell that is inactive (outside the modelled domain).
+    #[error("{what} is placed on cell {cell} (i = {i}, j = {j}), which is inactive")]
+    InactiveCell {
+        /// Which condition (for example `"point source \"well 1\""`).
+        what: String,
+        /// Cell index.
+        cell: usize,
+        /// Column.
+        i: usize,
+        /// Row.
+        j: usize,
+    },
+
+    /// A condition names a cell whose value is prescribed, where it could have no effect.
+    #[error("{what} is placed on cell {cell} (i = {i}, j = {j}), whose value is prescribed; it would have no effect")]
+    PrescribedCellConflict {
+        /// Which condition.
+        what: String,
+        /// Cell index.
+        cell: usize,
+        /// Column.
+        i: usize,
+        /// Row.
+        j: usize,
+    },
+
+    /// A condition handle does not belong to the model it was used with.
+    #[error("condition handle {id} does not belong to this model (it has {count} conditions); handles work only with the model that issued them")]
+    UnknownCondition {
+        /// The handle's number.
+        id: usize,
+        /// Number of conditions in the model.
+        count: usize,
+    },
+
+    /// A connected group of active cells has nothing that sets its level: no prescribed value,
+    /// no exchange with an outside value and (for a transient model) no storage. The steady
+    /// equations then fix its values only up to a constant.
+    #[error("the {cells} connected active cells around cell {cell} (i = {i}, j = {j}) have no prescribed value, no exchange boundary and no storage, so their level is undetermined; add one of these, or ask for the compatible problem with a fixed mean")]
+    FloatingRegion {
+        /// A cell of the region (its lowest index).
+        cell: usize,
+        /// Column.
+        i: usize,
+        /// Row.
+        j: usize,
+        /// Number of cells in the region.
+        cells: usize,
+    },
+
+    /// A region without anything that sets its level has sources that do not balance, so no
+    /// steady state exists.
+    #[error("the region around cell {cell} (i = {i}, j = {j}) has no prescribed value or exchange, and its sources do not balance: net inflow {net_inflow:e} against total source magnitude {total:e}; no steady state exists")]
+    UnbalancedSources {
+        /// A cell of the region (its lowest index).
+        cell: usize,
+        /// Column.
+        i: usize,
+        /// Row.
+        j: usize,
+        /// Sum of all sources and fluxes into the region.
+        net_inflow: f64,
+        /// Sum of their magnitudes.
+        total: f64,
+    },
+
+    /// A flow budget does not close to within the caller's threshold.
+    #[error("the flow budget is off by {discrepancy_percent:e} %, more than the {threshold_percent} % allowed")]
+    BudgetOutOfBalance {
+        /// `100·(in − out)/((in + out)/2)`.
+        discrepancy_percent: f64,
+        /// The threshold the caller set, in percent.
+        threshold_percent: f64,
+    },
+
     /// The solve stopped for a reason that is not convergence (iteration limit, stagnation,
     /// divergence, a non-finite residual, or a custom rule). The last iterate is in `x`.
     #[error("{report}")]

@@ -3,7 +3,8 @@
 //! thread count.
 //!
 //! **Blocks.** Every vector is cut into fixed blocks of whole grid rows (about
-//! [`BLOCK_CELLS`] cells each; the cut depends only on the grid). A kernel runs one block
+//! [`BLOCK_CELLS`] cells, at least [`BLOCK_MIN_ROWS`] rows each; the cut depends only on the
+//! grid). A kernel runs one block
 //! function per block (serially, or on rayon's pool for large grids) and writes one partial
 //! result per block into a buffer owned by [`Kernels`]; the partials are then combined in block
 //! order. Since neither the blocks nor the combining order depend on the threads, neither do
@@ -26,7 +27,11 @@ use crate::stencil::Stencil5;
 use crate::{FixedCells, Grid, Scalar};
 
 /// Target number of cells per reduction block.
-pub const BLOCK_CELLS: usize = 4096;
+pub const BLOCK_CELLS: usize = 16384;
+
+/// Fewest grid rows per block (unless the grid has fewer): a block's product reads one row of
+/// `x` beyond each of its ends, so short blocks would read `x` more than once.
+pub const BLOCK_MIN_ROWS: usize = 8;
 
 /// Grids with fewer cells than this run their kernels serially (same bits either way).
 pub const PARALLEL_MIN_CELLS: usize = 1 << 15;
@@ -64,7 +69,7 @@ impl<T: Scalar> Kernels<T> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn new(grid: Grid) -> Kernels<T> {
-        let rows_per_block = (BLOCK_CELLS / grid.nx()).clamp(1, grid.ny());
+        let rows_per_block = (BLOCK_CELLS / grid.nx()).max(BLOCK_MIN_ROWS).min(grid.ny());
         let block_cells = rows_per_block * grid.nx();
         let blocks = grid.ny().div_ceil(rows_per_block);
         Kernels {
@@ -108,7 +113,7 @@ impl<T: Scalar> Kernels<T> {
     ///
     /// ```
     /// let kernels = quintet::kernels::Kernels::<f64>::new(quintet::Grid::new(1000, 1000)?);
-    /// assert_eq!(kernels.blocks(), 250); // 4 rows of 1000 cells per block
+    /// assert_eq!(kernels.blocks(), 63); // 16 rows of 1000 cells per block
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn blocks(&self) -> usize {

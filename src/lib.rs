@@ -80,6 +80,15 @@
 //!   [`kernels::PARALLEL_MIN_CELLS`] cells. Set the thread count with `RAYON_NUM_THREADS` or a
 //!   rayon pool; results do not depend on it.
 //!
+//! ## Models
+//!
+//! [`model`] turns a conduction or confined groundwater model into a system for these drivers:
+//! geometry (uniform or variable spacing, cell- or node-centred), per-cell conductivity
+//! (isotropic or anisotropic, harmonic-mean face conductances), inactive cells, prescribed
+//! values, fluxes, exchange boundaries, wells and distributed sources, in SI units. It checks
+//! for singular (floating) problems, reports a flow budget with its percent discrepancy, and
+//! steps transient models by backward Euler or Crank–Nicolson.
+//!
 //! ## Caution
 //!
 //! Results support, and do not replace, engineering judgement. Check every model against field
@@ -92,6 +101,7 @@
 mod error;
 mod grid;
 pub mod kernels;
+pub mod model;
 mod monitor;
 pub mod precond;
 pub mod solve;

@@ -89,9 +89,11 @@ fn closure_and_banded_operators_give_identical_bits() {
 
 #[test]
 fn threads_do_not_change_the_bits() {
-    // Large enough for the threaded path (at least kernels::PARALLEL_MIN_CELLS cells).
-    let p = random_sdd(230, 160, 9, 0.05, false);
+    // Large enough for the threaded path (at least kernels::PARALLEL_MIN_CELLS cells) and for
+    // several reduction blocks.
+    let p = random_sdd(400, 300, 9, 0.05, false);
     assert!(p.grid.cells() >= quintet::kernels::PARALLEL_MIN_CELLS);
+    assert!(quintet::kernels::Kernels::<f64>::new(p.grid).blocks() >= 6);
     let op = p.banded();
     let serial = run_all(&op, &p.rhs, &p.x0, false);
     for threads in [1, 2, 4] {

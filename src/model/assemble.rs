@@ -1,0 +1,393 @@
+//! Assembly: face conductances by half-cells in series (the harmonic mean), the operator's
+//! five bands, the fixed cells, and every condition resolved into budget slots.
+//!
+//! The conductance between neighbouring nodes `P` and `N` is `1/(R_P + R_N)`, with each
+//! half-cell resistance `R = d / (k·b·L)`: `d` the distance from the node to the shared face,
+//! `k` the cell's conductivity across that face, `b` its thickness (1 for depth-integrated
+//! values) and `L` the face length. On a uniform grid this is the harmonic mean of the two
+//! conductivities over the node spacing (Patankar 1980, *Numerical Heat Transfer and Fluid
+//! Flow*, §4.2).
+
+use super::axis::AxisLayout;
+use super::book::{Action, Book};
+use super::budget::FlowKind;
+use super::builder::Model;
+use super::conditions::{Spec, Target};
+use super::geometry::Geometry;
+use super::medium::ConductivityBasis;
+use crate::{Error, Grid, Side};
+
+/// A connected group of free cells with nothing that sets its level.
+#[derive(Clone, Debug, PartialEq)]
+pub(crate) struct Region {
+    /// Cells in increasing order.
+    pub(crate) cells: Vec<usize>,
+}
+
+/// Everything a steady system or a stepper is built from.
+#[derive(Clone, Debug)]
+pub(crate) struct Assembly {
+    pub(crate) grid: Grid,
+    /// Center, west, east, south, north of the conduction operator (no storage).
+    pub(crate) bands: [Vec<f64>; 5],
+    /// Prescribed and inactive cells.
+    pub(crate) fixed: Vec<usize>,
+    pub(crate) book: Book,
+    pub(crate) inactive: Vec<usize>,
+    pub(crate) inactive_value: f64,
+    /// Storage capacity per cell (J/K or m²; zero at inactive cells), for transient runs.
+    pub(crate) capacity: Vec<f64>,
+    pub(crate) floating: Vec<Region>,
+    pub(crate) volumes: Vec<f64>,
+}
+
+/// Assemble `model`; with `transient`, storage is required and anchors regions.
+pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error> {
+    let g = &model.geometry;
+    let grid = g.grid();
+    let n = grid.cells();
+    check_medium(model, transient)?;
+
+    // Prescribed values held at nodes: the last condition to reach a cell owns it.
+    let mut owner: Vec<Option<(usize, usize)>> = vec![None; n];
+    for (c, cond) in model.conditions.iter().enumerate() {
+        if !matches!(cond.spec, Spec::Value(_)) {
+            continue;
+        }
+        match &cond.target {
+            Target::Cells(cells) => {
+                for (t, &k) in cells.iter().enumerate() {
+                    if !model.active[k] {
+                        return Err(inactive(
+                            grid,
+                            format!("prescribed value {:?}", cond.label),
+                            k,
+                        ));
+                    }
+                    owner[k] = Some((c, t));
+                }
+            }
+            Target::Edge(side) if g.layout_across(*side) == AxisLayout::NodeCentered => {
+                for (t, k) in g.edge(*side).into_iter().enumerate() {
+                    if model.active[k] {
+                        owner[k] = Some((c, t));
+                    }
+                }
+            }
+            _ => {}
+        }
+    }
+    let fixed_mask: Vec<bool> = (0..n)
+        .map(|k| owner[k].is_some() || !model.active[k])
+        .collect();
+
+    // Face conductances towards the east and north neighbours.
+    let mut east_c = vec![0.0; n];
+    let mut north_c = vec![0.0; n];
+    for k in 0..n {
+        for (side, store) in [(Side::East, &mut east_c), (Side::North, &mut north_c)] {
+            if let Some(nb) = grid.neighbour(k, side) {
+                if model.active[k] && model.active[nb] {
+                    let r = resistance(model, k, side) + resistance(model, nb, side.opposite());
+                    store[k] = if r > 0.0 { 1.0 / r } else { 0.0 };
+                }
+            }
+        }
+    }
+    let face = |k: usize, side: Side| -> f64 {
+        match (side, grid.neighbour(k, side)) {
+            (_, None) => 0.0,
+            (Side::East, Some(_)) => east_c[k],
+            (Side::North, Some(_)) => north_c[k],
+            (Side::West, Some(nb)) => east_c[nb],
+            (Side::South, Some(nb)) => north_c[nb],
+        }
+    };
+
+    // Center, then west, east, south, north; inactive cells are identity rows.
+    let mut bands: [Vec<f64>; 5] = std::array::from_fn(|b| {
+        (0..n)
+            .map(|k| match (model.active[k], b) {
+                (false, 0) => 1.0,
+                (false, _) => 0.0,
+                (true, 0) => Side::ALL.into_iter().map(|side| face(k, side)).sum(),
+                (true, b) => -face(k, Side::ALL[b - 1]),
+            })
+            .collect()
+    });
+
+    // Conditions into slots.
+    let mut book = Book::new(model.tag, grid);
+    let mut anchored = vec![false; n];
+    for (c, cond) in model.conditions.iter().enumerate() {
+        let label = cond.label.as_str();
+        let by_name = |what: &str, k: usize| -> Result<(), Error> {
+            let what = format!("{what} {label:?}");
+            if !model.active[k] {
+                Err(inactive(grid, what, k))
+            } else if fixed_mask[k] {
+                let (i, j) = grid.coords(k);
+                Err(Error::PrescribedCellConflict {
+                    what,
+                    cell: k,
+                    i,
+                    j,
+                })
+            } else {
+                Ok(())
+            }
+        };
+        match (&cond.spec, &cond.target) {
+            (Spec::Value(values), Target::Edge(side))
+                if g.layout_across(*side) == AxisLayout::CellCentered =>
+            {
+                book.open(label, FlowKind::PrescribedValue, Action::Conductance);
+                for (t, k) in g.edge(*side).into_iter().enumerate() {
+                    if model.active[k] {
+                        let w = 1.0 / resistance(model, k, *side);
+                        book.push(k, w, values.at(t));
+                        bands[0][k] += w;
+                        anchored[k] |= w > 0.0;
+                    }
+                }
+            }
+            (Spec::Value(values), target) => {
+                book.open(label, FlowKind::PrescribedValue, Action::Fixed);
+                let cells = match target {
+                    Target::Cells(cells) => cells.clone(),
+                    Target::Edge(side) => g.edge(*side),
+                    Target::Everywhere => Vec::new(),
+                };
+                for (t, k) in cells.into_iter().enumerate() {
+                    if owner[k] != Some((c, t)) {
+                        continue;
+                    }
+                    book.push(k, 0.0, values.at(t));
+                    for side in Side::ALL {
+                        let cf = face(k, side);
+                        if let (Some(nb), true) = (grid.neighbour(k, side), cf > 0.0) {
+                            book.link(nb, cf);
+                            anchored[nb] = true;
+                        }
+                    }
+                }
+            }
+            (Spec::Flux(flux), Target::Edge(side)) => {
+                book.open(label, FlowKind::PrescribedFlux, Action::Source);
+                for (t, k) in g.edge(*side).into_iter().enumerate() {
+                    if model.active[k] {
+                        book.push(k, g.face_area(k, *side), flux.at(t));
+                    }
+                }
+            }
+            (
+                Spec::Exchange {
+                    coefficient,
+                    external,
+                },
+                target,
+            ) => {
+                book.open(label, FlowKind::Exchange, Action::Conductance);
+                let slots: Vec<(usize, f64)> = match target {
+                    Target::Edge(side) => g
+                        .edge(*side)
+                        .into_iter()
+                        .enumerate()
+                        .filter(|&(_, k)| model.active[k])
+                        .map(|(t, k)| {
+                            let film = coefficient.at(t) * g.face_area(k, *side);
+                            let r = resistance(model, k, *side);
+                            let w = if film > 0.0 {
+                                1.0 / (1.0 / film + r)
+                            } else {
+                                0.0
+                            };
+                            (t, w)
+                        })
+                        .collect(),
+                    Target::Cells(cells) => {
+                        for &k in cells {
+                            by_name("exchange", k)?;
+                        }
+                        (0..cells.len()).map(|t| (t, coefficient.at(t))).collect()
+                    }
+                    Target::Everywhere => Vec::new(),
+                };
+                let cells: Vec<usize> = match target {
+                    Target::Edge(side) => g.edge(*side),
+                    Target::Cells(cells) => cells.clone(),
+                    Target::Everywhere => Vec::new(),
+                };
+                for (t, w) in slots {
+                    let k = cells[t];
+                    book.push(k, w, external.at(t));
+                    bands[0][k] += w;
+                    anchored[k] |= w > 0.0;
+                }
+            }
+            (Spec::PointSource(rate), Target::Cells(cells)) => {
+                book.open(label, FlowKind::PointSource, Action::Source);
+                for &k in cells {
+                    by_name("point source", k)?;
+                    book.push(k, 1.0, *rate);
+                }
+            }
+            (Spec::ArealSource(rate), _) | (Spec::VolumetricSource(rate), _) => {
+                let areal = matches!(cond.spec, Spec::ArealSource(_));
+                let kind = if areal {
+                    FlowKind::ArealSource
+                } else {
+                    FlowKind::VolumetricSource
+                };
+                book.open(label, kind, Action::Source);
+                for k in (0..n).filter(|&k| model.active[k]) {
+                    let w = if areal { g.plan_area(k) } else { g.volume(k) };
+                    book.push(k, w, rate.at(k));
+                }
+            }
+            // The builder pairs fluxes with edges and point sources with cells only.
+            (Spec::Flux(_), _) | (Spec::PointSource(_), _) => {
+                book.open(label, FlowKind::PrescribedFlux, Action::Source);
+            }
+        }
+    }
+
+    let mut capacity = vec![0.0; n];
+    if let (true, Some(storage)) = (transient, &model.storage) {
+        for k in (0..n).filter(|&k| model.active[k]) {
+            let size = if storage.is_per_volume() {
+                g.volume(k)
+            } else {
+                g.plan_area(k)
+            };
+            capacity[k] = storage.values().at(k) * size;
+            anchored[k] |= capacity[k] > 0.0;
+        }
+    }
+
+    let floating = floating_regions(grid, &fixed_mask, &anchored, &face);
+    Ok(Assembly {
+        grid,
+        bands,
+        fixed: (0..n).filter(|&k| fixed_mask[k]).collect(),
+        book,
+        inactive: (0..n).filter(|&k| !model.active[k]).collect(),
+        inactive_value: model.inactive_value,
+        capacity,
+        floating,
+        volumes: (0..n).map(|k| g.volume(k)).collect(),
+    })
+}
+
+/// Resistance of the half-cell between the node of `k` and its face on `side`: `d/(k·b·L)`;
+/// 0 when the node sits on the face, infinite when the cell does not conduct that way.
+fn resistance(model: &Model, k: usize, side: Side) -> f64 {
+    let g: &Geometry = &model.geometry;
+    let d = g.to_face(k, side);
+    if d == 0.0 {
+        return 0.0;
+    }
+    let (i, j) = g.grid().coords(k);
+    let (cond, length) = match side {
+        Side::West | Side::East => (model.conductivity.x().at(k), g.y().width(j)),
+        Side::South | Side::North => (model.conductivity.y().at(k), g.x().width(i)),
+    };
+    let depth = match model.conductivity.basis() {
+        ConductivityBasis::PerThickness => g.thickness(k),
+        ConductivityBasis::DepthIntegrated => 1.0,
+    };
+    let g_half = cond * depth * length;
+    if g_half > 0.0 {
+        d / g_half
+    } else {
+        f64::INFINITY
+    }
+}
+
+/// Check thickness, conductivities and (for a transient run) storage at active cells.
+fn check_medium(model: &Model, transient: bool) -> Result<(), Error> {
+    let grid = model.grid();
+    if transient && model.storage.is_none() {
+        return Err(Error::InvalidSetting {
+            name: "storage",
+            value: 0.0,
+            allowed: "storage set with Model::set_storage before a transient run",
+        });
+    }
+    let storage = model.storage.as_ref().filter(|_| transient);
+    for k in (0..grid.cells()).filter(|&k| model.active[k]) {
+        let checks = [
+            ("thickness", model.geometry.thickness(k), false),
+            ("x conductivity", model.conductivity.x().at(k), true),
+            ("y conductivity", model.conductivity.y().at(k), true),
+            ("storage", storage.map_or(0.0, |s| s.values().at(k)), true),
+        ];
+        for (what, value, zero_ok) in checks {
+            let ok = value.is_finite() && (value > 0.0 || (zero_ok && value == 0.0));
+            if !ok {
+                let (i, j) = grid.coords(k);
+                return Err(Error::InvalidProperty {
+                    what,
+                    cell: k,
+                    i,
+                    j,
+                    value,
+                    allowed: if zero_ok {
+                        "finite and >= 0"
+                    } else {
+                        "finite and > 0"
+                    },
+                });
+            }
+        }
+    }
+    Ok(())
+}
+
+/// Connected groups of free cells (through faces that conduct) with no anchored cell.
+fn floating_regions(
+    grid: Grid,
+    fixed: &[bool],
+    anchored: &[bool],
+    face: &impl Fn(usize, Side) -> f64,
+) -> Vec<Region> {
+    let n = grid.cells();
+    let mut seen = vec![false; n];
+    let mut regions = Vec::new();
+    let mut stack = Vec::new();
+    for start in 0..n {
+        if fixed[start] || seen[start] {
+            continue;
+        }
+        let (mut cells, mut anchor) = (Vec::new(), false);
+        seen[start] = true;
+        stack.push(start);
+        while let Some(k) = stack.pop() {
+            cells.push(k);
+            anchor |= anchored[k];
+            for side in Side::ALL {
+                if let Some(nb) = grid.neighbour(k, side) {
+                    if !fixed[nb] && !seen[nb] && face(k, side) > 0.0 {
+                        seen[nb] = true;
+                        stack.push(nb);
+                    }
+                }
+            }
+        }
+        if !anchor {
+            cells.sort_unstable();
+            regions.push(Region { cells });
+        }
+    }
+    regions
+}
+
+fn inactive(grid: Grid, what: String, k: usize) -> Error {
+    let (i, j) = grid.coords(k);
+    Error::InactiveCell {
+        what,
+        cell: k,
+        i,
+        j,
+    }
+}

@@ -1,0 +1,360 @@
+//! The bookkeeping behind the right-hand side and the budget: every condition, resolved into
+//! per-cell slots `(cell, weight, level)`, and [`Forcing`], the caller's handle on the levels.
+//!
+//! A slot contributes to the model in one of three ways:
+//!
+//! * a **source** slot adds `weight·level` to the right-hand side (flux × face area, rate ×
+//!   area or volume, a point rate);
+//! * a **conductance** slot adds `weight` to the center and `weight·level` to the right-hand
+//!   side, so its flow into the model is `weight·(level − φ_cell)`;
+//! * a **fixed** slot holds its cell at `level`; its flow into the model is what keeps the
+//!   cell there: conduction to its active neighbours, `Σ C·(φ_fixed − φ_nb)` over its links,
+//!   less the flows the other slots bring into the same cell (plus storage uptake in a time
+//!   step).
+
+use std::ops::Range;
+
+use super::budget::{Budget, BudgetLine, FlowKind};
+use super::builder::ConditionId;
+use crate::{Error, Grid};
+
+/// How a term's slots act.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) enum Action {
+    Source,
+    Conductance,
+    Fixed,
+}
+
+/// One condition after resolution.
+#[derive(Clone, Debug, PartialEq)]
+pub(crate) struct Term {
+    pub(crate) label: String,
+    pub(crate) kind: FlowKind,
+    pub(crate) action: Action,
+    pub(crate) slots: Range<usize>,
+}
+
+/// A fixed slot's coupling to one active neighbour.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub(crate) struct Link {
+    pub(crate) free: usize,
+    pub(crate) conductance: f64,
+}
+
+/// All terms, with their slots in flat arrays.
+#[derive(Clone, Debug, PartialEq)]
+pub(crate) struct Book {
+    pub(crate) model: u64,
+    pub(crate) grid: Grid,
+    pub(crate) terms: Vec<Term>,
+    pub(crate) cells: Vec<usize>,
+    pub(crate) weights: Vec<f64>,
+    pub(crate) levels: Vec<f64>,
+    /// For every slot, the range of its links in `links` (empty unless fixed).
+    pub(crate) link_ranges: Vec<Range<usize>>,
+    pub(crate) links: Vec<Link>,
+}
+
+impl Book {
+    pub(crate) fn new(model: u64, grid: Grid) -> Book {
+        Book {
+            model,
+            grid,
+            terms: Vec::new(),
+            cells: Vec::new(),
+            weights: Vec::new(),
+            levels: Vec::new(),
+            link_ranges: Vec::new(),
+            links: Vec::new(),
+        }
+    }
+
+    /// Open a new term; slots pushed until the next call belong to it.
+    pub(crate) fn open(&mut self, label: &str, kind: FlowKind, action: Action) {
+        let at = self.cells.len();
+        self.terms.push(Term {
+            label: label.to_string(),
+            kind,
+            action,
+            slots: at..at,
+        });
+    }
+
+    /// Add a slot to the open term.
+    pub(crate) fn push(&mut self, cell: usize, weight: f64, level: f64) {
+        self.cells.push(cell);
+        self.weights.push(weight);
+        self.levels.push(level);
+        let at = self.links.len();
+        self.link_ranges.push(at..at);
+        if let Some(term) = self.terms.last_mut() {
+            term.slots.end = self.cells.len();
+        }
+    }
+
+    /// Add a link to the last slot.
+    pub(crate) fn link(&mut self, free: usize, conductance: f64) {
+        self.links.push(Link { free, conductance });
+        if let Some(range) = self.link_ranges.last_mut() {
+            range.end = self.links.len();
+        }
+    }
+
+    /// `rhs = Σ weight·level` over source and conductance slots (zero elsewhere).
+    pub(crate) fn fill_rhs(&self, rhs: &mut [f64]) {
+        rhs.fill(0.0);
+        for term in self.terms.iter().filter(|t| t.action != Action::Fixed) {
+            for s in term.slots.clone() {
+                rhs[self.cells[s]] += self.weights[s] * self.levels[s];
+            }
+        }
+    }
+
+    /// Write the levels of fixed slots into `x`.
+    pub(crate) fn write_fixed(&self, x: &mut [f64]) {
+        for term in self.terms.iter().filter(|t| t.action == Action::Fixed) {
+            for s in term.slots.clone() {
+                x[self.cells[s]] = self.levels[s];
+            }
+        }
+    }
+
+    /// Flow into the model through source or conductance slot `s`.
+    fn slot_flow(&self, action: Action, s: usize, x: &[f64], levels: &[f64]) -> f64 {
+        match action {
+            Action::Source => self.weights[s] * levels[s],
+            Action::Conductance => self.weights[s] * (levels[s] - x[self.cells[s]]),
+            Action::Fixed => 0.0,
+        }
+    }
+
+    /// Conduction out of fixed slot `s` to its active neighbours.
+    fn conduction_out(&self, s: usize, x: &[f64]) -> f64 {
+        let here = x[self.cells[s]];
+        self.links[self.link_ranges[s].clone()]
+            .iter()
+            .map(|l| l.conductance * (here - x[l.free]))
+            .sum()
+    }
+
+    /// The budget lines of all terms. Each slot's flow is weighted `theta` at the new state
+    /// and `1 − theta` at the previous one (if any), then counted as inflow or outflow.
+    ///
+    /// A fixed cell belongs to the model like any other; the flow through its prescribed value
+    /// is what holds it there: conduction out of it, minus what the other conditions bring
+    /// into it, plus what it takes into storage (`storage_uptake`, per cell, if given).
+    pub(crate) fn lines(
+        &self,
+        new: (&[f64], &[f64]),
+        previous: Option<(&[f64], &[f64], f64)>,
+        storage_uptake: Option<&dyn Fn(usize) -> f64>,
+    ) -> Vec<BudgetLine> {
+        let weighted = |f: &dyn Fn(&[f64], &[f64]) -> f64| -> f64 {
+            let now = f(new.0, new.1);
+            match previous {
+                None => now,
+                Some((x, levels, theta)) => theta * now + (1.0 - theta) * f(x, levels),
+            }
+        };
+        let mut into_fixed = vec![0.0; self.grid.cells()];
+        let mut lines: Vec<BudgetLine> = self
+            .terms
+            .iter()
+            .map(|term| BudgetLine {
+                label: term.label.clone(),
+                kind: term.kind,
+                inflow: 0.0,
+                outflow: 0.0,
+            })
+            .collect();
+        let book_flow = |line: &mut BudgetLine, flow: f64| {
+            if flow >= 0.0 {
+                line.inflow += flow;
+            } else {
+                line.outflow -= flow;
+            }
+        };
+        for (term, line) in self.terms.iter().zip(lines.iter_mut()) {
+            if term.action == Action::Fixed {
+                continue;
+            }
+            for s in term.slots.clone() {
+                let flow = weighted(&|x, levels| self.slot_flow(term.action, s, x, levels));
+                into_fixed[self.cells[s]] += flow;
+                book_flow(line, flow);
+            }
+        }
+        for (term, line) in self.terms.iter().zip(lines.iter_mut()) {
+            if term.action != Action::Fixed {
+                continue;
+            }
+            for s in term.slots.clone() {
+                let k = self.cells[s];
+                let uptake = storage_uptake.map_or(0.0, |f| f(k));
+                let flow = weighted(&|x, _| self.conduction_out(s, x)) - into_fixed[k] + uptake;
+                book_flow(line, flow);
+            }
+        }
+        lines
+    }
+
+    /// The budget of a steady solution.
+    pub(crate) fn steady_budget(&self, x: &[f64]) -> Budget {
+        Budget::from_lines(self.lines((x, &self.levels), None, None))
+    }
+}
+
+/// Write access to the levels of a model's conditions: the values a [`Stepper`](super::Stepper)
+/// or a [`SteadySystem`](super::SteadySystem) uses for its next solve. The level of a condition
+/// is what it was given as its value:
+///
+/// | condition | level |
+/// |---|---|
+/// | prescribed value (cells or edge) | the value (K, °C or m of head) |
+/// | edge flux | the flux per unit face area (W/m² or m/s) |
+/// | edge or cell exchange | the outside value (the coefficient is part of the operator and stays) |
+/// | point source | the rate (W or m³/s) |
+/// | areal / volumetric source | the rate per unit area / volume |
+///
+/// # Example
+///
+/// ```
+/// use quintet::model::{Conductivity, Geometry, Model};
+/// use quintet::Side;
+///
+/// let mut model = Model::new(Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+/// let wall = model.prescribe_edge("wall", Side::West, 10.0)?;
+/// let heater = model.point_source("heater", 5, 2.0)?;
+/// let mut system = model.assemble()?;
+/// system.force(|f| {
+///     f.set(heater, 4.0)?;
+///     f.set_each(wall, |k| 10.0 + k as f64)
+/// })?;
+/// assert_eq!(system.rhs()[5], 4.0);
+/// # Ok::<(), quintet::Error>(())
+/// ```
+pub struct Forcing<'a> {
+    pub(crate) book: &'a mut Book,
+}
+
+impl Forcing<'_> {
+    /// Set every level of condition `id` to `level`.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::UnknownCondition`] for a handle from another model, [`Error::NonFinite`] for a
+    /// level that is not finite.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.prescribe_cells("anchor", [0], 0.0)?;
+    /// let q = model.volumetric_source("generation", 1.0)?;
+    /// let mut system = model.assemble()?;
+    /// system.force(|f| f.set(q, 3.0))?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set(&mut self, id: ConditionId, level: f64) -> Result<(), Error> {
+        self.set_each(id, |_| level)
+    }
+
+    /// Set each level of condition `id` to `level(cell)`, cell by cell (cells the condition
+    /// skipped, inactive or prescribed by a later condition, are not visited). `level` is
+    /// called twice per cell, once to check every value and once to store it, so it should
+    /// depend on the cell only.
+    ///
+    /// # Errors
+    ///
+    /// As for [`Forcing::set`]; on error, no level is changed.
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Side};
+    /// # let mut model = Model::new(Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// let tide = model.prescribe_edge("sea", Side::East, 0.0)?;
+    /// let mut system = model.assemble()?;
+    /// system.force(|f| f.set_each(tide, |k| 0.1 * (k / 4) as f64))?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_each(&mut self, id: ConditionId, level: impl Fn(usize) -> f64) -> Result<(), Error> {
+        let range = self.slots(id)?;
+        let book = &mut *self.book;
+        for s in range.clone() {
+            let v = level(book.cells[s]);
+            if !v.is_finite() {
+                let (i, j) = book.grid.coords(book.cells[s]);
+                return Err(Error::NonFinite {
+                    what: "forcing level",
+                    cell: book.cells[s],
+                    i,
+                    j,
+                });
+            }
+        }
+        for s in range {
+            book.levels[s] = level(book.cells[s]);
+        }
+        Ok(())
+    }
+
+    /// The cells condition `id` acts on, in slot order.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::UnknownCondition`].
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.prescribe_cells("anchor", [0], 0.0)?;
+    /// let well = model.point_source("well", 6, -1.0)?;
+    /// let mut system = model.assemble()?;
+    /// system.force(|f| {
+    ///     assert_eq!(f.cells(well)?, &[6]);
+    ///     Ok(())
+    /// })?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn cells(&self, id: ConditionId) -> Result<&[usize], Error> {
+        let range = self.slots(id)?;
+        Ok(&self.book.cells[range])
+    }
+
+    /// The current levels of condition `id`, in slot order.
+    ///
+    /// # Errors
+    ///
+    /// [`Error::UnknownCondition`].
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.prescribe_cells("anchor", [0], 0.0)?;
+    /// let well = model.point_source("well", 6, -1.0)?;
+    /// let mut system = model.assemble()?;
+    /// system.force(|f| {
+    ///     assert_eq!(f.levels(well)?, &[-1.0]);
+    ///     Ok(())
+    /// })?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn levels(&self, id: ConditionId) -> Result<&[f64], Error> {
+        let range = self.slots(id)?;
+        Ok(&self.book.levels[range])
+    }
+
+    fn slots(&self, id: ConditionId) -> Result<Range<usize>, Error> {
+        let unknown = Error::UnknownCondition {
+            id: id.index,
+            count: self.book.terms.len(),
+        };
+        if id.model != self.book.model {
+            return Err(unknown);
+        }
+        self.book
+            .terms
+            .get(id.index)
+            .map(|t| t.slots.clone())
+            .ok_or(unknown)
+    }
+}

@@ -1,0 +1,90 @@
+//! The stepper allocates nothing per step: a step makes exactly as many heap allocations as
+//! the driver's own solves (each builds its `Report`), measured with a counting allocator on
+//! the test's thread. The grid is below the parallel threshold, so all work runs on it.
+
+use std::alloc::{GlobalAlloc, Layout, System};
+use std::cell::Cell;
+
+use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
+use quintet::prelude::*;
+
+struct Counting;
+
+thread_local! {
+    static ALLOCATIONS: Cell<usize> = const { Cell::new(0) };
+}
+
+// SAFETY: forwards every call to the system allocator unchanged; the thread-local counter has
+// a const initialiser and no destructor, so touching it never allocates or re-enters.
+unsafe impl GlobalAlloc for Counting {
+    unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
+        ALLOCATIONS.with(|c| c.set(c.get() + 1));
+        // SAFETY: same contract as the caller's.
+        unsafe { System.alloc(layout) }
+    }
+    unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
+        // SAFETY: same contract as the caller's.
+        unsafe { System.dealloc(ptr, layout) }
+    }
+    unsafe fn realloc(&self, ptr: *mut u8, layout: Layout, new_size: usize) -> *mut u8 {
+        ALLOCATIONS.with(|c| c.set(c.get() + 1));
+        // SAFETY: same contract as the caller's.
+        unsafe { System.realloc(ptr, layout, new_size) }
+    }
+}
+
+#[global_allocator]
+static GLOBAL: Counting = Counting;
+
+fn allocations_during(f: impl FnOnce()) -> usize {
+    let before = ALLOCATIONS.with(|c| c.get());
+    f();
+    ALLOCATIONS.with(|c| c.get()) - before
+}
+
+fn model() -> (Model, quintet::model::ConditionId) {
+    let geometry = Geometry::cell_centered(60, 40, 10.0, 10.0, 8.0).unwrap();
+    let grid = geometry.grid();
+    let mut model = Model::new(geometry, Conductivity::isotropic(1e-4)).unwrap();
+    model.set_storage(Storage::per_area(1e-4)).unwrap();
+    model.prescribe_edge("river", Side::West, 5.0).unwrap();
+    model.edge_exchange("lake", Side::East, 1e-6, 4.0).unwrap();
+    model.areal_source("recharge", 5e-9).unwrap();
+    let well = model.point_source("well", grid.index(30, 20), 0.0).unwrap();
+    (model, well)
+}
+
+#[test]
+fn steps_allocate_only_what_the_driver_does() {
+    let (model, well) = model();
+    let n = model.grid().cells();
+    for (scheme, damped, solves_per_step) in [
+        (TimeScheme::BackwardEuler, 0, 1),
+        (TimeScheme::CrankNicolson, 0, 1),
+        (TimeScheme::CrankNicolson, 100, 2),
+    ] {
+        let mut stepper = Stepper::with_jacobi(&model, scheme, 3600.0, 0.0, &vec![5.0; n])
+            .unwrap()
+            .damped_start(damped);
+        stepper.step().unwrap(); // warm-up: the driver sizes its history buffer
+                                 // The driver alone, on the stepper's own operator with a warm workspace.
+        let op = stepper.operator().clone();
+        let mut pcg = Pcg::new(Jacobi::new(&op).unwrap());
+        let mut ws = Workspace::for_grid(op.grid());
+        let rhs = vec![1e-3; n];
+        let mut x = stepper.solution().to_vec();
+        pcg.solve_with(&op, &rhs, &mut x, &mut ws).unwrap();
+        let per_solve = allocations_during(|| {
+            pcg.solve_with(&op, &rhs, &mut x, &mut ws).unwrap();
+        });
+        for _ in 0..3 {
+            let per_step = allocations_during(|| {
+                stepper
+                    .step_with(|t, f| f.set(well, -1e-3 * (t / 3600.0).min(4.0)))
+                    .unwrap();
+            });
+            println!("{scheme:?} (damped {damped}): {per_step} allocations per step, {per_solve} per bare solve");
+            assert_eq!(per_step, solves_per_step * per_solve);
+        }
+    }
+}
