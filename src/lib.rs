@@ -45,7 +45,7 @@
 //! | symmetric, positive centers, non-positive couplings (diffusion) | [`Pcg`] with [`Jacobi`] | robust default; Jacobi evens out jumping coefficients |
 //! | diffusion, large grid (10⁵ cells and up), jumping coefficients | [`Pcg`] with [`Multigrid`] | iteration count independent of the grid size: 6 on Poisson, 13–20 at contrast 10⁴ (9–10 with [`CoarseOperator::LumpedGalerkin`]) |
 //! | diffusion, moderate grid, little memory to spare | [`Pcg`] with [`IncompleteCholesky::mic0`] | iterations grow like `h^{-1/2}`; three arrays of storage |
-//! | diffusion, classic workhorse | [`Pcg`] with [`IncompleteCholesky::ic0`] or [`Ssor`] | a third of CG's iterations, growth still `h⁻¹` |
+//! | diffusion, classic workhorse | [`Pcg`] with [`IncompleteCholesky::ic0`] or [`Ssor`] | IC(0): a third of CG's iterations, growth still `h⁻¹`; SSOR with ω ≈ 2/(1 + πh): growth `h^{-1/2}` |
 //! | not symmetric, positive centers, an ILU-type iteration | [`Sip`] standalone | Stone's method; as a PCG preconditioner only for mild contrasts (see its docs) |
 //! | symmetric, small grid or a quick check | [`Cg`] | no setup at all |
 //! | not symmetric, or you need a smoother | [`Sor`] with [`estimate_relaxation`] | needs positive centers only |
