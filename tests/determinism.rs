@@ -39,6 +39,11 @@ fn run_all<S: Stencil5<f64>>(
         .with_options(opts.clone())
         .solve_with(op, rhs, &mut x, &mut ws);
     record("pcg-jacobi", r, x);
+    let mut x = x0.to_vec();
+    let r = Pcg::new(Multigrid::new(op, MultigridSettings::default()).unwrap())
+        .with_options(opts.clone())
+        .solve_with(op, rhs, &mut x, &mut ws);
+    record("pcg-multigrid", r, x);
     for order in [SweepOrder::Lexicographic, SweepOrder::RedBlack] {
         let mut x = x0.to_vec();
         let r = Sor::new(1.6)

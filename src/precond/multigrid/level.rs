@@ -33,16 +33,30 @@
 use super::galerkin::galerkin_lumped;
 use super::CoarseOperator;
 use crate::precond::factor::{eliminated_row, lit};
-use crate::stencil::Stencil5;
+use std::ops::Range;
+
+use crate::kernels::Kernels;
+use crate::stencil::{row_neighbourhood, row_product, Stencil5};
 use crate::{Coeffs5, Error, FixedCells, Grid, Scalar};
 
 /// A source of eliminated rows: the fine operator or a coarse level.
-pub(crate) trait Rows<T: Scalar> {
+pub(crate) trait Rows<T: Scalar>: Sync {
     fn grid(&self) -> Grid;
     /// The eliminated row of cell `(i, j)`, `k = i + nx·j`.
     fn row(&self, i: usize, j: usize, k: usize) -> Coeffs5<T>;
     /// Whether cell `k` is an unknown (false for fixed cells and identity rows).
     fn active(&self, k: usize) -> bool;
+    /// `y = A·x` over the grid rows `rows` (`y` holds exactly those rows), for an `x` that is
+    /// zero at every inactive cell (so couplings towards inactive cells contribute nothing
+    /// whether or not they are eliminated).
+    fn product_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
+        let g = self.grid();
+        let (nx, ny) = (g.nx(), g.ny());
+        for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
+            let (south, row, north) = row_neighbourhood(x, nx, ny, j);
+            row_product(|i| self.row(i, j, i + nx * j), south, row, north, y_row);
+        }
+    }
 }
 
 /// The user's operator, seen through its eliminated rows.
@@ -64,6 +78,11 @@ impl<T: Scalar, S: Stencil5<T> + ?Sized> Rows<T> for FineRows<'_, S> {
     #[inline]
     fn active(&self, k: usize) -> bool {
         !self.fixed.is_some_and(|f| f.contains(k))
+    }
+    /// The operator's own row kernel: with `x` zero at fixed cells, the raw couplings towards
+    /// them add nothing, so this equals the eliminated product on the free cells.
+    fn product_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
+        self.op.apply_rows(rows, x, y);
     }
 }
 
@@ -198,6 +217,10 @@ pub(crate) struct Level<T> {
     pub(crate) b: Vec<T>,
     /// Residual scratch.
     pub(crate) r: Vec<T>,
+    /// `1/center` at active cells, 0 at inactive ones (the smoother's scaling; `f32` like the
+    /// interpolation weights: the smoother only needs it to a relative 1e-7, and the same
+    /// rounded value before and after the coarse correction keeps the cycle symmetric).
+    pub(crate) inverse_centers: Vec<f32>,
 }
 
 impl<T: Scalar> Level<T> {
@@ -426,8 +449,10 @@ impl<T: Scalar> Level<T> {
                 });
             }
         }
+        let inverse_centers = inverse_centers(&rows, |k| active[k]);
         Ok(Level {
             op: LevelOperator { grid, rows, active },
+            inverse_centers,
             ax,
             ay,
             wx: narrow(&wx),
@@ -480,30 +505,61 @@ impl<T: Scalar> Level<T> {
         self.b = b;
     }
 
-    /// `x_fine += P·self.x` (inactive fine cells left out).
-    pub(crate) fn prolong_add<R: Rows<T>>(&self, fine: &R, x_fine: &mut [T]) {
+    /// `x_fine += P·self.x` (inactive fine cells left out), rows in parallel on large grids.
+    pub(crate) fn prolong_add<R: Rows<T>>(
+        &self,
+        fine: &R,
+        x_fine: &mut [T],
+        kernels: &mut Kernels<T>,
+    ) {
         let nx = fine.grid().nx();
         let x = &self.x;
-        for (j, row) in x_fine.chunks_exact_mut(nx).enumerate() {
-            for (i, v) in row.iter_mut().enumerate() {
-                let k = i + nx * j;
-                if !fine.active(k) {
-                    continue;
+        kernels.map_blocks(x_fine, |rows, _, block| {
+            for (j, row) in rows.zip(block.chunks_exact_mut(nx)) {
+                for (i, v) in row.iter_mut().enumerate() {
+                    let k = i + nx * j;
+                    if !fine.active(k) {
+                        continue;
+                    }
+                    let mut e = T::zero();
+                    for (kc, w) in self.stencil(i, j, k) {
+                        e = e + w * x[kc];
+                    }
+                    *v = *v + e;
                 }
-                let mut e = T::zero();
-                for (kc, w) in self.stencil(i, j, k) {
-                    e = e + w * x[kc];
-                }
-                *v = *v + e;
             }
-        }
+            (T::zero(), T::zero())
+        });
     }
 
-    /// Bytes held: five coefficients, three vectors and the mask per coarse cell, and two
-    /// interpolation weights per fine cell.
+    /// Bytes held: five coefficients, three vectors, the inverse center and the mask per coarse
+    /// cell, and two interpolation weights per fine cell.
     pub(crate) fn bytes(&self) -> usize {
         let t = std::mem::size_of::<T>();
         let n = self.op.grid.cells();
-        n * (8 * t + 1) + (self.wx.len() + self.wy.len()) * std::mem::size_of::<f32>()
+        n * (8 * t + 5) + (self.wx.len() + self.wy.len()) * std::mem::size_of::<f32>()
     }
+}
+
+/// `1/center` of each row where `active(k)`, 0 elsewhere, in `f32`.
+pub(crate) fn inverse_centers<T: Scalar>(
+    rows: &[Coeffs5<T>],
+    active: impl Fn(usize) -> bool,
+) -> Vec<f32> {
+    rows.iter()
+        .enumerate()
+        .map(|(k, c)| {
+            if active(k) {
+                narrow_one(T::one() / c.center)
+            } else {
+                0.0
+            }
+        })
+        .collect()
+}
+
+/// `v` in `f32` (0 if it cannot be represented).
+#[inline]
+pub(crate) fn narrow_one<T: Scalar>(v: T) -> f32 {
+    v.to_f32().unwrap_or(0.0)
 }

@@ -44,11 +44,12 @@ mod level;
 mod smooth;
 
 use direct::{BandCholesky, MAX_DIRECT_CELLS};
-use level::{FineRows, Level};
+use level::{FineRows, Level, Rows};
 use smooth::{red_black_sweep, residual};
 
 use super::correction::correction_solve;
 use super::Preconditioner;
+use crate::kernels::Kernels;
 use crate::solve::{IterativeSolver, Report, SolveOptions, Workspace};
 use crate::stencil::{check_grid, Stencil5};
 use crate::stop::Progress;
@@ -159,6 +160,11 @@ pub struct Multigrid<T, S> {
     levels: Vec<Level<T>>,
     direct: BandCholesky<T>,
     fine_residual: Vec<T>,
+    /// `1/center` of the fine operator at free cells, 0 at fixed cells (`f32`, see
+    /// `Level::inverse_centers`).
+    fine_inverse_centers: Vec<f32>,
+    /// Blocked kernels for the fine level (index 0) and each coarse level.
+    kernels: Vec<Kernels<T>>,
     /// Stopping rule for the standalone solver.
     pub options: SolveOptions,
 }
@@ -226,12 +232,28 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
             None => BandCholesky::new(&fine)?,
             Some(l) => BandCholesky::new(&l.op)?,
         };
+        let fine_inverse_centers = (0..grid.cells())
+            .map(|k| {
+                let (i, j) = grid.coords(k);
+                if fine.active(k) {
+                    level::narrow_one(T::one() / op.coeffs(i, j).center)
+                } else {
+                    0.0
+                }
+            })
+            .collect();
+        let kernels = std::iter::once(grid)
+            .chain(levels.iter().map(|l| l.op.grid))
+            .map(Kernels::new)
+            .collect();
         Ok(Multigrid {
             grid,
             settings,
             levels,
             direct,
             fine_residual: vec![T::zero(); grid.cells()],
+            fine_inverse_centers,
+            kernels,
             op,
             options: SolveOptions::default(),
         })
@@ -298,6 +320,7 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
     pub fn storage_bytes(&self) -> usize {
         self.levels.iter().map(Level::bytes).sum::<usize>()
             + self.fine_residual.len() * std::mem::size_of::<T>()
+            + self.fine_inverse_centers.len() * std::mem::size_of::<f32>()
             + self.direct.bytes()
     }
 
@@ -329,22 +352,36 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
         }
         let nu = self.settings.smoothing_sweeps;
         let fine = fine_rows(&self.op);
+        // The fine residual buffer doubles as the smoother's scratch on the fine level, and
+        // each level's residual buffer on its own level: neither is in use while smoothing.
+        let (fine_kernels, level_kernels) = self.kernels.split_at_mut(1);
+        let inv = &self.fine_inverse_centers;
+        let fine_kernels = &mut fine_kernels[0];
         z.iter_mut().for_each(|v| *v = T::zero());
         for _ in 0..nu {
-            red_black_sweep(&fine, r, z, 0);
+            red_black_sweep(&fine, inv, r, z, &mut self.fine_residual, 0, fine_kernels);
         }
-        residual(&fine, r, z, &mut self.fine_residual);
+        residual(&fine, r, z, &mut self.fine_residual, fine_kernels);
         self.levels[0].restrict(&fine, &self.fine_residual);
         // Down the hierarchy.
         let last = self.levels.len() - 1;
         for l in 0..last {
             let (upper, lower) = self.levels.split_at_mut(l + 1);
             let here = &mut upper[l];
+            let kernels = &mut level_kernels[l];
             here.x.iter_mut().for_each(|v| *v = T::zero());
             for _ in 0..nu {
-                red_black_sweep(&here.op, &here.b, &mut here.x, 0);
+                red_black_sweep(
+                    &here.op,
+                    &here.inverse_centers,
+                    &here.b,
+                    &mut here.x,
+                    &mut here.r,
+                    0,
+                    kernels,
+                );
             }
-            residual(&here.op, &here.b, &here.x, &mut here.r);
+            residual(&here.op, &here.b, &here.x, &mut here.r, kernels);
             lower[0].restrict(&here.op, &here.r);
         }
         let coarsest = &mut self.levels[last];
@@ -353,14 +390,23 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
         for l in (0..last).rev() {
             let (upper, lower) = self.levels.split_at_mut(l + 1);
             let here = &mut upper[l];
-            lower[0].prolong_add(&here.op, &mut here.x);
+            let kernels = &mut level_kernels[l];
+            lower[0].prolong_add(&here.op, &mut here.x, kernels);
             for _ in 0..nu {
-                red_black_sweep(&here.op, &here.b, &mut here.x, 1);
+                red_black_sweep(
+                    &here.op,
+                    &here.inverse_centers,
+                    &here.b,
+                    &mut here.x,
+                    &mut here.r,
+                    1,
+                    kernels,
+                );
             }
         }
-        self.levels[0].prolong_add(&fine, z);
+        self.levels[0].prolong_add(&fine, z, fine_kernels);
         for _ in 0..nu {
-            red_black_sweep(&fine, r, z, 1);
+            red_black_sweep(&fine, inv, r, z, &mut self.fine_residual, 1, fine_kernels);
         }
     }
 }

@@ -1,60 +1,84 @@
 //! The red-black Gauss–Seidel smoother and the residual, on any level.
+//!
+//! Cells of one colour do not couple to each other in a 5-point stencil, so updating all of
+//! them at once from the current values of the other colour *is* the Gauss–Seidel half-sweep.
+//! That lets every half-sweep run as a data-parallel pass: the level's row product gives
+//! `A·x`, and each cell of the colour takes `x + (b − A·x)/center` (with `1/center` stored, and
+//! zero at inactive cells so they keep their zero), written into a second buffer. A full sweep goes `x → scratch → x`. Rows are cut into the fixed blocks of
+//! [`Kernels`], so results do not depend on the thread count.
 
 use super::level::Rows;
+use crate::kernels::Kernels;
 use crate::Scalar;
 
-/// One red-black Gauss–Seidel sweep on `x` for `A·x = b`: colour `first` (cells with
-/// `(i + j) % 2 == first`), then the other.
-pub(crate) fn red_black_sweep<T: Scalar, R: Rows<T>>(op: &R, b: &[T], x: &mut [T], first: usize) {
-    let g = op.grid();
-    let (nx, ny) = (g.nx(), g.ny());
-    for colour in [first, 1 - first] {
-        for j in 0..ny {
-            let start = (colour + j) % 2;
-            for i in (start..nx).step_by(2) {
-                let k = i + nx * j;
-                let c = op.row(i, j, k);
-                let mut s = b[k];
-                if i > 0 {
-                    s = s - c.west * x[k - 1];
-                }
-                if i + 1 < nx {
-                    s = s - c.east * x[k + 1];
-                }
-                if j > 0 {
-                    s = s - c.south * x[k - nx];
-                }
-                if j + 1 < ny {
-                    s = s - c.north * x[k + nx];
-                }
-                x[k] = s / c.center;
+/// Half a sweep: `y` takes the Gauss–Seidel update of `x` at the cells of `colour`
+/// (`(i + j) % 2 == colour`) and the value of `x` everywhere else. `inv` is `1/center`, zero at
+/// inactive cells.
+fn half_sweep<T: Scalar, R: Rows<T>>(
+    op: &R,
+    inv: &[f32],
+    b: &[T],
+    x: &[T],
+    y: &mut [T],
+    colour: usize,
+    kernels: &mut Kernels<T>,
+) {
+    let nx = op.grid().nx();
+    kernels.map_blocks(y, |rows, _, block| {
+        op.product_rows(rows.clone(), x, block);
+        for (j, y_row) in rows.zip(block.chunks_exact_mut(nx)) {
+            let base = j * nx;
+            let (x_row, b_row, d_row) = (&x[base..][..nx], &b[base..][..nx], &inv[base..][..nx]);
+            // Cells of the colour sit at i ≡ j + colour (mod 2): update those from the product
+            // now in `y_row`, and give the others back their value from `x`.
+            let first = (j + colour) % 2;
+            for i in (first..nx).step_by(2) {
+                y_row[i] = x_row[i] + (b_row[i] - y_row[i]) * widen(d_row[i]);
+            }
+            for i in (1 - first..nx).step_by(2) {
+                y_row[i] = x_row[i];
             }
         }
-    }
+        (T::zero(), T::zero())
+    });
 }
 
-/// `r = b − A·x` with the eliminated rows.
-pub(crate) fn residual<T: Scalar, R: Rows<T>>(op: &R, b: &[T], x: &[T], r: &mut [T]) {
-    let g = op.grid();
-    let (nx, ny) = (g.nx(), g.ny());
-    for j in 0..ny {
-        for i in 0..nx {
-            let k = i + nx * j;
-            let c = op.row(i, j, k);
-            let mut s = c.center * x[k];
-            if i > 0 {
-                s = s + c.west * x[k - 1];
-            }
-            if i + 1 < nx {
-                s = s + c.east * x[k + 1];
-            }
-            if j > 0 {
-                s = s + c.south * x[k - nx];
-            }
-            if j + 1 < ny {
-                s = s + c.north * x[k + nx];
-            }
-            r[k] = b[k] - s;
+/// One red-black Gauss–Seidel sweep on `x` for `A·x = b`: colour `first` (cells with
+/// `(i + j) % 2 == first`), then the other. `scratch` is overwritten. `x` must be zero at
+/// inactive cells, and stays so.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn red_black_sweep<T: Scalar, R: Rows<T>>(
+    op: &R,
+    inv: &[f32],
+    b: &[T],
+    x: &mut [T],
+    scratch: &mut [T],
+    first: usize,
+    kernels: &mut Kernels<T>,
+) {
+    half_sweep(op, inv, b, x, scratch, first, kernels);
+    half_sweep(op, inv, b, scratch, x, 1 - first, kernels);
+}
+
+/// `r = b − A·x` with the eliminated rows, zero at inactive cells (`x` zero there).
+pub(crate) fn residual<T: Scalar, R: Rows<T>>(
+    op: &R,
+    b: &[T],
+    x: &[T],
+    r: &mut [T],
+    kernels: &mut Kernels<T>,
+) {
+    kernels.map_blocks(r, |rows, cells, block| {
+        op.product_rows(rows, x, block);
+        for ((ri, &bi), k) in block.iter_mut().zip(&b[cells.clone()]).zip(cells) {
+            *ri = if op.active(k) { bi - *ri } else { T::zero() };
         }
-    }
+        (T::zero(), T::zero())
+    });
+}
+
+/// `v` in the level's scalar type.
+#[inline(always)]
+fn widen<T: Scalar>(v: f32) -> T {
+    T::from(v).unwrap_or_else(T::zero)
 }
