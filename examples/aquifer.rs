@@ -27,6 +27,8 @@ recharge and two pumping wells; prints the water budget and the drawdown at the 
 writes heads.png and drawdown.png.
 
 Usage: cargo run --release --example aquifer -- [OPTIONS]
+
+Options:
     --cell M      cell size in m (default 20)";
 
 // Hydraulic conductivity ranges from Freeze & Cherry, Groundwater, 1979, Table 2.2 (range of

@@ -27,6 +27,8 @@ cooling: transient cooling of a hot stainless-steel bar section in a water mist,
 started Crank-Nicolson steps and a progress bar; writes probes.png and section.png.
 
 Usage: cargo run --release --example cooling -- [OPTIONS]
+
+Options:
     --step S      time step in seconds (default 2)
     --minutes M   length of the run in minutes (default 20)";
 

@@ -25,6 +25,8 @@ two heaters and one water-cooled edge; prints the hottest cell, the energy budge
 solver report, and writes temperature.png.
 
 Usage: cargo run --release --example heat_spreader -- [OPTIONS]
+
+Options:
     --cell MM     cell size in mm (default 0.5)";
 
 // Thermal conductivities at 300 K from Incropera, DeWitt, Bergman & Lavine, Fundamentals of

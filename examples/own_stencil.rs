@@ -24,7 +24,9 @@ const HELP: &str = "\
 own_stencil: a closure-based 5-point operator (ground under a heated slab) solved with PCG
 and with SOR, a custom stopping rule and an observer; writes section.png and convergence.png.
 
-Usage: cargo run --release --example own_stencil -- [OPTIONS]";
+Usage: cargo run --release --example own_stencil -- [OPTIONS]
+
+Options:";
 
 const WIDTH: f64 = 24.0; // m
 const DEPTH: f64 = 12.0; // m

@@ -41,14 +41,16 @@ pub struct Options {
 }
 
 /// The help text of the options every example takes.
-pub const COMMON_HELP: &str = "\
-    --out DIR     folder for the pictures (default: out/NAME)
-    --font FILE   TrueType font for the text in the pictures (default: DejaVu Sans,
-                  found through fontconfig)
-    -h, --help    this text";
+pub const COMMON_HELP: &str = concat!(
+    "    --out DIR     folder for the pictures (default: out/NAME)\n",
+    "    --font FILE   TrueType font for the text in the pictures (default: DejaVu Sans,\n",
+    "                  found through fontconfig or in the usual folders)\n",
+    "    -h, --help    this text",
+);
 
 impl Options {
-    /// Parse the common options of example `name`; print `help` and exit on `--help`.
+    /// Parse the common options of example `name`; on `--help`, print `help` (which ends
+    /// with the example's own option lines under `Options:`) and the common options, and exit.
     ///
     /// # Errors
     ///
@@ -56,7 +58,7 @@ impl Options {
     pub fn parse(name: &str, help: &str) -> Result<Options, Failure> {
         let mut args = pico_args::Arguments::from_env();
         if args.contains(["-h", "--help"]) {
-            println!("{help}\n\nOptions:\n{}", COMMON_HELP.replace("NAME", name));
+            println!("{help}\n{}", COMMON_HELP.replace("NAME", name));
             std::process::exit(0);
         }
         let out = args
