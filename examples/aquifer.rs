@@ -308,7 +308,7 @@ fn draw_features(chart: &mut MapChart<'_, '_>) -> Result<(), Failure> {
             .collect();
         chart.draw_series(DashedLineSeries::new(ring, 6, 4, clay.stroke_width(2)))?;
         if n == 0 {
-            boxed_label(chart, (cx, cy - b - 80.0), "clay lens", 13)?;
+            boxed_label(chart, (cx - 150.0, cy + b + 45.0), "clay lens", 13)?;
         }
     }
     let water = RGBColor(20, 70, 200);
