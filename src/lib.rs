@@ -17,7 +17,9 @@
 //! * Drivers behind one trait, [`IterativeSolver`]: [`SteepestDescent`], [`Pcg`] / [`Cg`],
 //!   [`Sor`] (lexicographic or red-black; Gauss–Seidel at ω = 1) and [`MixedRefinement`]
 //!   (`f32` inner solves, `f64` accuracy).
-//! * [`Preconditioner`]s for PCG: [`Identity`], [`Jacobi`].
+//! * [`Preconditioner`]s for PCG: [`Identity`], [`Jacobi`], [`Ssor`], [`IncompleteCholesky`]
+//!   (IC(0) and MIC(0)), Stone's [`Sip`] and the geometric [`Multigrid`] V-cycle; [`Sip`] and
+//!   [`Multigrid`] also run as standalone solvers.
 //! * One [`Monitor`], one set of stopping rules ([`stop`]), one [`Report`].
 //!
 //! ```
@@ -158,7 +160,10 @@ pub mod stop;
 pub use error::Error;
 pub use grid::{Grid, Side};
 pub use monitor::Monitor;
-pub use precond::{Identity, Jacobi, Preconditioner};
+pub use precond::{
+    CoarseOperator, FactorSettings, Identity, IncompleteCholesky, Jacobi, Multigrid,
+    MultigridSettings, Preconditioner, Sip, SipSettings, Ssor, WeakPivot,
+};
 pub use solve::{
     estimate_relaxation, Cg, IterativeSolver, MixedRefinement, Pcg, RelaxationEstimate, Report,
     SolveOptions, Sor, SteepestDescent, SweepOrder, Workspace,
@@ -201,10 +206,11 @@ pub(crate) fn to_f64<T: Scalar>(v: T) -> f64 {
 /// ```
 pub mod prelude {
     pub use crate::{
-        check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, Coeffs5, Error,
-        FixedCells, Grid, Identity, IterativeSolver, Jacobi, MixedRefinement, Pcg, Preconditioner,
-        Progress, Report, Side, SolveOptions, Sor, SteepestDescent, Stencil5, StopReason, StopRule,
-        SweepOrder, Symmetric5, Tolerances, Workspace,
+        check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, CoarseOperator, Coeffs5,
+        Error, FactorSettings, FixedCells, Grid, Identity, IncompleteCholesky, IterativeSolver,
+        Jacobi, MixedRefinement, Multigrid, MultigridSettings, Pcg, Preconditioner, Progress,
+        Report, Side, Sip, SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5,
+        StopReason, StopRule, SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
     };
 }
 

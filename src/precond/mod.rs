@@ -1,16 +1,58 @@
 //! Preconditioners for [`Pcg`](crate::Pcg): the [`Preconditioner`] trait, [`Identity`] (plain
-//! CG) and [`Jacobi`] (diagonal scaling).
+//! CG), [`Jacobi`] (diagonal scaling), [`Ssor`], [`IncompleteCholesky`] (IC(0) and MIC(0)),
+//! Stone's [`Sip`] and the geometric [`Multigrid`] V-cycle. [`Sip`] and [`Multigrid`] are also
+//! standalone [`IterativeSolver`](crate::IterativeSolver)s.
+//!
+//! | preconditioner | setup | storage (`T` entries per cell) | PCG iterations, Dirichlet Poisson, 64² → 1024² (measured) |
+//! |---|---|---|---|
+//! | [`Jacobi`] | none | 1 | as CG: `∝ h⁻¹` (119 → 941 at 512²) |
+//! | [`Ssor`] | one pass | 3 | `∝ h⁻¹` with ω = 1 (60 → 807); `∝ h^{-1/2}` with ω = 2/(1 + πh) (34 → 102 at 512²) |
+//! | [`IncompleteCholesky`] IC(0) | one pass | 3 | `∝ h⁻¹`, a third of CG's (52 → 682) |
+//! | [`IncompleteCholesky`] MIC(0) | one pass | 3 | `∝ h^{-1/2}` (36 → 191) |
+//! | [`Sip`] (symmetrised) | one pass | 6 | between IC(0) and MIC(0) (33 → 379); not positive definite on high-contrast fields |
+//! | [`Multigrid`] | hierarchy | about 5 (coarse levels, vectors, weights) | bounded: 6 at every size |
+//!
+//! Every preconditioner here is built from the operator's eliminated coefficients
+//! ([`Stencil5::eliminated_coeffs`]): fixed cells are identity rows, couplings towards them
+//! are removed.
 //!
 //! A preconditioner is built once from an operator (setup: factorisation, scaling, hierarchy)
 //! and then applied many times; applying it allocates nothing. For PCG it must be symmetric
 //! positive definite on the free cells. The driver holds `z` at zero on fixed cells after
 //! every application, so a preconditioner never moves a fixed cell.
 
+mod correction;
+mod factor;
+mod ic0;
 mod jacobi;
+pub mod multigrid;
+mod sip;
+mod ssor;
 
+pub use ic0::{FactorSettings, IncompleteCholesky, WeakPivot};
 pub use jacobi::Jacobi;
+pub use multigrid::{CoarseOperator, Multigrid, MultigridSettings};
+pub use sip::{Sip, SipSettings};
+pub use ssor::Ssor;
 
-use crate::Scalar;
+use crate::stencil::Stencil5;
+use crate::{to_f64, Error, Scalar};
+
+/// `Err(NonPositiveCenter)` for the first free cell whose center is not positive.
+pub(crate) fn check_centers<T: Scalar, S: Stencil5<T> + ?Sized>(op: &S) -> Result<(), Error> {
+    match op.first_nonpositive_center() {
+        None => Ok(()),
+        Some((k, value)) => {
+            let (i, j) = op.grid().coords(k);
+            Err(Error::NonPositiveCenter {
+                cell: k,
+                i,
+                j,
+                value: to_f64(value),
+            })
+        }
+    }
+}
 
 /// An approximate inverse `M⁻¹ ≈ A⁻¹`, applied as `z = M⁻¹ r`.
 ///

@@ -1,0 +1,509 @@
+//! One level of the hierarchy: the 5-point operator of a coarse grid, built from the next finer
+//! level's coefficients, and the grid transfers between the two.
+//!
+//! Cells are aggregated 2 × 2 (1-wide aggregates at the far end of an odd side); the centre of
+//! an aggregate is the coarse cell centre. Everything is built from conductances
+//! `g = −coupling` (non-negative couplings count as zero conductance) along straight lines of
+//! fine cells, the way a hydrogeologist upscales a layered column:
+//!
+//! * **Interpolation** (prolongation `P`). Along one axis, a fine cell lies between its own
+//!   aggregate's centre and the next aggregate's centre. The path between the two centres is
+//!   the half-cell inside the own aggregate (conductance `2·g_int`, with `g_int` the coupling
+//!   between the two siblings), the face (`g_f`) and the half-cell on the far side. The fine
+//!   cell takes the share `w = r₁/(r₁ + r_f + r₂)` of the far centre (`r = 1/g`), the value of
+//!   a flux-continuous linear profile. In a homogeneous medium `w = 1/4`, which is bilinear
+//!   interpolation between cell centres; across a barrier `w → 0`; a cell cut off from its
+//!   sibling follows the neighbour. In 2-D the weights of the two axes multiply. `P`
+//!   reproduces constants. Restriction is the transpose, `R = Pᵀ`.
+//! * **Coarse couplings.** The series conductance of that same path, for every fine line
+//!   crossing a coarse face, summed over the lines (parallel) — after sharing each line's
+//!   conductance between the coarse lines that interpolate it, in the proportions of the
+//!   interpolation in the cross direction (a lumped Galerkin product), so that a fine line that
+//!   follows the neighbouring coarse line gives its conductance to that line. For a homogeneous
+//!   medium this is the rediscretised operator on the coarse grid.
+//! * **Coarse centers**: the sum of the coarse conductances plus each fine cell's row-sum
+//!   excess (storage terms, couplings to fixed cells or to the zero values outside the grid),
+//!   reached from the coarse centre through the mean half-cell resistance and shared like the
+//!   interpolation.
+//!
+//! The coarse operator is again symmetric, 5-point and an M-matrix. Inactive cells (fixed
+//! cells, coarse cells with no unknown under them) are left out of `P` and `R` and are identity
+//! rows, so the V-cycle stays symmetric.
+
+use super::galerkin::galerkin_lumped;
+use super::CoarseOperator;
+use crate::precond::factor::{eliminated_row, lit};
+use crate::stencil::Stencil5;
+use crate::{Coeffs5, Error, FixedCells, Grid, Scalar};
+
+/// A source of eliminated rows: the fine operator or a coarse level.
+pub(crate) trait Rows<T: Scalar> {
+    fn grid(&self) -> Grid;
+    /// The eliminated row of cell `(i, j)`, `k = i + nx·j`.
+    fn row(&self, i: usize, j: usize, k: usize) -> Coeffs5<T>;
+    /// Whether cell `k` is an unknown (false for fixed cells and identity rows).
+    fn active(&self, k: usize) -> bool;
+}
+
+/// The user's operator, seen through its eliminated rows.
+pub(crate) struct FineRows<'a, S: ?Sized> {
+    pub(crate) op: &'a S,
+    pub(crate) fixed: Option<&'a FixedCells>,
+    pub(crate) nx: usize,
+    pub(crate) ny: usize,
+}
+
+impl<T: Scalar, S: Stencil5<T> + ?Sized> Rows<T> for FineRows<'_, S> {
+    fn grid(&self) -> Grid {
+        self.op.grid()
+    }
+    #[inline]
+    fn row(&self, i: usize, j: usize, _k: usize) -> Coeffs5<T> {
+        eliminated_row(self.op, self.fixed, self.nx, self.ny, i, j)
+    }
+    #[inline]
+    fn active(&self, k: usize) -> bool {
+        !self.fixed.is_some_and(|f| f.contains(k))
+    }
+}
+
+/// A coarse 5-point operator, stored as five arrays, with its active-cell mask.
+#[derive(Clone, Debug)]
+pub(crate) struct LevelOperator<T> {
+    pub(crate) grid: Grid,
+    pub(crate) rows: Vec<Coeffs5<T>>,
+    pub(crate) active: Vec<bool>,
+}
+
+impl<T: Scalar> Rows<T> for LevelOperator<T> {
+    fn grid(&self) -> Grid {
+        self.grid
+    }
+    #[inline]
+    fn row(&self, _i: usize, _j: usize, k: usize) -> Coeffs5<T> {
+        self.rows[k]
+    }
+    #[inline]
+    fn active(&self, k: usize) -> bool {
+        self.active[k]
+    }
+}
+
+/// Coarse-cell geometry along one axis: fine index → parent and neighbour aggregates.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct Axis {
+    pub(crate) n: usize,
+}
+
+impl Axis {
+    /// The aggregate fine cell `i` belongs to.
+    #[inline]
+    pub(crate) fn parent(&self, i: usize) -> usize {
+        i / 2
+    }
+
+    /// The aggregate fine cell `i` interpolates from besides its own: the left cell of a pair
+    /// looks towards the previous aggregate, the right one towards the next; a 1-wide
+    /// aggregate (last cell of an odd axis) and the cells at the ends have none (the parent
+    /// is returned).
+    #[inline]
+    pub(crate) fn neighbour(&self, i: usize) -> usize {
+        let p = i / 2;
+        let paired = 2 * p + 1 < self.n;
+        if !paired {
+            p
+        } else if i % 2 == 0 {
+            p.saturating_sub(1)
+        } else if p + 1 < self.n.div_ceil(2) {
+            p + 1
+        } else {
+            p
+        }
+    }
+}
+
+/// Own and neighbour weights of a stored interpolation weight: `w ≥ 0` is the share of the
+/// neighbouring aggregate; `w < 0` means the outward side is a zero-valued ghost (a grid edge or
+/// fixed cells) with share `|w|`, so the cell keeps `1 − |w|` of its own aggregate and nothing
+/// else.
+#[inline]
+pub(crate) fn split<T: Scalar>(w: T) -> (T, T) {
+    if w < T::zero() {
+        (T::one() + w, T::zero())
+    } else {
+        (T::one() - w, w)
+    }
+}
+
+/// The share of a cell's own aggregate among the aggregates it interpolates from.
+#[inline]
+fn own_share<T: Scalar>(w: T) -> T {
+    let (own, nb) = split(w);
+    ratio(own, own + nb)
+}
+
+/// Conductance of a coupling (zero for a non-negative one: only diffusion couplings count).
+#[inline]
+fn conductance<T: Scalar>(coupling: T) -> T {
+    if coupling < T::zero() {
+        -coupling
+    } else {
+        T::zero()
+    }
+}
+
+/// The path from one coarse centre to the next along a line of fine cells: half-cell
+/// conductance `g1` (None: the fine cell is the coarse centre), face conductance `gf`, half-cell
+/// conductance `g2` on the far side. Returns the share `w` of the far centre in the
+/// linear (flux-continuous) profile at the near fine cell, and the series conductance `G` of
+/// the whole path.
+#[inline]
+fn series<T: Scalar>(g1: Option<T>, gf: T, g2: Option<T>) -> (T, T) {
+    let zero = T::zero();
+    match (g1, g2) {
+        (None, None) => (zero, gf),
+        (None, Some(b)) => (zero, ratio(gf * b, gf + b)),
+        (Some(a), None) => (ratio(gf, gf + a), ratio(a * gf, a + gf)),
+        (Some(a), Some(b)) => {
+            let den = gf * b + a * b + a * gf;
+            (ratio(gf * b, den), ratio(a * gf * b, den))
+        }
+    }
+}
+
+/// `num / den`, zero when `den` is not positive.
+#[inline]
+fn ratio<T: Scalar>(num: T, den: T) -> T {
+    if den > T::zero() {
+        num / den
+    } else {
+        T::zero()
+    }
+}
+
+/// A coarse level: operator, transfers from the next finer grid, and its vectors.
+#[derive(Clone, Debug)]
+pub(crate) struct Level<T> {
+    pub(crate) op: LevelOperator<T>,
+    ax: Axis,
+    ay: Axis,
+    /// Per fine cell: weight of the neighbouring aggregate in the east-west direction (kept
+    /// in `f32`, which is ample for a weight in [0, 1] and halves the storage in `f64`).
+    wx: Vec<f32>,
+    /// Per fine cell: weight of the neighbouring aggregate in the south-north direction.
+    wy: Vec<f32>,
+    /// Correction being computed on this level.
+    pub(crate) x: Vec<T>,
+    /// Restricted residual (right-hand side of this level).
+    pub(crate) b: Vec<T>,
+    /// Residual scratch.
+    pub(crate) r: Vec<T>,
+}
+
+impl<T: Scalar> Level<T> {
+    /// The level below `fine` (see the module notes).
+    ///
+    /// # Errors
+    ///
+    /// [`Error::PivotBreakdown`] naming the first fine cell of an aggregate whose coarse center
+    /// comes out non-positive or not finite.
+    pub(crate) fn below<R: Rows<T>>(fine: &R, rule: CoarseOperator) -> Result<Level<T>, Error> {
+        let g = fine.grid();
+        let (nx, ny, n) = (g.nx(), g.ny(), g.cells());
+        let (ncx, ncy) = (nx.div_ceil(2), ny.div_ceil(2));
+        let grid = Grid::new(ncx, ncy)?;
+        let nc = grid.cells();
+        let (ax, ay) = (Axis { n: nx }, Axis { n: ny });
+        let two: T = lit(2.0);
+        let half: T = lit(0.5);
+        // Conductances towards east and north, and row-sum excess, of every fine cell.
+        let mut east = vec![T::zero(); n];
+        let mut north = vec![T::zero(); n];
+        let mut excess = vec![T::zero(); n];
+        for j in 0..ny {
+            for i in 0..nx {
+                let k = i + nx * j;
+                if !fine.active(k) {
+                    continue;
+                }
+                let c = fine.row(i, j, k);
+                east[k] = conductance(c.east);
+                north[k] = conductance(c.north);
+                let sum = c.center + c.west + c.east + c.south + c.north;
+                excess[k] = if sum > T::zero() { sum } else { T::zero() };
+            }
+        }
+        // Half-cell conductance from a fine cell to its aggregate's centre along x (None: the
+        // aggregate is one active cell wide there, so the cell is the centre).
+        let half_x = |i: usize, j: usize| -> Option<T> {
+            let k = i + nx * j;
+            let sib = if i % 2 == 0 { i + 1 } else { i - 1 };
+            if sib >= nx || !fine.active(sib + nx * j) {
+                return None;
+            }
+            Some(two * east[k.min(sib + nx * j)])
+        };
+        let half_y = |i: usize, j: usize| -> Option<T> {
+            let k = i + nx * j;
+            let sib = if j % 2 == 0 { j + 1 } else { j - 1 };
+            if sib >= ny || !fine.active(i + nx * sib) {
+                return None;
+            }
+            Some(two * north[k.min(i + nx * sib)])
+        };
+        let zero = Coeffs5 {
+            center: T::zero(),
+            west: T::zero(),
+            east: T::zero(),
+            south: T::zero(),
+            north: T::zero(),
+        };
+        let mut rows = vec![zero; nc];
+        let mut active = vec![false; nc];
+        let mut wx = vec![T::zero(); n];
+        let mut wy = vec![T::zero(); n];
+        let narrow =
+            |w: &[T]| -> Vec<f32> { w.iter().map(|v| v.to_f32().unwrap_or(0.0)).collect() };
+        // Pass 1: interpolation weights towards the neighbouring aggregates.
+        for j in 0..ny {
+            for i in 0..nx {
+                let k = i + nx * j;
+                if !fine.active(k) {
+                    continue;
+                }
+                let (ci, cj) = (ax.parent(i), ay.parent(j));
+                active[ci + ncx * cj] = true;
+                // Missing or fixed neighbours of this cell: its row-sum excess is shared among
+                // them as the conductance to a zero-valued ghost beyond each.
+                let missing = [
+                    i == 0 || !fine.active(k - 1),
+                    i + 1 == nx || !fine.active(k + 1),
+                    j == 0 || !fine.active(k - nx),
+                    j + 1 == ny || !fine.active(k + nx),
+                ];
+                let m = missing.iter().filter(|&&b| b).count();
+                let ghost = if m > 0 {
+                    excess[k] / T::from(m).unwrap_or_else(T::one)
+                } else {
+                    T::zero()
+                };
+                if 2 * ci + 1 < nx {
+                    // Paired in x: interpolate towards the outward side.
+                    let (out_missing, face, far) = if i % 2 == 1 {
+                        (
+                            missing[1],
+                            if i + 1 < nx { east[k] } else { T::zero() },
+                            i + 1,
+                        )
+                    } else {
+                        (
+                            missing[0],
+                            if i > 0 { east[k - 1] } else { T::zero() },
+                            i.wrapping_sub(1),
+                        )
+                    };
+                    wx[k] = if out_missing {
+                        -series(half_x(i, j), ghost, None).0
+                    } else if ax.neighbour(i) != ci {
+                        series(half_x(i, j), face, half_x(far, j)).0
+                    } else {
+                        T::zero()
+                    };
+                }
+                if 2 * cj + 1 < ny {
+                    let (out_missing, face, far) = if j % 2 == 1 {
+                        (
+                            missing[3],
+                            if j + 1 < ny { north[k] } else { T::zero() },
+                            j + 1,
+                        )
+                    } else {
+                        (
+                            missing[2],
+                            if j > 0 { north[k - nx] } else { T::zero() },
+                            j.wrapping_sub(1),
+                        )
+                    };
+                    wy[k] = if out_missing {
+                        -series(half_y(i, j), ghost, None).0
+                    } else if ay.neighbour(j) != cj {
+                        series(half_y(i, j), face, half_y(i, far)).0
+                    } else {
+                        T::zero()
+                    };
+                }
+            }
+        }
+        // Pass 2: coarse couplings and centers. Each fine line's series conductance across a
+        // coarse face goes to the coarse lines that interpolate that fine line, in the
+        // proportions of the interpolation (a lumped Galerkin product in the cross direction),
+        // so the coarse operator sees the energy of the interpolated corrections.
+        let on = |kc: usize, fallback: usize| if active[kc] { kc } else { fallback };
+        for j in 0..ny {
+            for i in 0..nx {
+                let k = i + nx * j;
+                if !fine.active(k) {
+                    continue;
+                }
+                let (ci, cj) = (ax.parent(i), ay.parent(j));
+                let kc = ci + ncx * cj;
+                let (gx, gy) = (half_x(i, j), half_y(i, j));
+                if i + 1 < nx && ax.parent(i + 1) != ci {
+                    let t = series(gx, east[k], half_x(i + 1, j)).1;
+                    let own = half * (own_share(wy[k]) + own_share(wy[k + 1]));
+                    let qj = ay.neighbour(j);
+                    let (a, b) = (on(ci + ncx * qj, kc), on(ci + 1 + ncx * qj, kc + 1));
+                    let (a, b) = if a == kc || b == kc + 1 {
+                        (kc, kc + 1)
+                    } else {
+                        (a, b)
+                    };
+                    for (l, r, share) in [(kc, kc + 1, own), (a, b, T::one() - own)] {
+                        rows[l].east = rows[l].east - t * share;
+                        rows[r].west = rows[r].west - t * share;
+                    }
+                }
+                if j + 1 < ny && ay.parent(j + 1) != cj {
+                    let t = series(gy, north[k], half_y(i, j + 1)).1;
+                    let own = half * (own_share(wx[k]) + own_share(wx[k + nx]));
+                    let qi = ax.neighbour(i);
+                    let up = kc + ncx;
+                    let (a, b) = (on(qi + ncx * cj, kc), on(qi + ncx * (cj + 1), up));
+                    let (a, b) = if a == kc || b == up { (kc, up) } else { (a, b) };
+                    for (l, r, share) in [(kc, up, own), (a, b, T::one() - own)] {
+                        rows[l].north = rows[l].north - t * share;
+                        rows[r].south = rows[r].south - t * share;
+                    }
+                }
+                // Row-sum excess (storage, fixed neighbours), reached from the coarse centre
+                // through the mean half-cell resistance, spread like the interpolation.
+                let e = excess[k];
+                if e > T::zero() {
+                    let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
+                    let r = resist(gx).min(resist(gy));
+                    let contribution = ratio(e, T::one() + e * r);
+                    let (pi, qi, pj, qj) = (ci, ax.neighbour(i), cj, ay.neighbour(j));
+                    let (wxk, wyk) = (T::one() - own_share(wx[k]), T::one() - own_share(wy[k]));
+                    let (ux, uy) = (T::one() - wxk, T::one() - wyk);
+                    for (target, w) in [
+                        (pi + ncx * pj, ux * uy),
+                        (qi + ncx * pj, wxk * uy),
+                        (pi + ncx * qj, ux * wyk),
+                        (qi + ncx * qj, wxk * wyk),
+                    ] {
+                        let t = on(target, kc);
+                        rows[t].center = rows[t].center + w * contribution;
+                    }
+                }
+            }
+        }
+        let galerkin = rule == CoarseOperator::LumpedGalerkin;
+        if galerkin {
+            rows = galerkin_lumped(fine, &ax, &ay, &wx, &wy, grid, &active);
+        }
+        for (kc, (row, on)) in rows.iter_mut().zip(active.iter_mut()).enumerate() {
+            if !*on {
+                *row = Coeffs5::identity();
+                continue;
+            }
+            let couplings = row.west + row.east + row.south + row.north;
+            if !galerkin {
+                row.center = row.center - couplings;
+            }
+            if row.center == T::zero() && couplings == T::zero() {
+                // Every fine cell of the aggregate follows a neighbouring aggregate (their
+                // internal couplings are zero) and nothing interpolates from this one: it
+                // carries no unknown.
+                *row = Coeffs5::identity();
+                *on = false;
+                continue;
+            }
+            if !(row.center.is_finite() && row.center > T::zero()) {
+                let (ci, cj) = grid.coords(kc);
+                return Err(Error::PivotBreakdown {
+                    cell: g.index(2 * ci, 2 * cj),
+                    value: crate::to_f64(row.center),
+                });
+            }
+        }
+        Ok(Level {
+            op: LevelOperator { grid, rows, active },
+            ax,
+            ay,
+            wx: narrow(&wx),
+            wy: narrow(&wy),
+            x: vec![T::zero(); nc],
+            b: vec![T::zero(); nc],
+            r: vec![T::zero(); nc],
+        })
+    }
+
+    /// Prolongation weights of fine cell `(i, j)`: coarse indices and weights of the four
+    /// coarse cells it interpolates from.
+    #[inline]
+    fn stencil(&self, i: usize, j: usize, k: usize) -> [(usize, T); 4] {
+        let ncx = self.op.grid.nx();
+        let (pi, qi, pj, qj) = (
+            self.ax.parent(i),
+            self.ax.neighbour(i),
+            self.ay.parent(j),
+            self.ay.neighbour(j),
+        );
+        let ((ux, wx), (uy, wy)) = (
+            split::<T>(lit(f64::from(self.wx[k]))),
+            split::<T>(lit(f64::from(self.wy[k]))),
+        );
+        [
+            (pi + ncx * pj, ux * uy),
+            (qi + ncx * pj, wx * uy),
+            (pi + ncx * qj, ux * wy),
+            (qi + ncx * qj, wx * wy),
+        ]
+    }
+
+    /// `self.b = Pᵀ·r_fine` (inactive fine cells left out).
+    pub(crate) fn restrict<R: Rows<T>>(&mut self, fine: &R, r_fine: &[T]) {
+        let nx = fine.grid().nx();
+        let mut b = std::mem::take(&mut self.b);
+        b.iter_mut().for_each(|v| *v = T::zero());
+        for (j, row) in r_fine.chunks_exact(nx).enumerate() {
+            for (i, &r) in row.iter().enumerate() {
+                let k = i + nx * j;
+                if !fine.active(k) {
+                    continue;
+                }
+                for (kc, w) in self.stencil(i, j, k) {
+                    b[kc] = b[kc] + w * r;
+                }
+            }
+        }
+        self.b = b;
+    }
+
+    /// `x_fine += P·self.x` (inactive fine cells left out).
+    pub(crate) fn prolong_add<R: Rows<T>>(&self, fine: &R, x_fine: &mut [T]) {
+        let nx = fine.grid().nx();
+        let x = &self.x;
+        for (j, row) in x_fine.chunks_exact_mut(nx).enumerate() {
+            for (i, v) in row.iter_mut().enumerate() {
+                let k = i + nx * j;
+                if !fine.active(k) {
+                    continue;
+                }
+                let mut e = T::zero();
+                for (kc, w) in self.stencil(i, j, k) {
+                    e = e + w * x[kc];
+                }
+                *v = *v + e;
+            }
+        }
+    }
+
+    /// Bytes held: five coefficients, three vectors and the mask per coarse cell, and two
+    /// interpolation weights per fine cell.
+    pub(crate) fn bytes(&self) -> usize {
+        let t = std::mem::size_of::<T>();
+        let n = self.op.grid.cells();
+        n * (8 * t + 1) + (self.wx.len() + self.wy.len()) * std::mem::size_of::<f32>()
+    }
+}
