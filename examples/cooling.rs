@@ -18,8 +18,9 @@ use indicatif::{ProgressBar, ProgressStyle};
 use plotters::prelude::SeriesLabelPosition;
 use quintet::model::{Conductivity, FlowKind, Geometry, Model, Stepper, Storage, TimeScheme};
 use quintet::prelude::*;
+use support::chart::{Curve, Legend, LineChart};
 use support::contour::{decimals_for, round_levels};
-use support::picture::{finite_range, Curve, LineChart, Map};
+use support::picture::{finite_range, Map};
 use support::{ramp, Failure, Options};
 
 const HELP: &str = "\
@@ -187,9 +188,10 @@ fn body() -> Result<(), Failure> {
         y_label: "temperature [°C]".into(),
         x_range: (0.0, run.time() / 60.0),
         y_range: (0.0, START * 1.05),
+        log_x: false,
         log_y: false,
         height: 500,
-        legend: SeriesLabelPosition::UpperRight,
+        legend: Legend::Inside(SeriesLabelPosition::UpperRight),
         curves: probes
             .iter()
             .zip(history)

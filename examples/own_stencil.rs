@@ -16,8 +16,9 @@ mod support;
 
 use plotters::prelude::SeriesLabelPosition;
 use quintet::prelude::*;
+use support::chart::{decades, Curve, Legend, LineChart};
 use support::contour::{decimals_for, round_levels};
-use support::picture::{boxed_label, Curve, LineChart, Map};
+use support::picture::{boxed_label, Map};
 use support::{ramp, Failure, Options};
 
 const HELP: &str = "\
@@ -244,10 +245,11 @@ fn body() -> Result<(), Failure> {
         x_label: "iteration".into(),
         y_label: "relative residual / largest change [K]".into(),
         x_range: (0.0, last),
-        y_range: support::picture::decades(&curves),
+        y_range: decades(&curves),
+        log_x: false,
         log_y: true,
         height: 520,
-        legend: SeriesLabelPosition::UpperRight,
+        legend: Legend::Inside(SeriesLabelPosition::UpperRight),
         curves,
     }
     .draw(&convergence)?;

@@ -22,10 +22,9 @@ mod support;
 
 use std::time::Instant;
 
-use plotters::prelude::SeriesLabelPosition;
 use quintet::model::{Conductivity, Field, Geometry, Model};
 use quintet::prelude::*;
-use support::picture::{decades, Curve, LineChart};
+use support::chart::{decades, Curve, Legend, LineChart};
 use support::{Failure, Options};
 
 const HELP: &str = "\
@@ -48,11 +47,13 @@ struct Problem {
     start: Vec<f64>,
 }
 
-/// One solve: the method, its report (or the report inside its error), and the setup time.
+/// One solve: its report (or the report inside its error), the setup time, a note, and
+/// whether its history counts iterations (mixed precision's counts outer steps).
 struct Row {
     report: Report,
     setup: f64,
     note: String,
+    plotted: bool,
 }
 
 fn main() {
@@ -89,7 +90,8 @@ fn body() -> Result<(), Failure> {
         .max_iterations(cap);
     let mut rows = Vec::new();
 
-    // Krylov drivers.
+    // Conjugate gradients, plain and with every preconditioner. Setup times include building
+    // the preconditioner (and, for SSOR, estimating the Jacobi radius its ω comes from).
     rows.push(run(
         &mut SteepestDescent::new(capped.clone()),
         0.0,
@@ -102,20 +104,57 @@ fn body() -> Result<(), Failure> {
         &problem,
         &mut ws,
     )?);
-    let t = Instant::now();
-    let jacobi = Jacobi::new(op)?;
-    let setup = t.elapsed().as_secs_f64();
+    let (jacobi, setup) = timed(|| Jacobi::new(op))?;
     rows.push(run(
         &mut Pcg::new(jacobi).with_options(converge.clone()),
         setup,
         &problem,
         &mut ws,
     )?);
+    let (estimate, omega_setup) = timed(|| estimate_relaxation(op, 80))?;
+    // SSOR's ω from the Jacobi radius ρ: 2/(1 + √(2(1 − ρ))), which is 2/(1 + πh) on the
+    // model problem (the rule `Ssor`'s documentation gives, with its measurements).
+    let ssor_omega = 2.0 / (1.0 + (2.0 * (1.0 - estimate.jacobi_radius)).sqrt());
+    let (ssor, setup) = timed(|| Ssor::new(op, ssor_omega))?;
+    let mut row = run(
+        &mut Pcg::new(ssor).with_options(converge.clone()),
+        setup + omega_setup,
+        &problem,
+        &mut ws,
+    )?;
+    row.note = format!("omega = {ssor_omega:.4}");
+    rows.push(row);
+    let (ic0, setup) = timed(|| IncompleteCholesky::ic0(op))?;
+    rows.push(run(
+        &mut Pcg::new(ic0).with_options(converge.clone()),
+        setup,
+        &problem,
+        &mut ws,
+    )?);
+    let (mic0, setup) = timed(|| IncompleteCholesky::mic0(op))?;
+    rows.push(run(
+        &mut Pcg::new(mic0).with_options(converge.clone()),
+        setup,
+        &problem,
+        &mut ws,
+    )?);
+    let (sip, setup) = timed(|| Sip::new(op, SipSettings::default()))?;
+    rows.push(run(
+        &mut Pcg::new(sip).with_options(converge.clone()),
+        setup,
+        &problem,
+        &mut ws,
+    )?);
+    let (mg, setup) = timed(|| Multigrid::new(op, MultigridSettings::default()))?;
+    rows.push(run(
+        &mut Pcg::new(mg).with_options(converge.clone()),
+        setup,
+        &problem,
+        &mut ws,
+    )?);
 
-    // Stationary sweeps: Gauss–Seidel, and SOR with ω from the estimated Jacobi radius.
-    let t = Instant::now();
-    let estimate = estimate_relaxation(op, 80)?;
-    let omega_setup = t.elapsed().as_secs_f64();
+    // Stationary iterations: Gauss–Seidel, SOR with ω from the estimated Jacobi radius,
+    // Stone's SIP and the multigrid V-cycle on their own.
     for order in [SweepOrder::Lexicographic, SweepOrder::RedBlack] {
         let mut gs = Sor::gauss_seidel()
             .ordering(order)
@@ -130,6 +169,20 @@ fn body() -> Result<(), Failure> {
         row.note = format!("omega estimated from {} Lanczos steps", estimate.steps);
         rows.push(row);
     }
+    let (sip, setup) = timed(|| Sip::new(op, SipSettings::default()))?;
+    rows.push(run(
+        &mut sip.with_options(capped.clone()),
+        setup,
+        &problem,
+        &mut ws,
+    )?);
+    let (mg, setup) = timed(|| Multigrid::new(op, MultigridSettings::default()))?;
+    rows.push(run(
+        &mut mg.with_options(capped.clone()),
+        setup,
+        &problem,
+        &mut ws,
+    )?);
 
     // Mixed precision: f32 PCG + Jacobi inner solves, f64 outer residuals (outer steps). An
     // f32 residual cannot fall much below eps_f32·κ ≈ 6e-8 · 1e4 of the rhs on these grids,
@@ -145,11 +198,26 @@ fn body() -> Result<(), Failure> {
         .max_iterations(100);
     let setup = t.elapsed().as_secs_f64();
     let mut row = run(&mut mixed, setup, &problem, &mut ws)?;
+    row.plotted = false;
     row.note = format!(
         "outer steps; {} inner f32 iterations",
         mixed.inner_iterations()
     );
     rows.push(row);
+
+    // PCG with a constant diagonal is CG: say so when the two histories agree.
+    if let [_, cg, jacobi, ..] = &mut rows[..] {
+        let same = cg.report.history.len() == jacobi.report.history.len()
+            && cg
+                .report
+                .history
+                .iter()
+                .zip(&jacobi.report.history)
+                .all(|(a, b)| (a - b).abs() <= 1e-12 * a.abs().max(b.abs()));
+        if same {
+            jacobi.note = "same residual history as CG".to_string();
+        }
+    }
 
     println!();
     println!(
@@ -178,17 +246,18 @@ fn body() -> Result<(), Failure> {
         );
     }
 
-    // The picture: relative residual against iteration. The x axis ends a little past the
-    // slowest method that converged; the capped ones run off its right edge.
+    // The picture: relative residual against iteration, both axes logarithmic so that six
+    // iterations and four thousand fit on one chart (iteration 0, the start, is left out).
     let curves: Vec<Curve> = rows
         .iter()
-        .filter(|row| !row.note.starts_with("outer steps"))
+        .filter(|row| row.plotted)
         .map(|row| {
             let r = &row.report;
-            let label = if r.converged() {
-                format!("{} ({})", r.method, r.iterations)
-            } else {
-                format!("{} (stopped at {})", r.method, r.iterations)
+            let label = match r.reason {
+                _ if r.converged() => format!("{} ({})", r.method, r.iterations),
+                StopReason::IterationLimit => format!("{} (limit {})", r.method, r.iterations),
+                StopReason::Breakdown => format!("{} (breakdown at {})", r.method, r.iterations),
+                _ => format!("{} (stopped at {})", r.method, r.iterations),
             };
             Curve {
                 label,
@@ -196,32 +265,41 @@ fn body() -> Result<(), Failure> {
                     .history
                     .iter()
                     .enumerate()
+                    .skip(1)
                     .map(|(n, h)| (n as f64, h / r.rhs_norm))
                     .collect(),
             }
         })
         .collect();
-    let last = rows
+    let most = rows
         .iter()
-        .filter(|row| row.report.converged() && !row.note.starts_with("outer steps"))
         .map(|row| row.report.iterations)
         .max()
-        .unwrap_or(cap);
+        .unwrap_or(cap)
+        .max(10);
     let path = out.join("convergence.png");
     LineChart {
         title: format!("Convergence on the {title}, {grid}"),
         x_label: "iteration".into(),
         y_label: "relative residual |r|/|b|".into(),
-        x_range: (0.0, (1.25 * last as f64).max(10.0)),
+        x_range: (1.0, 10f64.powf((most as f64).log10().ceil())),
         y_range: decades(&curves),
+        log_x: true,
         log_y: true,
-        height: 560,
-        legend: SeriesLabelPosition::UpperRight,
+        height: 520,
+        legend: Legend::Below(2),
         curves,
     }
     .draw(&path)?;
     println!("\npicture: {}", path.display());
     Ok(())
+}
+
+/// Build something and time it.
+fn timed<T>(build: impl FnOnce() -> Result<T, Error>) -> Result<(T, f64), Failure> {
+    let t = Instant::now();
+    let built = build()?;
+    Ok((built, t.elapsed().as_secs_f64()))
 }
 
 /// Solve from the problem's start. A solve that does not converge still gives its report;
@@ -233,17 +311,29 @@ fn run(
     ws: &mut Workspace<f64>,
 ) -> Result<Row, Failure> {
     let mut x = problem.start.clone();
-    let report = match solver.solve_with(&problem.op, &problem.rhs, &mut x, ws) {
-        Ok(report) => report,
-        Err(e) => match e.report() {
-            Some(report) => report.clone(),
-            None => return Err(e.into()),
-        },
+    let (report, note) = match solver.solve_with(&problem.op, &problem.rhs, &mut x, ws) {
+        Ok(report) => (report, String::new()),
+        Err(e) => {
+            let note = match &e {
+                Error::PreconditionerNotPositive { value, .. } => {
+                    format!("the preconditioner is not positive definite here (r·z = {value:.2e})")
+                }
+                Error::NotPositiveDefinite { curvature, .. } => {
+                    format!("the operator is not positive definite (p·Ap = {curvature:.2e})")
+                }
+                _ => String::new(),
+            };
+            match e.report() {
+                Some(report) => (report.clone(), note),
+                None => return Err(e.into()),
+            }
+        }
     };
     Ok(Row {
         report,
         setup,
-        note: String::new(),
+        note,
+        plotted: true,
     })
 }
 

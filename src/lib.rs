@@ -47,19 +47,23 @@
 //!
 //! | symmetric? | coefficient contrast | cells | use | why |
 //! |---|---|---|---|---|
-//! | yes | any | up to 10⁴ | [`Cg`] or [`Pcg`] + [`Jacobi`] | a few hundred iterations at most; no setup worth tuning |
-//! | yes | small (up to about 10) | 10⁴–10⁷ | [`Pcg`] + [`Jacobi`] | iterations grow like the grid's side length `1/h` |
-//! | yes | large (10² and up: clay in sand, copper beside air gaps) | 10⁴–10⁷ | [`Pcg`] + [`Jacobi`] | Jacobi scales each row by its diagonal, so the contrast costs far less than it costs plain CG (figures below) |
-//! | yes | any | 10⁶ and up, when memory bandwidth limits | try [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy; measure before relying on the gain |
-//! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`] with [`estimate_relaxation`] | runs with positive centers; converges for ω ≤ 1 on diagonally dominant rows (larger ω is usually faster: check the report); red-black ordering parallelises |
+//! | yes | any | up to 10⁴ | [`Pcg`] + [`Jacobi`], or [`Cg`] | a few hundred iterations at most; nothing to set up or tune |
+//! | yes | any | 10⁴–10⁶ | [`Pcg`] + [`IncompleteCholesky::mic0`] | about 55 iterations at 128² whether the coefficients jump or not; three arrays of storage; iterations grow like `h^{-1/2}` |
+//! | yes | large (10² and up: clay in sand, copper beside an air gap) | 10⁵–10⁷ | [`Pcg`] + [`Multigrid`] | 6–7 iterations at 128², and a count that does not grow with the grid (6 on Poisson at every size to 2048², 13–20 on a contrast-10⁴ field, see [`Multigrid`]) |
+//! | yes | small (up to about 10) | 10⁴–10⁷ | [`Pcg`] + [`Ssor`] (ω from the Jacobi radius that [`estimate_relaxation`] finds) or [`IncompleteCholesky::ic0`] | cheap setup; SSOR's count grows like `h^{-1/2}`, IC(0)'s like `h⁻¹` at a third of CG's |
+//! | yes | any | any, memory very tight | [`Pcg`] + [`Jacobi`] | one extra array; the diagonal scaling absorbs much of the contrast (554 iterations against plain CG's 3 960 at contrast 10⁴) |
+//! | yes | any | 10⁶ and up, bandwidth-bound | try [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy; measure before relying on the gain |
+//! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`] with [`estimate_relaxation`], or [`Sip`] on its own | both need positive centers only; SOR converges for ω ≤ 1 on diagonally dominant rows (larger ω is usually faster: check the report); red-black SOR parallelises |
+//! | yes | small only | any | [`Pcg`] + [`Sip`] | the symmetrised Stone factor; at contrast 10⁴ it is not positive definite and PCG stops with [`Error::PreconditionerNotPositive`] |
 //! | either | — | — | [`Sor::gauss_seidel`] | a smoother, not a solver: iterations grow like `1/h²` |
 //! | yes | — | small | [`SteepestDescent`] | teaching and baselines; iterations grow like `1/h²` |
 //!
 //! Measured with `cargo run --release --example solver_comparison` on 128 × 128 cells, to a
-//! relative residual of 10⁻⁸: on the Poisson model problem CG and PCG + Jacobi take 237
-//! iterations, SOR with the estimated ω about 500, Gauss–Seidel about 30 000 and steepest
-//! descent 61 442; on an aquifer with clay blocks (contrast 10⁴) CG needs 3 960 iterations,
-//! PCG + Jacobi 554 and SOR about 530, while Gauss–Seidel and steepest descent stall.
+//! relative residual of 10⁻⁸ from the same start (`--problem poisson` / the default
+//! `lenses`, an aquifer with clay blocks at contrast 10⁴): CG 237 / 3 960 iterations, PCG with
+//! Jacobi 237 / 554, SSOR 49 / 128, IC(0) 99 / 165, MIC(0) 54 / 56, multigrid 6 / 7, SOR with
+//! the estimated ω about 500 / 530, standalone SIP 1 643 / 1 525; Gauss–Seidel needs about
+//! 30 000 / 28 000 and steepest descent 61 442 / more than 200 000.
 //!
 //! ## Stopping rules
 //!

@@ -4,6 +4,7 @@
 //! Each example uses only part of this module, so unused items are allowed here.
 #![allow(dead_code)]
 
+pub mod chart;
 pub mod contour;
 pub mod font;
 pub mod picture;

@@ -1,5 +1,5 @@
-//! PNG pictures through plotters' bitmap backend: a field map (one coloured rectangle per
-//! cell, labelled isolines, a colour scale) and line charts with a legend.
+//! Field maps as PNG through plotters' bitmap backend: one coloured rectangle per cell,
+//! labelled isolines, a colour scale, and whatever the caller overlays.
 
 use std::path::Path;
 
@@ -208,26 +208,6 @@ pub fn boxed_label(
     Ok(())
 }
 
-/// Whole decades around the positive values of `curves`, for a logarithmic axis.
-pub fn decades(curves: &[Curve]) -> (f64, f64) {
-    let values = || {
-        curves
-            .iter()
-            .flat_map(|c| c.points.iter().map(|p| p.1))
-            .filter(|v| v.is_finite() && *v > 0.0)
-    };
-    let lo = values().fold(f64::INFINITY, f64::min);
-    let hi = values().fold(0.0, f64::max);
-    if lo.is_finite() && hi > 0.0 {
-        (
-            10f64.powf(lo.log10().floor()),
-            10f64.powf(hi.log10().ceil()),
-        )
-    } else {
-        (1e-10, 1.0)
-    }
-}
-
 /// A tick label for `v` on an axis spanning `span`: as few decimals as the span allows.
 pub fn tick(v: f64, span: f64) -> String {
     let decimals = (-(span / 10.0).log10().floor()).max(0.0) as usize;
@@ -266,137 +246,4 @@ fn midpoint(line: &[(f64, f64)], min_len: f64) -> Option<(f64, f64)> {
         walked += s;
     }
     None
-}
-
-/// Line colours for charts, told apart by hue and lightness.
-const LINE_COLOURS: [RGBColor; 8] = [
-    RGBColor(20, 20, 20),
-    RGBColor(200, 60, 30),
-    RGBColor(30, 100, 190),
-    RGBColor(40, 150, 70),
-    RGBColor(150, 60, 170),
-    RGBColor(220, 150, 20),
-    RGBColor(0, 160, 170),
-    RGBColor(140, 90, 50),
-];
-
-/// One line of a chart.
-pub struct Curve {
-    /// Legend text.
-    pub label: String,
-    /// The points, in chart units.
-    pub points: Vec<(f64, f64)>,
-}
-
-/// A line chart with a legend.
-pub struct LineChart {
-    /// Title above the chart.
-    pub title: String,
-    /// Axis labels, with units.
-    pub x_label: String,
-    /// Axis labels, with units.
-    pub y_label: String,
-    /// Range of the x axis.
-    pub x_range: (f64, f64),
-    /// Range of the y axis (both ends positive for a logarithmic axis).
-    pub y_range: (f64, f64),
-    /// A logarithmic y axis.
-    pub log_y: bool,
-    /// Picture height in pixels.
-    pub height: u32,
-    /// Where the legend goes.
-    pub legend: SeriesLabelPosition,
-    /// The lines.
-    pub curves: Vec<Curve>,
-}
-
-impl LineChart {
-    /// Draw to `path`.
-    ///
-    /// # Errors
-    ///
-    /// Drawing or file errors.
-    pub fn draw(&self, path: &Path) -> Result<(), Failure> {
-        let root = BitMapBackend::new(path, (WIDTH, self.height)).into_drawing_area();
-        root.fill(&WHITE)?;
-        let mut builder = ChartBuilder::on(&root);
-        builder
-            .caption(&self.title, text(19))
-            .margin(14)
-            .x_label_area_size(50)
-            .y_label_area_size(80);
-        let (x0, x1) = self.x_range;
-        let (y0, y1) = self.y_range;
-        let x_ticks = |v: &f64| tick(*v, x1 - x0);
-        if self.log_y {
-            let mut chart = builder.build_cartesian_2d(x0..x1, (y0..y1).log_scale())?;
-            chart
-                .configure_mesh()
-                .x_desc(&self.x_label)
-                .x_label_formatter(&x_ticks)
-                .y_desc(&self.y_label)
-                .y_label_formatter(&|v| format!("{v:.0e}"))
-                .label_style(text(15))
-                .axis_desc_style(text(16))
-                .light_line_style(WHITE.mix(0.0))
-                .draw()?;
-            self.draw_curves(&mut chart)?;
-        } else {
-            let mut chart = builder.build_cartesian_2d(x0..x1, y0..y1)?;
-            let y_ticks = |v: &f64| tick(*v, y1 - y0);
-            chart
-                .configure_mesh()
-                .x_desc(&self.x_label)
-                .x_label_formatter(&x_ticks)
-                .y_label_formatter(&y_ticks)
-                .y_desc(&self.y_label)
-                .label_style(text(15))
-                .axis_desc_style(text(16))
-                .light_line_style(WHITE.mix(0.0))
-                .draw()?;
-            self.draw_curves(&mut chart)?;
-        }
-        root.present()?;
-        Ok(())
-    }
-
-    fn draw_curves<'b, Y>(
-        &self,
-        chart: &mut ChartContext<'b, BitMapBackend<'b>, Cartesian2d<RangedCoordf64, Y>>,
-    ) -> Result<(), Failure>
-    where
-        Y: Ranged<ValueType = f64>,
-    {
-        for (n, curve) in self.curves.iter().enumerate() {
-            let colour = LINE_COLOURS[n % LINE_COLOURS.len()];
-            let style = colour.stroke_width(2);
-            let series = if n < LINE_COLOURS.len() {
-                chart.draw_series(LineSeries::new(curve.points.iter().copied(), style))?
-            } else {
-                // Past the palette: the same colours again, dashed.
-                chart.draw_series(DashedLineSeries::new(
-                    curve.points.iter().copied(),
-                    8,
-                    5,
-                    style,
-                ))?
-            };
-            let dashed = n >= LINE_COLOURS.len();
-            // The legend's line: two pieces, with a gap for a dashed curve.
-            let gap = if dashed { 5 } else { 0 };
-            series.label(&curve.label).legend(move |(x, y)| {
-                EmptyElement::at((x, y))
-                    + PathElement::new(vec![(0, 0), (10, 0)], colour.stroke_width(2))
-                    + PathElement::new(vec![(10 + gap, 0), (24, 0)], colour.stroke_width(2))
-            });
-        }
-        chart
-            .configure_series_labels()
-            .position(self.legend.clone())
-            .background_style(WHITE.mix(0.9))
-            .border_style(BLACK)
-            .label_font(text(14))
-            .draw()?;
-        Ok(())
-    }
 }
