@@ -128,7 +128,7 @@ fn body() -> Result<(), Failure> {
     // East, south and north edges: no condition, so no flow (valley sides).
 
     let mut system = model.assemble()?;
-    let mut pcg = Pcg::new(Jacobi::new(system.operator())?).with_options(
+    let mut pcg = Pcg::new(IncompleteCholesky::mic0(system.operator())?).with_options(
         SolveOptions::default()
             .tolerance(1e-10)
             .max_iterations(50_000),

@@ -118,7 +118,7 @@ fn body() -> Result<(), Failure> {
 
     let system = model.assemble()?;
     let mut t = system.initial_solution(RAIL_WATER);
-    let mut pcg = Pcg::new(Jacobi::new(system.operator())?).with_options(
+    let mut pcg = Pcg::new(IncompleteCholesky::mic0(system.operator())?).with_options(
         SolveOptions::default()
             .tolerance(1e-10)
             .max_iterations(20_000),
