@@ -27,13 +27,26 @@ use crate::stencil::Stencil5;
 use crate::{FixedCells, Grid, Scalar};
 
 /// Target number of cells per reduction block.
+///
+/// ```
+/// assert!(quintet::kernels::BLOCK_CELLS >= 1024);
+/// ```
 pub const BLOCK_CELLS: usize = 16384;
 
 /// Fewest grid rows per block (unless the grid has fewer): a block's product reads one row of
 /// `x` beyond each of its ends, so short blocks would read `x` more than once.
+///
+/// ```
+/// assert!(quintet::kernels::BLOCK_MIN_ROWS >= 1);
+/// ```
 pub const BLOCK_MIN_ROWS: usize = 8;
 
 /// Grids with fewer cells than this run their kernels serially (same bits either way).
+///
+/// ```
+/// // Grids below this size run serially; the results are the same bits either way.
+/// assert!(quintet::kernels::PARALLEL_MIN_CELLS > quintet::kernels::BLOCK_CELLS);
+/// ```
 pub const PARALLEL_MIN_CELLS: usize = 1 << 15;
 
 /// Blocked, deterministic vector kernels for one grid; holds the per-block partial sums so no

@@ -14,8 +14,9 @@
 //!   (a closure computing a cell's coefficients on the fly), or by your own type.
 //! * [`FixedCells`]: fixed-value (Dirichlet) cells kept in the grid, as finite-difference codes
 //!   do; their values stay as given and their residual is exactly zero.
-//! * Drivers behind one trait, [`IterativeSolver`]: [`SteepestDescent`], [`Pcg`] / [`Cg`]
-//!   and [`Sor`] (lexicographic or red-black; Gauss–Seidel at ω = 1).
+//! * Drivers behind one trait, [`IterativeSolver`]: [`SteepestDescent`], [`Pcg`] / [`Cg`],
+//!   [`Sor`] (lexicographic or red-black; Gauss–Seidel at ω = 1) and [`MixedRefinement`]
+//!   (`f32` inner solves, `f64` accuracy).
 //! * [`Preconditioner`]s for PCG: [`Identity`], [`Jacobi`], [`Ssor`], [`IncompleteCholesky`]
 //!   (IC(0) and MIC(0)), Stone's [`Sip`] and the geometric [`Multigrid`] V-cycle; [`Sip`] and
 //!   [`Multigrid`] also run as standalone solvers.
@@ -40,20 +41,29 @@
 //!
 //! ## Choosing a solver
 //!
-//! | your system | use | why |
-//! |---|---|---|
-//! | symmetric, positive centers, non-positive couplings (diffusion) | [`Pcg`] with [`Jacobi`] | robust default; Jacobi evens out jumping coefficients |
-//! | diffusion, large grid (10⁵ cells and up), jumping coefficients | [`Pcg`] with [`Multigrid`] | iteration count independent of the grid size: 6 on Poisson, 13–20 at contrast 10⁴ (9–10 with [`CoarseOperator::LumpedGalerkin`]) |
-//! | diffusion, moderate grid, little memory to spare | [`Pcg`] with [`IncompleteCholesky::mic0`] | iterations grow like `h^{-1/2}`; three arrays of storage |
-//! | diffusion, classic workhorse | [`Pcg`] with [`IncompleteCholesky::ic0`] or [`Ssor`] | IC(0): a third of CG's iterations, growth still `h⁻¹`; SSOR with ω ≈ 2/(1 + πh): growth `h^{-1/2}` |
-//! | not symmetric, positive centers, an ILU-type iteration | [`Sip`] standalone | Stone's method; as a PCG preconditioner only for mild contrasts (see its docs) |
-//! | symmetric, small grid or a quick check | [`Cg`] | no setup at all |
-//! | not symmetric, or you need a smoother | [`Sor`] with [`estimate_relaxation`] | needs positive centers only |
-//! | teaching, baselines | [`SteepestDescent`] | simplest correct method; slow |
+//! Three things decide: whether the operator is symmetric, how far the coefficients jump
+//! between neighbouring cells, and how many cells there are. A model assembled by
+//! [`model`] is always symmetric (harmonic-mean face conductances stored on both sides).
 //!
-//! CG's iteration count grows like `h⁻¹` (the square root of the condition number); SOR with
-//! the optimal ω also like `h⁻¹`, at a lower cost per sweep but a larger constant; Gauss–Seidel
-//! and steepest descent like `h⁻²`.
+//! | symmetric? | coefficient contrast | cells | use | why |
+//! |---|---|---|---|---|
+//! | yes | any | up to 10⁴ | [`Pcg`] + [`Jacobi`], or [`Cg`] | a few hundred iterations at most; nothing to set up or tune |
+//! | yes | any | 10⁴–10⁶ | [`Pcg`] + [`IncompleteCholesky::mic0`] | about 55 iterations at 128² whether the coefficients jump or not; three arrays of storage; iterations grow like `h^{-1/2}` |
+//! | yes | large (10² and up: clay in sand, copper beside an air gap) | 10⁵–10⁷ | [`Pcg`] + [`Multigrid`] | 6–7 iterations at 128², and a count that does not grow with the grid (6 on Poisson at every size to 2048², 13–20 on a contrast-10⁴ field, see [`Multigrid`]) |
+//! | yes | small (up to about 10) | 10⁴–10⁷ | [`Pcg`] + [`Ssor`] (ω from the Jacobi radius that [`estimate_relaxation`] finds) or [`IncompleteCholesky::ic0`] | cheap setup; SSOR's count grows like `h^{-1/2}`, IC(0)'s like `h⁻¹` at a third of CG's |
+//! | yes | any | any, memory very tight | [`Pcg`] + [`Jacobi`] | one extra array; the diagonal scaling absorbs much of the contrast (554 iterations against plain CG's 3 960 at contrast 10⁴) |
+//! | yes | any | 10⁶ and up, bandwidth-bound | try [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy; measure before relying on the gain |
+//! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`] with [`estimate_relaxation`], or [`Sip`] on its own | both need positive centers only; SOR converges for ω ≤ 1 on diagonally dominant rows (larger ω is usually faster: check the report); red-black SOR parallelises |
+//! | yes | small only | any | [`Pcg`] + [`Sip`] | the symmetrised Stone factor; at contrast 10⁴ it is not positive definite and PCG stops with [`Error::PreconditionerNotPositive`] |
+//! | either | — | — | [`Sor::gauss_seidel`] | a smoother, not a solver: iterations grow like `1/h²` |
+//! | yes | — | small | [`SteepestDescent`] | teaching and baselines; iterations grow like `1/h²` |
+//!
+//! Measured with `cargo run --release --example solver_comparison` on 128 × 128 cells, to a
+//! relative residual of 10⁻⁸ from the same start (`--problem poisson` / the default
+//! `lenses`, an aquifer with clay blocks at contrast 10⁴): CG 237 / 3 960 iterations, PCG with
+//! Jacobi 237 / 554, SSOR 49 / 128, IC(0) 99 / 165, MIC(0) 54 / 56, multigrid 6 / 7, SOR with
+//! the estimated ω about 500 / 530, standalone SIP 1 643 / 1 525; Gauss–Seidel needs about
+//! 30 000 / 28 000 and steepest descent 61 442 / more than 200 000.
 //!
 //! ## Stopping rules
 //!
@@ -62,32 +72,75 @@
 //! iterations or when the residual grows 10⁸-fold ([`Tolerances`]). Replace the rule with
 //! [`SolveOptions::stop_when`]; build rules from [`stop`]'s built-ins (absolute, relative,
 //! reduction from the initial residual, largest solution change, iteration limit, stagnation,
-//! divergence) and their [`AnyOf`](stop::AnyOf) / [`AllOf`](stop::AllOf) combinators, or a
-//! closure. Convergence is always confirmed on the true residual `b − A·x`, never only on a
+//! divergence) and their [`AnyOf`](stop::AnyOf) / [`AllOf`](stop::AllOf) combinators, a
+//! closure ([`RuleFn`](stop::RuleFn)), or your own type implementing [`StopRule`].
+//! Convergence is always confirmed on the true residual `b − A·x`, never only on a
 //! recursively updated one; a solve that does not converge returns an error carrying its
-//! [`Report`], with the last iterate left in `x`.
+//! [`Report`], with the last iterate left in `x`. To watch a solve as it runs (a log line, a
+//! progress bar), pass an observer to
+//! [`IterativeSolver::solve_observed`]: it sees the same [`Progress`] the rule does.
+//!
+//! ```
+//! use quintet::prelude::*;
+//! use quintet::stop::{AllOf, RelativeResidual, SolutionChange};
+//!
+//! let grid = Grid::new(64, 64)?;
+//! let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+//! // Converged when the residual is small *and* no value moved by more than 1e-9 in the
+//! // last iteration.
+//! let rule = AllOf::new().and(RelativeResidual(1e-8)).and(SolutionChange(1e-9));
+//! let mut pcg = Pcg::new(Jacobi::new(&op)?).with_options(SolveOptions::default().stop_when(rule));
+//! let mut x = vec![0.0; grid.cells()];
+//! let mut last = 0;
+//! let report = pcg.solve_observed(&op, &vec![1.0; grid.cells()], &mut x, &mut Workspace::new(), &mut |p| {
+//!     last = p.iteration;
+//! })?;
+//! assert!(report.converged() && last == report.iterations);
+//! # Ok::<(), quintet::Error>(())
+//! ```
 //!
 //! ## Performance
 //!
 //! The kernels are memory-bound: a banded matrix–vector product moves about 56 bytes per cell
 //! (`f64`), a CG iteration about 128. Products and updates are fused with the dot products the
 //! iteration needs, and reductions run over fixed blocks summed in a fixed order, so results
-//! are bit-identical for any number of threads.
+//! are bit-identical for any number of threads. Measured figures, each a ratio to a
+//! STREAM-like triad run in the same process, come from the performance report
+//! (`cargo run --release --example perf_report`); they will be summarised here.
 //!
 //! ## Feature flags
 //!
 //! * `parallel` (default): kernels run on rayon's thread pool for grids of at least
 //!   [`kernels::PARALLEL_MIN_CELLS`] cells. Set the thread count with `RAYON_NUM_THREADS` or a
-//!   rayon pool; results do not depend on it.
+//!   rayon pool; results do not depend on it. Build with `--no-default-features` for a
+//!   serial library without rayon.
+//!
+//! The examples' plotting, progress-bar and option-parsing crates are dev-dependencies only:
+//! the library itself depends on `num-traits`, `thiserror` and (with `parallel`) `rayon`.
 //!
 //! ## Models
 //!
-//! [`model`] turns a conduction or confined groundwater model into a system for these drivers:
-//! geometry (uniform or variable spacing, cell- or node-centred), per-cell conductivity
-//! (isotropic or anisotropic, harmonic-mean face conductances), inactive cells, prescribed
-//! values, fluxes, exchange boundaries, wells and distributed sources, in SI units. It checks
-//! for singular (floating) problems, reports a flow budget with its percent discrepancy, and
-//! steps transient models by backward Euler or Crank–Nicolson.
+//! [`model`] turns a conduction or confined-groundwater model into a system for these
+//! drivers: geometry (uniform or variable spacing, cell- or node-centred), per-cell
+//! conductivity (isotropic, anisotropic or transmissivity), inactive cells, prescribed
+//! values, edge fluxes, exchange with an outside value (convection, rivers), wells and
+//! heaters, recharge and heat generation, all in SI units with nothing converted;
+//! harmonic-mean face conductances (Patankar 1980); a flow budget after each solve; backward
+//! Euler or Crank–Nicolson stepping; singular (floating) models detected.
+//!
+//! ## Examples
+//!
+//! Runnable with `cargo run --release --example NAME`; each prints a short summary and writes
+//! pictures to `out/NAME/`:
+//!
+//! * `heat_spreader`: a plate with two heaters and a cooled edge; hottest cell, energy
+//!   budget, temperature map with isotherms.
+//! * `aquifer`: a confined aquifer with clay lenses, a lake, a river, recharge and two wells;
+//!   water budget, drawdown at the wells, head and drawdown maps.
+//! * `own_stencil`: your own closure operator with two drivers, a custom stopping rule and an
+//!   observer.
+//! * `cooling`: transient cooling with the model's time stepper and warm starts.
+//! * `solver_comparison`: every driver on one problem, with a convergence plot.
 //!
 //! ## Caution
 //!

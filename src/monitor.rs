@@ -59,6 +59,15 @@ impl<'a> Monitor<'a> {
     /// Start monitoring: `rhs_sq = b·b` and `rr = r₀·r₀` of the initial guess. Clears
     /// `history`, reserves room for the rule's iteration bound, records the initial residual
     /// and calls the observer for iteration 0.
+    ///
+    /// ```
+    /// # use quintet::{Monitor, Progress, Tolerances};
+    /// # let rule = Tolerances::default();
+    /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 4.0, 1.0);
+    /// assert_eq!(monitor.iteration(), 0);
+    /// assert_eq!(monitor.residual_norm(), 1.0); // sqrt of r·r
+    /// ```
     pub fn start<T: Scalar>(
         rule: &'a dyn StopRule,
         history: &'a mut Vec<f64>,
@@ -90,6 +99,14 @@ impl<'a> Monitor<'a> {
 
     /// Ask the rule about the current state (the initial one right after [`Monitor::start`]).
     /// A non-finite residual always stops.
+    ///
+    /// ```
+    /// # use quintet::{Monitor, Progress, Tolerances};
+    /// # let rule = Tolerances::default();
+    /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
+    /// let done = Monitor::start(&rule, &mut history, &mut observer, 1.0, 0.0);
+    /// assert_eq!(done.check(), Some(quintet::StopReason::ExactSolution));
+    /// ```
     pub fn check(&self) -> Option<StopReason> {
         let progress = self.progress();
         if !progress.residual_norm.is_finite() {
@@ -103,6 +120,15 @@ impl<'a> Monitor<'a> {
 
     /// Record one more iteration with its `r·r` and largest solution change, call the
     /// observer, and ask the rule.
+    ///
+    /// ```
+    /// # use quintet::{Monitor, Progress, Tolerances};
+    /// # let rule = Tolerances::default();
+    /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
+    /// assert_eq!(monitor.record(1e-20, Some(0.5)), Some(quintet::StopReason::RelativeResidualMet));
+    /// assert_eq!(monitor.iteration(), 1);
+    /// ```
     pub fn record<T: Scalar>(&mut self, rr: T, change: Option<T>) -> Option<StopReason> {
         self.iteration += 1;
         self.change = change.map(to_f64);
@@ -113,12 +139,30 @@ impl<'a> Monitor<'a> {
 
     /// Replace the current iteration's residual with the true one (`rr = r·r` of `b − A·x`)
     /// and ask the rule again.
+    ///
+    /// ```
+    /// # use quintet::{Monitor, Progress, Tolerances};
+    /// # let rule = Tolerances::default();
+    /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
+    /// monitor.record(1e-20, None); // a recursively updated residual said "converged"
+    /// assert_eq!(monitor.revise(0.25), None); // the true residual says otherwise
+    /// ```
     pub fn revise<T: Scalar>(&mut self, rr: T) -> Option<StopReason> {
         self.set_residual(rr);
         self.check()
     }
 
     /// Replace the current iteration's residual with the true one, without asking the rule.
+    ///
+    /// ```
+    /// # use quintet::{Monitor, Progress, Tolerances};
+    /// # let rule = Tolerances::default();
+    /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
+    /// monitor.set_residual(0.25);
+    /// assert_eq!(monitor.residual_norm(), 0.5);
+    /// ```
     pub fn set_residual<T: Scalar>(&mut self, rr: T) {
         if let Some(last) = self.history.last_mut() {
             *last = sqrt_f64(rr);
@@ -126,16 +170,43 @@ impl<'a> Monitor<'a> {
     }
 
     /// Iterations recorded so far.
+    ///
+    /// ```
+    /// # use quintet::{Monitor, Progress, Tolerances};
+    /// # let rule = Tolerances::default();
+    /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
+    /// monitor.record(0.5, None);
+    /// assert_eq!(monitor.iteration(), 1);
+    /// ```
     pub fn iteration(&self) -> usize {
         self.iteration
     }
 
     /// The current `‖r‖₂`.
+    ///
+    /// ```
+    /// # use quintet::{Monitor, Progress, Tolerances};
+    /// # let rule = Tolerances::default();
+    /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
+    /// let monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 9.0);
+    /// assert_eq!(monitor.residual_norm(), 3.0);
+    /// ```
     pub fn residual_norm(&self) -> f64 {
         self.history.last().copied().unwrap_or(f64::NAN)
     }
 
     /// Stop monitoring and build the report, with `reason` as the reason.
+    ///
+    /// ```
+    /// # use quintet::{Monitor, Progress, Tolerances};
+    /// # let rule = Tolerances::default();
+    /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
+    /// let reason = monitor.record(1e-20, None).expect("converged");
+    /// let report = monitor.finish("my iteration".to_string(), reason);
+    /// assert!(report.converged() && report.history.len() == 2);
+    /// ```
     pub fn finish(self, method: String, reason: StopReason) -> Report {
         Report {
             method,

@@ -195,6 +195,13 @@ pub(crate) fn relative(value: f64, scale: f64, fallback: f64) -> f64 {
 /// ```
 pub trait StopRule: Send + Sync {
     /// `Some(reason)` to stop now, `None` to go on.
+    ///
+    /// ```
+    /// use quintet::{Progress, StopRule, stop::RelativeResidual};
+    /// let p = Progress { iteration: 3, residual_norm: 1e-9, initial_residual_norm: 1.0,
+    ///     rhs_norm: 1.0, solution_change: None, history: &[], elapsed: Default::default() };
+    /// assert!(RelativeResidual(1e-8).check(&p).is_some());
+    /// ```
     fn check(&self, progress: &Progress<'_>) -> Option<StopReason>;
 
     /// An upper bound on the iterations this rule allows, if it has one. Drivers use it only to

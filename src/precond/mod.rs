@@ -84,14 +84,34 @@ pub(crate) fn check_centers<T: Scalar, S: Stencil5<T> + ?Sized>(op: &S) -> Resul
 /// ```
 pub trait Preconditioner<T: Scalar> {
     /// `z = M⁻¹ r`. Both slices have one entry per cell of the operator's grid.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(2, 1)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mut z = [0.0; 2];
+    /// Jacobi::new(&op)?.apply(&[4.0, 8.0], &mut z); // centers are 4
+    /// assert_eq!(z, [1.0, 2.0]);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
     fn apply(&mut self, r: &[T], z: &mut [T]);
 
     /// A short name for reports. Default `"custom"`.
+    ///
+    /// ```
+    /// use quintet::{Identity, Preconditioner};
+    /// assert_eq!(Preconditioner::<f64>::name(&Identity), "identity");
+    /// ```
     fn name(&self) -> &'static str {
         "custom"
     }
 
     /// Whether this is the identity (lets PCG skip the copy `z = r`). Default `false`.
+    ///
+    /// ```
+    /// use quintet::{Identity, Preconditioner};
+    /// assert!(Preconditioner::<f64>::is_identity(&Identity));
+    /// ```
     fn is_identity(&self) -> bool {
         false
     }

@@ -183,6 +183,19 @@ pub trait IterativeSolver<T: Scalar> {
     /// Solve with `ws` as scratch, calling `observer` with the [`Progress`] before the first
     /// iteration and after every iteration (for logging or a progress bar).
     ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(16, 16)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let (rhs, mut x) = (vec![1.0; grid.cells()], vec![0.0; grid.cells()]);
+    /// let mut seen = 0;
+    /// let report = Cg::default().solve_observed(&op, &rhs, &mut x, &mut Workspace::new(), &mut |p| {
+    ///     seen = p.iteration; // called before the first iteration and after each one
+    /// })?;
+    /// assert_eq!(seen, report.iterations);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    ///
     /// # Errors
     ///
     /// See the trait documentation.
@@ -196,6 +209,18 @@ pub trait IterativeSolver<T: Scalar> {
     ) -> Result<Report, Error>;
 
     /// Solve with `ws` as scratch.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(16, 16)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mut ws = Workspace::for_grid(grid); // reused by every solve below
+    /// let mut x = vec![0.0; grid.cells()];
+    /// for load in [1.0, 2.0] {
+    ///     Cg::default().solve_with(&op, &vec![load; grid.cells()], &mut x, &mut ws)?;
+    /// }
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
     ///
     /// # Errors
     ///
@@ -212,6 +237,15 @@ pub trait IterativeSolver<T: Scalar> {
 
     /// Solve with a fresh workspace (allocates; use
     /// [`solve_with`](IterativeSolver::solve_with) in loops).
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(16, 16)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mut x = vec![0.0; grid.cells()];
+    /// assert!(Sor::new(1.7)?.solve(&op, &vec![1.0; grid.cells()], &mut x)?.converged());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
     ///
     /// # Errors
     ///

@@ -174,13 +174,40 @@ impl<T: Scalar> Coeffs5<T> {
 /// ```
 pub trait Stencil5<T: Scalar>: Sync {
     /// The grid the operator lives on.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(6, 4)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::<f64>::laplacian(grid, i, j))?;
+    /// assert_eq!(op.grid().cells(), 24);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
     fn grid(&self) -> Grid;
 
     /// The five coefficients of cell `(i, j)`, as the caller gave them (fixed cells not
     /// eliminated). Couplings that point off the grid must be zero.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(3, 3)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::<f64>::laplacian(grid, i, j))?;
+    /// let corner = op.coeffs(0, 0);
+    /// assert_eq!((corner.center, corner.west, corner.east), (4.0, 0.0, -1.0));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
     fn coeffs(&self, i: usize, j: usize) -> Coeffs5<T>;
 
     /// The fixed (Dirichlet) cells, if any. Default: none.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(3, 3)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::<f64>::laplacian(grid, i, j))?;
+    /// assert!(op.fixed_cells().is_none());
+    /// let op = op.with_fixed(FixedCells::new(grid, [4])?)?;
+    /// assert!(op.fixed_cells().is_some_and(|f| f.contains(4)));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
     fn fixed_cells(&self) -> Option<&FixedCells> {
         None
     }
