@@ -4,7 +4,7 @@ use super::cg::pcg_name;
 use super::{begin, conclude, IterativeSolver, Pcg, Report, SolveOptions, Workspace};
 use crate::precond::Preconditioner;
 use crate::stencil::{check_grid, Stencil5};
-use crate::stop::Progress;
+use crate::stop::{AnyOf, IterationLimit, Progress, ResidualReduction, Stagnation};
 use crate::{Error, Monitor};
 
 /// Iterative refinement with a single-precision inner solver: each outer step computes the
@@ -14,11 +14,15 @@ use crate::{Error, Monitor};
 /// accuracy (relative residual 10⁻¹² and below) although the inner work runs in `f32`
 /// (Wilkinson 1963; Moler, "Iterative refinement in floating point", J. ACM 14, 1967).
 ///
-/// Each inner solve starts from `d = 0` and stops by the inner solver's own options; a
-/// relative tolerance around 10⁻⁴ (well above the `f32` floor) works well. An inner solve that
-/// stops short (for example at the `f32` rounding floor) still contributes its iterate. The
-/// outer stop rule is [`MixedRefinement::options`]; it defaults to a relative tolerance of
-/// 10⁻¹² and at most 100 outer steps.
+/// Each inner solve starts from `d = 0` and stops by the inner solver's own options. The inner
+/// solve cannot reduce its residual below the `f32` rounding floor, about `ε_f32·‖A‖·‖d‖/‖r‖`
+/// (10⁻⁴ to 10⁻³ for a moderately conditioned grid problem), so give it a rule that also stops
+/// on stagnation: [`MixedRefinement::with_preconditioner`] builds the inner PCG with one
+/// ([`inner_rule`](MixedRefinement::inner_rule): a reduction of 10⁻⁴, or no 1 % progress
+/// over 50 iterations, or 2000 iterations). An inner solve that stops short still contributes
+/// its iterate; refinement only needs each one to cut the error by a good factor. The outer
+/// stop rule is [`MixedRefinement::options`]; it defaults to a relative tolerance of 10⁻¹² and
+/// at most 100 outer steps.
 ///
 /// # Example
 ///
@@ -28,8 +32,8 @@ use crate::{Error, Monitor};
 /// let grid = Grid::new(96, 96)?;
 /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
 /// let single = op.cast::<f32>()?;
-/// let inner = Pcg::new(Jacobi::new(&single)?).with_options(SolveOptions::default().tolerance(1e-4));
-/// let mut solver = MixedRefinement::new(single, inner)?;
+/// let jacobi = Jacobi::new(&single)?;
+/// let mut solver = MixedRefinement::with_preconditioner(single, jacobi)?;
 /// let rhs = vec![1.0; grid.cells()];
 /// let mut x = vec![0.0; grid.cells()];
 /// let report = solver.solve(&op, &rhs, &mut x)?;
@@ -76,6 +80,46 @@ impl<S: Stencil5<f32>, P: Preconditioner<f32>> MixedRefinement<S, P> {
             correction: Vec::new(),
             inner_iterations: 0,
         })
+    }
+
+    /// Refinement with `low` and an inner PCG with `preconditioner` that stops by
+    /// [`MixedRefinement::inner_rule`].
+    ///
+    /// # Errors
+    ///
+    /// None at present; reserved for settings checks.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(8, 8)?;
+    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let solver = MixedRefinement::with_preconditioner(single, Identity)?;
+    /// # let _ = solver;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn with_preconditioner(low: S, preconditioner: P) -> Result<MixedRefinement<S, P>, Error> {
+        let inner = Pcg::new(preconditioner)
+            .with_options(SolveOptions::default().stop_when(MixedRefinement::<S, P>::inner_rule()));
+        MixedRefinement::new(low, inner)
+    }
+
+    /// The inner stop rule [`MixedRefinement::with_preconditioner`] uses: residual reduced
+    /// 10⁻⁴-fold, or less than 1 % progress over 50 iterations (the `f32` floor), or 2000
+    /// iterations.
+    ///
+    /// ```
+    /// use quintet::{prelude::*, MixedRefinement};
+    /// let rule = MixedRefinement::<Banded5<f32>, Identity>::inner_rule();
+    /// assert_eq!(rule.iteration_bound(), Some(2000));
+    /// ```
+    pub fn inner_rule() -> AnyOf {
+        AnyOf::new()
+            .or(ResidualReduction(1e-4))
+            .or(Stagnation {
+                window: 50,
+                min_reduction: 0.01,
+            })
+            .or(IterationLimit(2000))
     }
 
     /// Total inner (`f32`) iterations of the last solve.
