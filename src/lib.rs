@@ -166,7 +166,7 @@ pub use grid::{Grid, Side};
 pub use monitor::Monitor;
 pub use precond::{
     CoarseOperator, FactorSettings, Identity, IncompleteCholesky, Jacobi, Multigrid,
-    MultigridSettings, Preconditioner, Sip, SipSettings, Ssor, WeakPivot,
+    MultigridSettings, Preconditioner, SinglePrecision, Sip, SipSettings, Ssor, WeakPivot,
 };
 pub use solve::{
     estimate_relaxation, Cg, IterativeSolver, MixedRefinement, Pcg, RelaxationEstimate, Report,
@@ -213,8 +213,8 @@ pub mod prelude {
         check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, CoarseOperator, Coeffs5,
         Error, FactorSettings, FixedCells, Grid, Identity, IncompleteCholesky, IterativeSolver,
         Jacobi, MixedRefinement, Multigrid, MultigridSettings, Pcg, Preconditioner, Progress,
-        Report, Side, Sip, SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5,
-        StopReason, StopRule, SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
+        Report, Side, SinglePrecision, Sip, SipSettings, SolveOptions, Sor, Ssor, SteepestDescent,
+        Stencil5, StopReason, StopRule, SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
     };
 }
 

@@ -41,6 +41,9 @@ pub enum StopReason {
     IterationLimit,
     /// The residual stopped decreasing over the stagnation window.
     Stagnated,
+    /// The true residual stopped falling while the recursively updated one kept going: rounding
+    /// limits the attainable accuracy (about `ε·‖A‖·‖x‖`) above the requested tolerance.
+    RoundingFloor,
     /// The residual grew past the divergence factor.
     Diverged,
     /// The residual (or a quantity of the iteration) became NaN or infinite.
@@ -89,6 +92,9 @@ impl fmt::Display for StopReason {
             StopReason::ExactSolution => "residual exactly zero",
             StopReason::IterationLimit => "iteration limit reached",
             StopReason::Stagnated => "residual stagnated",
+            StopReason::RoundingFloor => {
+                "true residual stopped falling: rounding limits the accuracy above the tolerance"
+            }
             StopReason::Diverged => "residual diverged",
             StopReason::NonFinite => "non-finite value in the iteration",
             StopReason::Breakdown => "breakdown of the iteration",

@@ -116,26 +116,42 @@ fn divergence_is_reported() {
 }
 
 #[test]
-fn stagnation_ends_a_solve_stuck_at_the_rounding_floor() {
-    // f32 cannot reach 1e-9 on this system (see theory.rs): without a stagnation rule the
-    // solve would run to the iteration limit; with one it stops early and says why.
+fn f32_cg_stuck_at_its_rounding_floor_says_so() {
+    // f32 cannot reach 1e-9 on this system (see theory.rs): the driver notices that the true
+    // residual stopped falling while the recursive one went on, and stops early.
     let grid = Grid::new(32, 32).unwrap();
     let op = Banded5::from_fn(grid, |i, j| Coeffs5::<f32>::laplacian(grid, i, j)).unwrap();
-    let rule = AnyOf::new()
-        .or(quintet::stop::RelativeResidual(1e-9))
-        .or(Stagnation {
-            window: 100,
-            min_reduction: 0.01,
-        })
-        .or(IterationLimit(10_000));
     let mut x = vec![0.0f32; grid.cells()];
     let err = Cg::default()
-        .with_options(SolveOptions::default().stop_when(rule))
+        .with_options(SolveOptions::default().tolerance(1e-9))
         .solve(&op, &vec![1.0f32; grid.cells()], &mut x)
         .unwrap_err();
     let report = err.report().unwrap();
-    assert_eq!(report.reason, StopReason::Stagnated);
+    assert_eq!(report.reason, StopReason::RoundingFloor);
     assert!(report.iterations < 1000, "{}", report.iterations);
+}
+
+#[test]
+fn the_stagnation_rule_ends_slow_progress() {
+    // Gauss–Seidel on a 64 x 64 Laplacian gains about 0.2 % per sweep (ρ = cos²(π/65); Young
+    // 1954): far below the 50 % per 20 sweeps asked for.
+    let p = laplacian(64, 64);
+    let op = p.banded();
+    let rule = AnyOf::new()
+        .or(quintet::stop::RelativeResidual(1e-8))
+        .or(Stagnation {
+            window: 20,
+            min_reduction: 0.5,
+        })
+        .or(IterationLimit(10_000));
+    let mut x = p.x0.clone();
+    let err = Sor::gauss_seidel()
+        .with_options(SolveOptions::default().stop_when(rule))
+        .solve(&op, &p.rhs, &mut x)
+        .unwrap_err();
+    let report = err.report().unwrap();
+    assert_eq!(report.reason, StopReason::Stagnated);
+    assert!(report.iterations < 500, "{}", report.iterations);
 }
 
 #[test]
@@ -224,4 +240,46 @@ fn fixed_cells_keep_their_values_and_zero_residual_in_every_driver() {
             .with_options(opts.clone())
             .solve(&op, &p.rhs, x)
     });
+}
+
+#[test]
+fn an_unreachable_tolerance_stops_at_the_rounding_floor() {
+    // In floating point the true residual of CG cannot fall much below ε·‖A‖·‖x‖, while the
+    // recursively updated one keeps falling (attainable accuracy: Greenbaum, Iterative Methods
+    // for Solving Linear Systems, 1997, §7.3; van der Vorst & Ye, SIAM J. Sci. Comput. 22,
+    // 2000 — both from memory). Asking for 1e-17 must end with RoundingFloor long before the
+    // iteration limit, with the floor's accuracy kept (not lost to a diverging recursion).
+    let p = laplacian(200, 200);
+    let op = p.banded();
+    for (name, result, x) in [
+        {
+            let mut x = p.x0.clone();
+            let r = Cg::default()
+                .with_options(SolveOptions::default().tolerance(1e-17))
+                .solve(&op, &p.rhs, &mut x);
+            ("CG", r, x)
+        },
+        {
+            let mut x = p.x0.clone();
+            let mg = Multigrid::new(&op, MultigridSettings::default()).unwrap();
+            let r = Pcg::new(mg)
+                .with_options(SolveOptions::default().tolerance(1e-17))
+                .solve(&op, &p.rhs, &mut x);
+            ("MG-PCG", r, x)
+        },
+    ] {
+        let err = result.expect_err("1e-17 is out of reach");
+        let report = err.report().unwrap();
+        assert_eq!(report.reason, StopReason::RoundingFloor, "{name}: {report}");
+        assert!(report.iterations < 2000, "{name}: {}", report.iterations);
+        // ε·‖A‖·‖x‖/‖b‖ with ‖A‖ ≤ 8: the floor, within a factor of 100.
+        let floor = f64::EPSILON * 8.0 * common::norm(&x) / common::norm(&p.rhs);
+        assert!(
+            report.relative_residual() < 100.0 * floor,
+            "{name}: {report}"
+        );
+        assert!(
+            (p.free_residual_norm(&x) - report.residual_norm).abs() <= 1e-3 * report.residual_norm
+        );
+    }
 }

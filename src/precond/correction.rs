@@ -65,8 +65,8 @@ pub(crate) fn correction_solve<T: Scalar, S: Stencil5<T> + ?Sized>(
                 });
             }
             let (rr, change) = kernels.cg_update(rz / zq, z, q, x, r);
-            let (_, verdict) = refresh.record(&mut monitor, kernels, op, rhs, x, r, rr, change);
-            if let Some(reason) = verdict {
+            let recorded = refresh.record(&mut monitor, kernels, op, rhs, x, r, rr, change);
+            if let Some(reason) = recorded.verdict {
                 return conclude(monitor.finish(method, reason));
             }
             continue;

@@ -26,12 +26,14 @@ mod factor;
 mod ic0;
 mod jacobi;
 pub mod multigrid;
+mod single;
 mod sip;
 mod ssor;
 
 pub use ic0::{FactorSettings, IncompleteCholesky, WeakPivot};
 pub use jacobi::Jacobi;
 pub use multigrid::{CoarseOperator, Multigrid, MultigridSettings};
+pub use single::SinglePrecision;
 pub use sip::{Sip, SipSettings};
 pub use ssor::Ssor;
 

@@ -156,10 +156,13 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for Pcg<P> {
             }
             let alpha = rz / pq;
             let (rr_new, change) = kernels.cg_update(alpha, p, q, x, r);
-            let verdict;
-            (rr, verdict) = refresh.record(&mut monitor, kernels, op, rhs, x, r, rr_new, change);
-            if let Some(reason) = verdict {
+            let recorded = refresh.record(&mut monitor, kernels, op, rhs, x, r, rr_new, change);
+            rr = recorded.rr;
+            if let Some(reason) = recorded.verdict {
                 return conclude(monitor.finish(method, reason));
+            }
+            if recorded.restart {
+                rz_previous = None;
             }
         }
     }

@@ -322,21 +322,48 @@ pub(crate) fn begin<T: Scalar, S: Stencil5<T> + ?Sized>(
     Ok((bb, rr))
 }
 
-/// When a recursively updated residual is replaced by the true one.
+/// When a recursively updated residual is replaced by the true one, and what that tells.
+///
+/// Normally the two agree to a few digits and the replacement just removes drift (residual
+/// replacement; van der Vorst & Ye, "Residual replacement strategies for Krylov subspace
+/// iterative methods", SIAM J. Sci. Comput. 22, 2000). Once rounding limits the attainable
+/// accuracy (about `ε·‖A‖·‖x‖`), the recursive residual keeps falling while the true one does
+/// not; the two then differ by a large factor. Continuing the recursion from the replaced
+/// residual would mix directions of two different residuals, so the driver restarts, and if
+/// the true residual has not improved since the last check, the solve stops with
+/// [`StopReason::RoundingFloor`].
 pub(crate) struct Refresh {
     every: usize,
     since: usize,
+    best_true: f64,
 }
+
+/// What [`Refresh::record`] found.
+pub(crate) struct Recorded<T> {
+    /// `r·r` of the residual now in `r`.
+    pub(crate) rr: T,
+    /// The monitor's verdict (on the true residual whenever one was computed).
+    pub(crate) verdict: Option<StopReason>,
+    /// The recursive residual was replaced by a true one far from it: restart the recursion.
+    pub(crate) restart: bool,
+}
+
+/// True and recursive residual norms differing by more than this factor mean the recursion
+/// has lost track (rounding floor or severe drift).
+const DRIFT_FACTOR: f64 = 2.0;
 
 impl Refresh {
     pub(crate) fn new(every: usize) -> Refresh {
-        Refresh { every, since: 0 }
+        Refresh {
+            every,
+            since: 0,
+            best_true: f64::INFINITY,
+        }
     }
 
     /// Record an iteration whose residual `rr` came from a recursive update. The true residual
     /// is recomputed into `r` when the refresh period is due, and whenever the rule wants to
-    /// stop (so the verdict rests on the true residual). Returns the residual now in `r` and
-    /// the verdict.
+    /// stop (so the verdict rests on the true residual).
     #[allow(clippy::too_many_arguments)]
     pub(crate) fn record<T: Scalar, S: Stencil5<T> + ?Sized>(
         &mut self,
@@ -348,20 +375,33 @@ impl Refresh {
         r: &mut [T],
         rr: T,
         change: T,
-    ) -> (T, Option<StopReason>) {
+    ) -> Recorded<T> {
         self.since += 1;
-        if self.every > 0 && self.since >= self.every {
-            self.since = 0;
-            let rr = kernels.residual_free(op, rhs, x, r);
-            return (rr, monitor.record(rr, Some(change)));
+        let due = self.every > 0 && self.since >= self.every;
+        let verdict = monitor.record(rr, Some(change));
+        if !due && verdict.is_none() {
+            return Recorded {
+                rr,
+                verdict,
+                restart: false,
+            };
         }
-        match monitor.record(rr, Some(change)) {
-            None => (rr, None),
-            Some(_) => {
-                self.since = 0;
-                let rr = kernels.residual_free(op, rhs, x, r);
-                (rr, monitor.revise(rr))
-            }
+        self.since = 0;
+        let recursive = to_f64(rr).sqrt();
+        let rr_true = kernels.residual_free(op, rhs, x, r);
+        let true_norm = to_f64(rr_true).sqrt();
+        let mut verdict = monitor.revise(rr_true);
+        let restart =
+            !(true_norm <= DRIFT_FACTOR * recursive && recursive <= DRIFT_FACTOR * true_norm);
+        let converged = verdict.is_some_and(|v| v.converged());
+        if restart && !converged && true_norm >= self.best_true {
+            verdict = Some(StopReason::RoundingFloor);
+        }
+        self.best_true = self.best_true.min(true_norm);
+        Recorded {
+            rr: rr_true,
+            verdict,
+            restart,
         }
     }
 }

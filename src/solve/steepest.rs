@@ -76,9 +76,9 @@ impl<T: Scalar> IterativeSolver<T> for SteepestDescent {
             }
             let alpha = rr / rq;
             let (rr_new, change) = kernels.descent_update(alpha, q, x, r);
-            let verdict;
-            (rr, verdict) = refresh.record(&mut monitor, kernels, op, rhs, x, r, rr_new, change);
-            if let Some(reason) = verdict {
+            let recorded = refresh.record(&mut monitor, kernels, op, rhs, x, r, rr_new, change);
+            rr = recorded.rr;
+            if let Some(reason) = recorded.verdict {
                 return conclude(monitor.finish(method, reason));
             }
         }

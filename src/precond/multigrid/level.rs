@@ -106,6 +106,15 @@ impl<T: Scalar> Rows<T> for LevelOperator<T> {
     fn active(&self, k: usize) -> bool {
         self.active[k]
     }
+    fn product_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
+        let (nx, ny) = (self.grid.nx(), self.grid.ny());
+        for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
+            // The row's coefficients cut to exactly `nx` entries: no checks in the loop.
+            let coeffs = &self.rows[j * nx..][..nx];
+            let (south, row, north) = row_neighbourhood(x, nx, ny, j);
+            row_product(|i| coeffs[i], south, row, north, y_row);
+        }
+    }
 }
 
 /// Coarse-cell geometry along one axis: fine index → parent and neighbour aggregates.

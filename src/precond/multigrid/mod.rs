@@ -45,7 +45,7 @@ mod smooth;
 
 use direct::{BandCholesky, MAX_DIRECT_CELLS};
 use level::{FineRows, Level, Rows};
-use smooth::{red_black_sweep, residual};
+use smooth::{red_black_sweep, residual, smooth_from_zero};
 
 use super::correction::correction_solve;
 use super::Preconditioner;
@@ -357,10 +357,7 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
         let (fine_kernels, level_kernels) = self.kernels.split_at_mut(1);
         let inv = &self.fine_inverse_centers;
         let fine_kernels = &mut fine_kernels[0];
-        z.iter_mut().for_each(|v| *v = T::zero());
-        for _ in 0..nu {
-            red_black_sweep(&fine, inv, r, z, &mut self.fine_residual, 0, fine_kernels);
-        }
+        smooth_from_zero(&fine, inv, r, z, &mut self.fine_residual, nu, fine_kernels);
         residual(&fine, r, z, &mut self.fine_residual, fine_kernels);
         self.levels[0].restrict(&fine, &self.fine_residual);
         // Down the hierarchy.
@@ -369,18 +366,15 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
             let (upper, lower) = self.levels.split_at_mut(l + 1);
             let here = &mut upper[l];
             let kernels = &mut level_kernels[l];
-            here.x.iter_mut().for_each(|v| *v = T::zero());
-            for _ in 0..nu {
-                red_black_sweep(
-                    &here.op,
-                    &here.inverse_centers,
-                    &here.b,
-                    &mut here.x,
-                    &mut here.r,
-                    0,
-                    kernels,
-                );
-            }
+            smooth_from_zero(
+                &here.op,
+                &here.inverse_centers,
+                &here.b,
+                &mut here.x,
+                &mut here.r,
+                nu,
+                kernels,
+            );
             residual(&here.op, &here.b, &here.x, &mut here.r, kernels);
             lower[0].restrict(&here.op, &here.r);
         }

@@ -60,6 +60,40 @@ pub(crate) fn red_black_sweep<T: Scalar, R: Rows<T>>(
     half_sweep(op, inv, b, scratch, x, 1 - first, kernels);
 }
 
+/// `ν` pre-smoothing sweeps from `x = 0`, the result in `x` (`scratch` overwritten). The first
+/// half-sweep needs no product: from zero, the cells of the first colour take `b/center`.
+#[allow(clippy::too_many_arguments)]
+pub(crate) fn smooth_from_zero<T: Scalar, R: Rows<T>>(
+    op: &R,
+    inv: &[f32],
+    b: &[T],
+    x: &mut [T],
+    scratch: &mut [T],
+    sweeps: usize,
+    kernels: &mut Kernels<T>,
+) {
+    let nx = op.grid().nx();
+    kernels.map_blocks(scratch, |rows, cells, block| {
+        let (b, inv) = (&b[cells.clone()], &inv[cells]);
+        for (jj, j) in rows.enumerate() {
+            let first = j % 2;
+            let at = jj * nx;
+            let (y_row, b_row, d_row) = (&mut block[at..][..nx], &b[at..][..nx], &inv[at..][..nx]);
+            for i in (first..nx).step_by(2) {
+                y_row[i] = b_row[i] * widen(d_row[i]);
+            }
+            for i in (1 - first..nx).step_by(2) {
+                y_row[i] = T::zero();
+            }
+        }
+        (T::zero(), T::zero())
+    });
+    half_sweep(op, inv, b, scratch, x, 1, kernels);
+    for _ in 1..sweeps {
+        red_black_sweep(op, inv, b, x, scratch, 0, kernels);
+    }
+}
+
 /// `r = b − A·x` with the eliminated rows, zero at inactive cells (`x` zero there).
 pub(crate) fn residual<T: Scalar, R: Rows<T>>(
     op: &R,
