@@ -57,23 +57,39 @@ fn peak_bytes_of(f: impl FnOnce()) -> usize {
     PEAK.load(Ordering::SeqCst) - base
 }
 
-/// The preconditioner the report calls "best PCG", and its name.
-fn best_preconditioner(op: &Banded5<f64>) -> Multigrid<f64, &Banded5<f64>> {
-    Multigrid::new(op, MultigridSettings::default()).expect("multigrid setup")
+/// The two multigrid-preconditioned CG configurations the report times.
+#[derive(Clone, Copy, PartialEq)]
+enum MgPcg {
+    /// The V-cycle in `f32` on an `f32` copy of the operator, inside `f64` PCG
+    /// ([`SinglePrecision`]): the fastest configuration quintet ships.
+    SingleVcycle,
+    /// Everything in `f64`, default settings.
+    DoubleVcycle,
 }
-const BEST_PCG: &str = "PCG + multigrid V-cycle (default settings)";
 
-/// Setup + solve time of the best PCG to relative residual `tol` from zero, and its iterations.
-fn best_pcg_solve(op: &Banded5<f64>, tol: f64) -> (f64, usize) {
-    let rhs = vec![1.0; op.grid().cells()];
+const BEST_PCG: &str = "PCG (f64) + multigrid V-cycle in f32, default settings; \
+                        setup (cast + hierarchy) included in every time";
+
+/// Setup + solve time of MG-PCG to relative residual `tol` from zero, and its iterations.
+fn mgpcg_solve(op: &Banded5<f64>, rhs: &[f64], tol: f64, how: MgPcg) -> (f64, usize) {
     let mut x = vec![0.0; rhs.len()];
+    let options = SolveOptions::default()
+        .tolerance(tol)
+        .max_iterations(100_000);
     let start = Instant::now();
-    let mut pcg = Pcg::new(best_preconditioner(op)).with_options(
-        SolveOptions::default()
-            .tolerance(tol)
-            .max_iterations(100_000),
-    );
-    let report = pcg.solve(op, &rhs, &mut x).expect("best PCG converges");
+    let report = match how {
+        MgPcg::SingleVcycle => {
+            let single = op.cast::<f32>().expect("finite coefficients");
+            let mg = Multigrid::new(single, MultigridSettings::default()).expect("setup");
+            let mut pcg = Pcg::new(SinglePrecision::new(mg, op.grid())).with_options(options);
+            pcg.solve(op, rhs, &mut x)
+        }
+        MgPcg::DoubleVcycle => {
+            let mg = Multigrid::new(op, MultigridSettings::default()).expect("setup");
+            Pcg::new(mg).with_options(options).solve(op, rhs, &mut x)
+        }
+    }
+    .expect("MG-PCG converges");
     (start.elapsed().as_secs_f64(), report.iterations)
 }
 
@@ -84,104 +100,178 @@ fn pool(threads: usize) -> rayon::ThreadPool {
         .expect("thread pool")
 }
 
-/// Triad bandwidth in bytes per second on the current pool.
-fn triad_bandwidth(n: usize) -> f64 {
-    let (b, c) = (wave(n), wave(n));
-    let mut a = vec![0.0; n];
-    let t = best_of(15, || triad(&mut a, &b, &c, 3.0));
-    BYTES_TRIAD * n as f64 / t
+/// Fastest time of each closure over `rounds` rounds, the closures run in turn within a round,
+/// so that a slow spell of a shared machine hits all of them alike.
+fn interleaved<const N: usize>(rounds: usize, mut runs: [&mut dyn FnMut(); N]) -> [f64; N] {
+    let mut best = [f64::INFINITY; N];
+    for _ in 0..rounds {
+        for (run, best) in runs.iter_mut().zip(&mut best) {
+            let t = Instant::now();
+            run();
+            *best = best.min(t.elapsed().as_secs_f64());
+        }
+    }
+    best
 }
 
-/// Time of `iterations` of our CG (identity preconditioner) on `op`.
-fn our_cg_time(op: &Banded5<f64>, iterations: usize, threads_allowed: bool) -> f64 {
+/// A closure running `iterations` of our CG (identity preconditioner) on `op`.
+fn our_cg<'a, S: Stencil5<f64>>(
+    op: &'a S,
+    iterations: usize,
+    threads_allowed: bool,
+) -> impl FnMut() + 'a {
     let rhs = vec![1.0; op.grid().cells()];
+    let mut x = vec![0.0; rhs.len()];
     let mut ws = Workspace::for_grid(op.grid()).with_threads(threads_allowed);
     let mut cg = Cg::default().with_options(
         SolveOptions::default()
             .stop_when(IterationLimit(iterations))
             .residual_refresh(0),
     );
-    best_of(3, || {
-        let mut x = vec![0.0; rhs.len()];
+    move || {
+        x.fill(0.0);
         let _ = cg.solve_with(op, &rhs, &mut x, &mut ws);
-    })
+    }
 }
 
 fn main() {
     let threads = rayon::current_num_threads();
-    println!("# quintet perf report: {threads} rayon threads, f64, best of repeated runs");
-    println!("# best PCG = {BEST_PCG}");
+    println!("# quintet perf report: {threads} rayon threads, f64 unless said otherwise");
+    println!("# each comparison: fastest of several rounds, its contenders run in turn per round");
+    println!("# MG-PCG = {BEST_PCG}");
 
-    // Bandwidth figures on 2000 x 2000 cells.
+    // Bandwidth figures on 2000 x 2000 cells, each kernel against the triad run beside it.
     let n2000 = 2000 * 2000;
-    let bw = triad_bandwidth(n2000);
-    println!("# triad bandwidth = {:.2} GB/s", bw / 1e9);
     let op = poisson(2000);
     let compact = Symmetric5::from_banded(&op, 0.0).expect("symmetric");
+    let (tb, tc) = (wave(n2000), wave(n2000));
+    let mut ta = vec![0.0; n2000];
     let x = wave(n2000);
-    let mut y = vec![0.0; n2000];
+    let (mut y, mut y2) = (vec![0.0; n2000], vec![0.0; n2000]);
     let mut kernels = Kernels::<f64>::new(op.grid());
-    let t_banded = best_of(15, || kernels.apply(&op, &x, &mut y));
-    let t_sym = best_of(15, || kernels.apply(&compact, &x, &mut y));
+    let mut k1 = Kernels::<f64>::new(op.grid());
+    let mut k2 = Kernels::<f64>::new(op.grid());
+    let (mut p, mut q, mut xs, mut r) =
+        (wave(n2000), vec![0.0; n2000], vec![0.0; n2000], wave(n2000));
+    let [t_triad, t_banded, t_sym, t_iter] = interleaved(
+        15,
+        [
+            &mut || triad(&mut ta, &tb, &tc, 3.0),
+            &mut || kernels.apply(&op, &x, &mut y),
+            &mut || k1.apply(&compact, &x, &mut y2),
+            // One CG iteration: fused matvec + p·Ap, fused x/r update + r·r, p = r + βp.
+            &mut || {
+                let pq = k2.apply_dot_free(&op, &p, &mut q);
+                let (rr, _) = k2.cg_update(1e-9 / pq.max(1.0), &p, &q, &mut xs, &mut r);
+                k2.direction_update(&r, 1e-9 * rr.min(1.0), &mut p);
+            },
+        ],
+    );
+    let bw = BYTES_TRIAD * n2000 as f64 / t_triad;
+    let rate = |bytes: f64, t: f64| bytes * n2000 as f64 / t;
+    println!(
+        "# triad {:.2} GB/s; matvec Banded5 {:.2}, Symmetric5 {:.2}, CG iteration {:.2} GB/s",
+        bw / 1e9,
+        rate(BYTES_MATVEC_BANDED, t_banded) / 1e9,
+        rate(BYTES_MATVEC_SYMMETRIC, t_sym) / 1e9,
+        rate(BYTES_CG_ITERATION, t_iter) / 1e9
+    );
     println!(
         "matvec_banded_vs_triad={:.3}",
-        BYTES_MATVEC_BANDED * n2000 as f64 / t_banded / bw
+        rate(BYTES_MATVEC_BANDED, t_banded) / bw
     );
     println!(
         "matvec_symmetric_vs_triad={:.3}",
-        BYTES_MATVEC_SYMMETRIC * n2000 as f64 / t_sym / bw
+        rate(BYTES_MATVEC_SYMMETRIC, t_sym) / bw
     );
-
-    // One CG iteration = fused matvec+dot, fused x/r update + dot, direction update.
-    let (mut p, mut q, mut xs, mut r) =
-        (wave(n2000), vec![0.0; n2000], vec![0.0; n2000], wave(n2000));
-    let t_iter = best_of(15, || {
-        let pq = kernels.apply_dot_free(&op, &p, &mut q);
-        let (rr, _) = kernels.cg_update(1e-9 / pq.max(1.0), &p, &q, &mut xs, &mut r);
-        kernels.direction_update(&r, 1e-9 * rr.min(1.0), &mut p);
-    });
     println!(
         "cg_iteration_vs_triad={:.3}",
-        BYTES_CG_ITERATION * n2000 as f64 / t_iter / bw
+        rate(BYTES_CG_ITERATION, t_iter) / bw
     );
-    drop((p, q, xs, r, y));
+    drop((p, q, xs, r, y, y2, ta, tb, tc, x));
 
     // Ours vs a textbook CG loop over a general-purpose CSR matrix, one thread each (the CSR
     // kernel is serial), 50 iterations on 1000 x 1000.
     let op1000 = poisson(1000);
+    let compact1000 = Symmetric5::from_banded(&op1000, 0.0).expect("symmetric");
     let csr = to_csr(&op1000);
     let single = pool(1);
-    let (t_csr, t_ours) = single.install(|| {
+    let [t_csr, t_ours, t_compact] = single.install(|| {
         let b = vec![1.0; op1000.grid().cells()];
         let mut xx = vec![0.0; b.len()];
-        let t_csr = best_of(3, || {
-            textbook_cg(&mut |p, q| csr_apply(&csr, p, q), &b, &mut xx, 50);
-        });
-        (t_csr, our_cg_time(&op1000, 50, false))
+        interleaved(
+            5,
+            [
+                &mut || {
+                    textbook_cg(&mut |p, q| csr_apply(&csr, p, q), &b, &mut xx, 50);
+                },
+                &mut our_cg(&op1000, 50, false),
+                &mut our_cg(&compact1000, 50, false),
+            ],
+        )
     });
+    println!(
+        "# CG on 1000x1000, 1 thread: CSR {:.2} ms/iteration, Banded5 {:.2}, Symmetric5 {:.2}; \
+         bandwidth model ratio CSR/Banded5 {:.2}",
+        t_csr * 20.0,
+        t_ours * 20.0,
+        t_compact * 20.0,
+        BYTES_CG_CSR_ITERATION / BYTES_CG_ITERATION
+    );
     println!("cg_speedup_vs_csr={:.2}", t_csr / t_ours);
-    drop(csr);
+    println!("cg_speedup_symmetric_vs_csr={:.2}", t_csr / t_compact);
+    drop((csr, op1000, compact1000));
 
-    // Our best PCG vs faer's sparse Cholesky (factor + solve), same Poisson problem.
+    // MG-PCG vs faer's sparse Cholesky (factor + solve), same Poisson problem and rhs.
     faer::set_global_parallelism(faer::Par::rayon(threads));
     for n in [1000usize, 2000] {
         let op_n = poisson(n);
-        let (t_pcg, its) = best_pcg_solve(&op_n, 1e-8);
         let csc = to_csc_lower(&op_n);
-        let mut b = vec![1.0; n * n];
-        let t0 = Instant::now();
-        direct_solve(&csc, &mut b);
-        let t_direct = t0.elapsed().as_secs_f64();
-        println!("# {n}x{n}: best PCG {its} iterations, {t_pcg:.3} s; direct {t_direct:.3} s");
+        let rhs = vec![1.0; n * n];
+        let (mut its, mut its64) = (0, 0);
+        let [t_pcg, t_pcg64, t_direct] = interleaved(
+            2,
+            [
+                &mut || its = mgpcg_solve(&op_n, &rhs, 1e-8, MgPcg::SingleVcycle).1,
+                &mut || its64 = mgpcg_solve(&op_n, &rhs, 1e-8, MgPcg::DoubleVcycle).1,
+                &mut || direct_solve(&csc, &mut rhs.clone()),
+            ],
+        );
+        println!(
+            "# {n}x{n}: MG-PCG {its} iterations {t_pcg:.3} s (f64 V-cycle: {its64}, \
+             {t_pcg64:.3} s); direct {t_direct:.3} s"
+        );
         println!("mgpcg_speedup_vs_direct_{n}={:.2}", t_direct / t_pcg);
+        println!(
+            "mgpcg_f64_vcycle_speedup_vs_direct_{n}={:.2}",
+            t_direct / t_pcg64
+        );
     }
 
-    // Peak memory, 1500 x 1500: each method's own matrix representation and work space.
+    // Peak memory, 1500 x 1500: each method's own matrix representation and work space. Ours
+    // in its leanest shipped form: compact symmetric storage and an f64 V-cycle (the f32
+    // V-cycle needs an f32 copy of the operator besides the f64 one).
     let n1500 = 1500;
     let ours = peak_bytes_of(|| {
-        let op_n = poisson(n1500);
-        let _ = best_pcg_solve(&op_n, 1e-8);
+        let compact = Symmetric5::from_banded(&poisson(n1500), 0.0).expect("symmetric");
+        let rhs = vec![1.0; compact.grid().cells()];
+        let mut x = vec![0.0; rhs.len()];
+        let mg = Multigrid::new(&compact, MultigridSettings::default()).expect("setup");
+        let options = SolveOptions::default().tolerance(1e-8);
+        solved(
+            Pcg::new(mg)
+                .with_options(options)
+                .solve(&compact, &rhs, &mut x),
+        );
     });
+    let banded = |how| {
+        peak_bytes_of(|| {
+            let op_n = poisson(n1500);
+            let rhs = vec![1.0; op_n.grid().cells()];
+            mgpcg_solve(&op_n, &rhs, 1e-8, how);
+        })
+    };
+    let (banded64, banded32) = (banded(MgPcg::DoubleVcycle), banded(MgPcg::SingleVcycle));
     let direct = peak_bytes_of(|| {
         let op_n = poisson(n1500);
         let csc = to_csc_lower(&op_n);
@@ -189,23 +279,43 @@ fn main() {
         let mut b = vec![1.0; n1500 * n1500];
         direct_solve(&csc, &mut b);
     });
+    let mb = |bytes: usize| bytes as f64 / 1e6;
     println!(
-        "# 1500x1500 peak memory: ours {:.1} MB, direct {:.1} MB",
-        ours as f64 / 1e6,
-        direct as f64 / 1e6
+        "# 1500x1500 peak memory: MG-PCG on Symmetric5 {:.1} MB, on Banded5 {:.1} MB \
+         (f32 V-cycle {:.1} MB); direct {:.1} MB",
+        mb(ours),
+        mb(banded64),
+        mb(banded32),
+        mb(direct)
     );
     println!(
         "peak_memory_ratio_direct_vs_ours_1500={:.2}",
         direct as f64 / ours as f64
     );
 
+    mixed_precision(1000);
+
     // Parallel speed-up of CG against the triad's, 2000 x 2000, 1 vs `threads` threads.
     if threads > 1 {
-        let (cg1, tr1) = single.install(|| (our_cg_time(&op, 30, true), triad_bandwidth(n2000)));
         let many = pool(threads);
-        let (cgn, trn) = many.install(|| (our_cg_time(&op, 30, true), triad_bandwidth(n2000)));
-        let cg_speedup = cg1 / cgn;
-        let triad_speedup = trn / tr1;
+        let (tb, tc) = (wave(n2000), wave(n2000));
+        let mut ta = vec![0.0; n2000];
+        let mut cg1 = our_cg(&op, 30, true);
+        let mut cgn = our_cg(&op, 30, true);
+        let triad1 = |a: &mut [f64]| single.install(|| triad(a, &tb, &tc, 3.0));
+        let triadn = |a: &mut [f64]| many.install(|| triad(a, &tb, &tc, 3.0));
+        let mut ta2 = vec![0.0; n2000];
+        let [t_cg1, t_cgn, t_tr1, t_trn] = interleaved(
+            10,
+            [
+                &mut || single.install(&mut cg1),
+                &mut || many.install(&mut cgn),
+                &mut || triad1(&mut ta),
+                &mut || triadn(&mut ta2),
+            ],
+        );
+        let cg_speedup = t_cg1 / t_cgn;
+        let triad_speedup = t_tr1 / t_trn;
         println!(
             "# CG speed-up {cg_speedup:.2}, triad speed-up {triad_speedup:.2} on {threads} threads"
         );
@@ -219,12 +329,143 @@ fn main() {
     drop(op);
     drop(compact);
 
-    // Scaling of the best PCG's time per cell from 1024^2 to 4096^2 cells.
-    let (t1024, i1024) = best_pcg_solve(&poisson(1024), 1e-8);
-    let (t4096, i4096) = best_pcg_solve(&poisson(4096), 1e-8);
-    println!("# best PCG: {i1024} iterations at 1024^2, {i4096} at 4096^2");
+    // Scaling of MG-PCG's time per cell from 1024^2 to 4096^2 cells: repeated solves with the
+    // hierarchy and workspace built once (the cost that recurs per time step), and, on a
+    // `#` line, first solves including setup.
+    let mut small = WarmMgPcg::new(1024);
+    let mut large = WarmMgPcg::new(4096);
+    let [warm1024, warm4096] = interleaved(3, [&mut || small.solve(), &mut || large.solve()]);
+    let per_cell = |t: f64, n: usize| t / (n * n) as f64;
+    println!(
+        "# MG-PCG: {} iterations at 1024^2, {} at 4096^2; first solve with setup \
+         {:.1} vs {:.1} ns/cell (ratio {:.2})",
+        small.iterations,
+        large.iterations,
+        per_cell(small.cold, 1024) * 1e9,
+        per_cell(large.cold, 4096) * 1e9,
+        per_cell(large.cold, 4096) / per_cell(small.cold, 1024)
+    );
     println!(
         "time_per_cell_4096_vs_1024={:.2}",
-        (t4096 / (4096.0 * 4096.0)) / (t1024 / (1024.0 * 1024.0))
+        per_cell(warm4096, 4096) / per_cell(warm1024, 1024)
     );
+}
+
+/// MG-PCG (f32 V-cycle) on `n x n` Poisson cells, built once for repeated solves from zero.
+struct WarmMgPcg {
+    op: Banded5<f64>,
+    pcg: Pcg<SinglePrecision<Multigrid<f32, Banded5<f32>>>>,
+    ws: Workspace<f64>,
+    rhs: Vec<f64>,
+    x: Vec<f64>,
+    /// Time of the first solve, setup (cast + hierarchy) included.
+    cold: f64,
+    iterations: usize,
+}
+
+impl WarmMgPcg {
+    fn new(n: usize) -> WarmMgPcg {
+        let op = poisson(n);
+        let rhs = vec![1.0; op.grid().cells()];
+        let mut x = vec![0.0; rhs.len()];
+        let start = Instant::now();
+        let single = op.cast::<f32>().expect("finite coefficients");
+        let mg = Multigrid::new(single, MultigridSettings::default()).expect("setup");
+        let mut pcg = Pcg::new(SinglePrecision::new(mg, op.grid()))
+            .with_options(SolveOptions::default().tolerance(1e-8));
+        let mut ws = Workspace::for_grid(op.grid());
+        let report = solved(pcg.solve_with(&op, &rhs, &mut x, &mut ws));
+        let cold = start.elapsed().as_secs_f64();
+        WarmMgPcg {
+            op,
+            pcg,
+            ws,
+            rhs,
+            x,
+            cold,
+            iterations: report.iterations,
+        }
+    }
+
+    fn solve(&mut self) {
+        self.x.fill(0.0);
+        solved(
+            self.pcg
+                .solve_with(&self.op, &self.rhs, &mut self.x, &mut self.ws),
+        );
+    }
+}
+
+/// Mixed precision to relative residual 1e-12, `n x n` cells: f32 inner solves with f64
+/// refinement ([`MixedRefinement`]) against the same method all in f64. The problem is one
+/// backward-Euler step of a diffusion problem (Laplacian plus a storage term of 0.01 per cell),
+/// whose rounding floor lies well below 1e-12 (on the pure Poisson problem at 1000^2 it is about
+/// 5e-11, so 1e-12 is out of reach in any precision). Solvers and workspaces are built once
+/// and reused, as in time stepping; the times are the solves alone.
+fn mixed_precision(n: usize) {
+    let grid = Grid::new(n, n).expect("grid");
+    let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| {
+        let mut c = Coeffs5::laplacian(grid, i, j);
+        c.center += 0.01;
+        c
+    })
+    .expect("valid");
+    let single = op.cast::<f32>().expect("finite coefficients");
+    let rhs = wave(grid.cells());
+    let options = SolveOptions::default()
+        .tolerance(1e-12)
+        .max_iterations(100_000);
+    let mut cg = Cg::default().with_options(options.clone());
+    let mut mixed_cg = MixedRefinement::with_preconditioner(single.clone(), Identity).expect("ok");
+    let mg = Multigrid::new(&op, MultigridSettings::default()).expect("setup");
+    let mut mg_pcg = Pcg::new(mg).with_options(options);
+    let mg32 = Multigrid::new(single.clone(), MultigridSettings::default()).expect("setup");
+    let mut mixed_mg = MixedRefinement::with_preconditioner(single, mg32).expect("ok");
+    let names = [
+        "CG f64",
+        "CG f32 + refinement",
+        "MG-PCG f64",
+        "MG-PCG f32 + refinement",
+    ];
+    let mut reports: [Option<Report>; 4] = [None, None, None, None];
+    let (mut x, mut ws) = (vec![0.0; rhs.len()], Workspace::for_grid(grid));
+    let mut run = |k: usize| {
+        x.fill(0.0);
+        let result = match k {
+            0 => cg.solve_with(&op, &rhs, &mut x, &mut ws),
+            1 => mixed_cg.solve_with(&op, &rhs, &mut x, &mut ws),
+            2 => mg_pcg.solve_with(&op, &rhs, &mut x, &mut ws),
+            _ => mixed_mg.solve_with(&op, &rhs, &mut x, &mut ws),
+        };
+        reports[k] = Some(solved(result));
+    };
+    // One closure per contender, all driving the same `run`.
+    let run = std::cell::RefCell::new(&mut run);
+    let times = interleaved(
+        3,
+        [
+            &mut || (run.borrow_mut())(0),
+            &mut || (run.borrow_mut())(1),
+            &mut || (run.borrow_mut())(2),
+            &mut || (run.borrow_mut())(3),
+        ],
+    );
+    drop(run);
+    for ((name, report), t) in names.iter().zip(&reports).zip(times) {
+        let report = report.as_ref().expect("ran");
+        println!(
+            "# {n}x{n} + storage, {name}: {} iterations, relative residual {:.1e}, {t:.3} s",
+            report.iterations,
+            report.relative_residual()
+        );
+    }
+    println!("mixed_precision_speedup_cg_{n}={:.2}", times[0] / times[1]);
+    println!(
+        "mixed_precision_speedup_mgpcg_{n}={:.2}",
+        times[2] / times[3]
+    );
+}
+
+fn solved(result: Result<Report, Error>) -> Report {
+    result.expect("the solve converges")
 }

@@ -26,6 +26,9 @@ pub const BYTES_MATVEC_CLOSURE_FIELD: f64 = 24.0;
 pub const BYTES_MATVEC_CSR: f64 = 5.0 * 16.0 + 8.0 + 16.0;
 /// One CG iteration, fused: matvec + p·Ap (56), x/r update with r·r (48), p = r + βp (24).
 pub const BYTES_CG_ITERATION: f64 = 128.0;
+/// One iteration of the textbook CG loop over CSR: matvec (104), p·q (16), x and r updates (48),
+/// r·r (8), p = r + βp (24).
+pub const BYTES_CG_CSR_ITERATION: f64 = BYTES_MATVEC_CSR + 16.0 + 48.0 + 8.0 + 24.0;
 /// The triad a = b + s·c: two reads and one write.
 pub const BYTES_TRIAD: f64 = 24.0;
 
