@@ -440,17 +440,18 @@ fn mixed_precision(n: usize) {
         reports[k] = Some(solved(result));
     };
     // One closure per contender, all driving the same `run`.
-    let run = std::cell::RefCell::new(&mut run);
-    let times = interleaved(
-        3,
-        [
-            &mut || (run.borrow_mut())(0),
-            &mut || (run.borrow_mut())(1),
-            &mut || (run.borrow_mut())(2),
-            &mut || (run.borrow_mut())(3),
-        ],
-    );
-    drop(run);
+    let times = {
+        let run = std::cell::RefCell::new(&mut run);
+        interleaved(
+            3,
+            [
+                &mut || (run.borrow_mut())(0),
+                &mut || (run.borrow_mut())(1),
+                &mut || (run.borrow_mut())(2),
+                &mut || (run.borrow_mut())(3),
+            ],
+        )
+    };
     for ((name, report), t) in names.iter().zip(&reports).zip(times) {
         let report = report.as_ref().expect("ran");
         println!(
