@@ -400,7 +400,7 @@ impl WarmMgPcg {
 /// refinement ([`MixedRefinement`]) against the same method all in f64. The problem is one
 /// backward-Euler step of a diffusion problem (Laplacian plus a storage term of 0.01 per cell),
 /// whose rounding floor lies well below 1e-12 (on the pure Poisson problem at 1000^2 it is about
-/// 5e-11, so 1e-12 is out of reach in any precision). Solvers and workspaces are built once
+/// 1.5e-11, so 1e-12 is out of reach in any precision). Solvers and workspaces are built once
 /// and reused, as in time stepping; the times are the solves alone.
 fn mixed_precision(n: usize) {
     let grid = Grid::new(n, n).expect("grid");

@@ -52,7 +52,8 @@
 //! | yes | large (10² and up: clay in sand, copper beside an air gap) | 10⁵–10⁷ | [`Pcg`] + [`Multigrid`] | 6–7 iterations at 128², and a count that does not grow with the grid (6 on Poisson at every size to 2048², 13–20 on a contrast-10⁴ field, see [`Multigrid`]) |
 //! | yes | small (up to about 10) | 10⁴–10⁷ | [`Pcg`] + [`Ssor`] (ω from the Jacobi radius that [`estimate_relaxation`] finds) or [`IncompleteCholesky::ic0`] | cheap setup; SSOR's count grows like `h^{-1/2}`, IC(0)'s like `h⁻¹` at a third of CG's |
 //! | yes | any | any, memory very tight | [`Pcg`] + [`Jacobi`] | one extra array; the diagonal scaling absorbs much of the contrast (554 iterations against plain CG's 3 960 at contrast 10⁴) |
-//! | yes | any | 10⁶ and up, bandwidth-bound | try [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy; measure before relying on the gain |
+//! | yes | any | 10⁶ and up, bandwidth-bound | [`Pcg`] + [`SinglePrecision`]`<`[`Multigrid`]`>` | the V-cycle on an `f32` copy moves half the bytes; Krylov vectors and residuals stay `f64` (1.3–1.4× faster to 10⁻⁸ at 1000²–2000² than the `f64` V-cycle, measured) |
+//! | yes | any | 10⁶ and up, to 10⁻¹² | [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy (1.4–1.6× faster than `f64`, measured at 1000²) |
 //! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`] with [`estimate_relaxation`], or [`Sip`] on its own | both need positive centers only; SOR converges for ω ≤ 1 on diagonally dominant rows (larger ω is usually faster: check the report); red-black SOR parallelises |
 //! | yes | small only | any | [`Pcg`] + [`Sip`] | the symmetrised Stone factor; at contrast 10⁴ it is not positive definite and PCG stops with [`Error::PreconditionerNotPositive`] |
 //! | either | — | — | [`Sor::gauss_seidel`] | a smoother, not a solver: iterations grow like `1/h²` |
@@ -75,8 +76,12 @@
 //! divergence) and their [`AnyOf`](stop::AnyOf) / [`AllOf`](stop::AllOf) combinators, a
 //! closure ([`RuleFn`](stop::RuleFn)), or your own type implementing [`StopRule`].
 //! Convergence is always confirmed on the true residual `b − A·x`, never only on a
-//! recursively updated one; a solve that does not converge returns an error carrying its
-//! [`Report`], with the last iterate left in `x`. To watch a solve as it runs (a log line, a
+//! recursively updated one. Rounding limits how small the true residual can get (about
+//! `ε·‖A‖·‖x‖`; at 1000² cells of the Poisson problem in `f64`, 1.5·10⁻¹¹ relative, measured): when
+//! the true residual stops falling while the recursive one goes on, the drivers stop with
+//! [`StopReason::RoundingFloor`] rather than iterate to the limit. A solve that does not
+//! converge returns an error carrying its [`Report`], with the last iterate left in `x`. To
+//! watch a solve as it runs (a log line, a
 //! progress bar), pass an observer to
 //! [`IterativeSolver::solve_observed`]: it sees the same [`Progress`] the rule does.
 //!
@@ -104,9 +109,21 @@
 //! The kernels are memory-bound: a banded matrix–vector product moves about 56 bytes per cell
 //! (`f64`), a CG iteration about 128. Products and updates are fused with the dot products the
 //! iteration needs, and reductions run over fixed blocks summed in a fixed order, so results
-//! are bit-identical for any number of threads. Measured figures, each a ratio to a
-//! STREAM-like triad run in the same process, come from the performance report
-//! (`cargo run --release --example perf_report`); they will be summarised here.
+//! are bit-identical for any number of threads. The performance report
+//! (`cargo run --release --example perf_report`) measures ratios inside one run; on a shared
+//! 2-core AMD EPYC virtual machine (2026-12-01, README for the full table):
+//!
+//! | figure | measured |
+//! |---|---|
+//! | banded matrix–vector product, model bytes ÷ triad bandwidth | 0.71–0.88 |
+//! | one CG iteration ÷ triad bandwidth | 1.01 |
+//! | CG over a general-purpose CSR matrix ÷ ours, one thread | 1.93 (2.25 with [`Symmetric5`]) |
+//! | sparse direct Cholesky (factor + solve) ÷ MG-PCG to 10⁻⁸, 1000² / 2000² | 8.7 / 11.7 |
+//! | peak memory, sparse direct ÷ MG-PCG, 1500² | 6.1 |
+//! | mixed precision ([`MixedRefinement`]) ÷ f64, to 10⁻¹², CG / MG-PCG | 1.56 / 1.37 |
+//!
+//! For speed on large grids put the multigrid V-cycle in `f32` inside the `f64` PCG
+//! ([`SinglePrecision`]); for least memory use [`Symmetric5`] storage.
 //!
 //! ## Feature flags
 //!
