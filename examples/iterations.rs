@@ -16,6 +16,10 @@
 //! Run with `cargo run --release --example iterations` (n = 64 … 1024); add `--large` for
 //! n = 2048 (multigrid, IC(0) and MIC(0) only at that size, the rest would hit their caps).
 
+// The heterogeneous field is the one the multigrid tests use: one definition for both.
+#[path = "../tests/precond_problems/mod.rs"]
+mod precond_problems;
+
 use std::time::Instant;
 
 use quintet::prelude::*;
@@ -42,7 +46,7 @@ fn main() -> Result<(), Error> {
             let (op, rhs, x0) = if problem == "poisson" {
                 poisson(n)?
             } else {
-                heterogeneous(n)?
+                precond_problems::heterogeneous(n)
             };
             let methods: &[&str] = if n > 1024 {
                 &["ic0", "mic0", "mg"]
@@ -160,60 +164,4 @@ fn poisson(n: usize) -> Result<Problem, Error> {
     let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
     let h = 1.0 / (n as f64 + 1.0);
     Ok((op, vec![h * h; grid.cells()], vec![0.0; grid.cells()]))
-}
-
-/// Conductivity at the point `(x, y)` of the unit square: ten layers, then twenty blocks.
-fn conductivity(x: f64, y: f64) -> f64 {
-    const LAYERS: [f64; 10] = [0.0, -2.0, 1.0, -1.0, 2.0, -2.0, 0.5, -1.5, 1.5, -0.5];
-    let layer = ((y * 10.0) as usize).min(9);
-    let mut log_k = LAYERS[layer];
-    let mut seed: u64 = 0x2545_f491_4f6c_dd1d;
-    let mut next = || {
-        seed ^= seed << 13;
-        seed ^= seed >> 7;
-        seed ^= seed << 17;
-        (seed >> 11) as f64 / (1u64 << 53) as f64
-    };
-    for b in 0..20 {
-        let (x0, y0) = (next(), next());
-        let (w, h) = (0.05 + 0.15 * next(), 0.03 + 0.1 * next());
-        if x >= x0 && x < x0 + w && y >= y0 && y < y0 + h {
-            log_k = if b % 2 == 0 { 2.0 } else { -2.0 };
-        }
-    }
-    10f64.powf(log_k)
-}
-
-/// The heterogeneous aquifer on `n × n` cells.
-fn heterogeneous(n: usize) -> Result<Problem, Error> {
-    let grid = Grid::new(n, n)?;
-    let h = 1.0 / n as f64;
-    let k: Vec<f64> = (0..grid.cells())
-        .map(|c| {
-            let (i, j) = grid.coords(c);
-            conductivity((i as f64 + 0.5) * h, (j as f64 + 0.5) * h)
-        })
-        .collect();
-    let face = |a: usize, b: usize| 2.0 * k[a] * k[b] / (k[a] + k[b]);
-    let op = Banded5::from_fn(grid, |i, j| {
-        let c = grid.index(i, j);
-        let mut row = Coeffs5::default();
-        for side in Side::ALL {
-            if let Some(nb) = grid.neighbour(c, side) {
-                let t = face(c, nb);
-                *row.towards_mut(side) = -t;
-                row.center += t;
-            }
-        }
-        row
-    })?;
-    let fixed: Vec<usize> = (0..n)
-        .flat_map(|j| [grid.index(0, j), grid.index(n - 1, j)])
-        .collect();
-    let op = op.with_fixed(FixedCells::new(grid, fixed)?)?;
-    let mut x0 = vec![0.0; grid.cells()];
-    for j in 0..n {
-        x0[grid.index(0, j)] = 1.0;
-    }
-    Ok((op, vec![0.0; grid.cells()], x0))
 }

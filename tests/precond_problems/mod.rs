@@ -111,7 +111,7 @@ pub fn poisson(n: usize) -> Banded5<f64> {
 }
 
 /// Conductivity at `(x, y)` of the unit square: ten layers, then twenty blocks, log10 K in
-/// [-2, 2] (contrast 10⁴). The same field as the `iterations` example.
+/// [-2, 2] (contrast 10⁴). The `iterations` example reports on this same field.
 pub fn conductivity(x: f64, y: f64) -> f64 {
     const LAYERS: [f64; 10] = [0.0, -2.0, 1.0, -1.0, 2.0, -2.0, 0.5, -1.5, 1.5, -0.5];
     let layer = ((y * 10.0) as usize).min(9);
