@@ -80,8 +80,8 @@ fn mgpcg_solve(op: &Banded5<f64>, rhs: &[f64], tol: f64, how: MgPcg) -> (f64, us
     let report = match how {
         MgPcg::SingleVcycle => {
             let single = op.cast::<f32>().expect("finite coefficients");
-            let mg = Multigrid::new(single, MultigridSettings::default()).expect("setup");
-            let mut pcg = Pcg::new(SinglePrecision::new(mg, op.grid())).with_options(options);
+            let mg = Multigrid::new(&single, MultigridSettings::default()).expect("setup");
+            let mut pcg = Pcg::new(SinglePrecision::new(single, mg)).with_options(options);
             pcg.solve(op, rhs, &mut x)
         }
         MgPcg::DoubleVcycle => {
@@ -354,7 +354,7 @@ fn main() {
 /// MG-PCG (f32 V-cycle) on `n x n` Poisson cells, built once for repeated solves from zero.
 struct WarmMgPcg {
     op: Banded5<f64>,
-    pcg: Pcg<SinglePrecision<Multigrid<f32, Banded5<f32>>>>,
+    pcg: Pcg<SinglePrecision<Banded5<f32>, Multigrid<f32>>>,
     ws: Workspace<f64>,
     rhs: Vec<f64>,
     x: Vec<f64>,
@@ -370,8 +370,8 @@ impl WarmMgPcg {
         let mut x = vec![0.0; rhs.len()];
         let start = Instant::now();
         let single = op.cast::<f32>().expect("finite coefficients");
-        let mg = Multigrid::new(single, MultigridSettings::default()).expect("setup");
-        let mut pcg = Pcg::new(SinglePrecision::new(mg, op.grid()))
+        let mg = Multigrid::new(&single, MultigridSettings::default()).expect("setup");
+        let mut pcg = Pcg::new(SinglePrecision::new(single, mg))
             .with_options(SolveOptions::default().tolerance(1e-8));
         let mut ws = Workspace::for_grid(op.grid());
         let report = solved(pcg.solve_with(&op, &rhs, &mut x, &mut ws));
@@ -419,7 +419,7 @@ fn mixed_precision(n: usize) {
     let mut mixed_cg = MixedRefinement::with_preconditioner(single.clone(), Identity).expect("ok");
     let mg = Multigrid::new(&op, MultigridSettings::default()).expect("setup");
     let mut mg_pcg = Pcg::new(mg).with_options(options);
-    let mg32 = Multigrid::new(single.clone(), MultigridSettings::default()).expect("setup");
+    let mg32 = Multigrid::new(&single, MultigridSettings::default()).expect("setup");
     let mut mixed_mg = MixedRefinement::with_preconditioner(single, mg32).expect("ok");
     let names = [
         "CG f64",

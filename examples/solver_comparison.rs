@@ -313,12 +313,13 @@ fn run(
     let (report, note) = match solver.solve_with(&problem.op, &problem.rhs, &mut x, ws) {
         Ok(report) => (report, String::new()),
         Err(e) => {
-            let note = match &e {
-                Error::PreconditionerNotPositive { value, .. } => {
+            let value = e.value().unwrap_or(f64::NAN);
+            let note = match e.kind() {
+                ErrorKind::PreconditionerNotPositive => {
                     format!("the preconditioner is not positive definite here (r·z = {value:.2e})")
                 }
-                Error::NotPositiveDefinite { curvature, .. } => {
-                    format!("the operator is not positive definite (p·Ap = {curvature:.2e})")
+                ErrorKind::NotPositiveDefinite => {
+                    format!("the operator is not positive definite (p·Ap = {value:.2e})")
                 }
                 _ => String::new(),
             };

@@ -1,288 +1,338 @@
 //! The crate's one error type.
 //!
-//! Every fallible function returns [`Error`]. Kinds carry the context a modeller needs to find
-//! the problem: the cell (index and `(i, j)`), the lengths, the iteration and residual. A solve
-//! that stops without converging still hands back everything it computed: the last iterate is
-//! left in the caller's `x`, and the error carries the full [`Report`].
+//! Every fallible function returns [`Error`], an opaque value with a [`kind`](Error::kind)
+//! (solver kinds and model kinds told apart by [`ErrorKind::is_model`]), the context a modeller
+//! needs to find the problem — the cell as index and `(i, j)` ([`Error::location`]), the
+//! offending value, the iteration — and a message that says all of it. A solve that stops
+//! without converging still hands back everything it computed: the last iterate is left in the
+//! caller's `x`, and the error carries the full [`Report`] ([`Error::report`]).
 
-use crate::grid::Side;
-use crate::solve::Report;
+use std::fmt;
 
-/// Everything that can go wrong in quintet.
-///
-/// # Example
+use crate::report::Report;
+
+/// What went wrong, without the details (those are on the [`Error`]).
 ///
 /// ```
-/// use quintet::{Error, Grid};
-///
+/// use quintet::{ErrorKind, Grid};
 /// let err = Grid::new(0, 5).unwrap_err();
-/// assert!(matches!(err, Error::InvalidGrid { nx: 0, ny: 5 }));
-/// assert!(err.report().is_none());
+/// assert_eq!(err.kind(), ErrorKind::InvalidGrid);
+/// assert!(!err.kind().is_model());
 /// ```
-#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[non_exhaustive]
-pub enum Error {
-    /// The grid has no cells, or `nx · ny` overflows `usize`.
-    #[error("a grid of {nx} x {ny} cells is not allowed: both sides must be at least 1")]
-    InvalidGrid {
-        /// Cells in the east direction.
-        nx: usize,
-        /// Cells in the north direction.
-        ny: usize,
-    },
+pub enum ErrorKind {
+    /// A grid with no cells, or more cells than fit in memory.
+    InvalidGrid,
+    /// An array does not have the length the operator or grid needs.
+    LengthMismatch,
+    /// Two objects that must share a grid (or a length) do not.
+    GridMismatch,
+    /// A cell index or `(i, j)` lies outside the grid.
+    CellOutOfRange,
+    /// A coefficient, right-hand side, initial value or property is NaN or infinite.
+    NonFinite,
+    /// A free cell's center (diagonal) is zero or negative where the method needs it positive.
+    NonPositiveCenter,
+    /// A cell on the grid edge couples to a neighbour that does not exist.
+    OffGridCoupling,
+    /// The operator is not symmetric where the method needs it to be.
+    Asymmetric,
+    /// A numerical setting lies outside its allowed range.
+    InvalidSetting,
+    /// The method needs the rows of a 5-point stencil and the operator is not one.
+    NeedsStencil,
+    /// CG found `p·Ap ≤ 0`: the operator is not symmetric positive definite.
+    NotPositiveDefinite,
+    /// PCG found `r·z ≤ 0`: the preconditioner is not positive definite.
+    PreconditionerNotPositive,
+    /// An incomplete factorisation or a coarse level met a pivot that is not positive.
+    PivotBreakdown,
+    /// The solve stopped for a reason that is not convergence.
+    NotConverged,
+    /// A spacing (cell width, node distance) is not positive and finite.
+    InvalidSpacing,
+    /// A per-cell property of a model is outside its allowed range.
+    InvalidProperty,
+    /// A condition is placed on an inactive cell.
+    InactiveCell,
+    /// A condition is placed on a cell whose value is prescribed.
+    PrescribedCellConflict,
+    /// A condition handle from another model.
+    UnknownCondition,
+    /// A connected region of a model has nothing that sets its level.
+    FloatingRegion,
+    /// A floating region's sources do not balance, so no steady state exists.
+    UnbalancedSources,
+    /// A flow budget does not close to within the caller's threshold.
+    BudgetImbalance,
+}
 
-    /// An array does not have the length the grid needs.
-    #[error("{what} has {found} entries, but the grid has {expected} cells")]
+impl ErrorKind {
+    /// Whether this kind comes from [`model`](crate::model) (geometry, properties, conditions,
+    /// budgets) rather than from an operator, a setting or a solve.
+    ///
+    /// ```
+    /// use quintet::ErrorKind;
+    /// assert!(ErrorKind::FloatingRegion.is_model());
+    /// assert!(!ErrorKind::NotConverged.is_model());
+    /// ```
+    pub fn is_model(self) -> bool {
+        matches!(
+            self,
+            ErrorKind::InvalidSpacing
+                | ErrorKind::InvalidProperty
+                | ErrorKind::InactiveCell
+                | ErrorKind::PrescribedCellConflict
+                | ErrorKind::UnknownCondition
+                | ErrorKind::FloatingRegion
+                | ErrorKind::UnbalancedSources
+                | ErrorKind::BudgetImbalance
+        )
+    }
+
+    /// Whether this kind ends an iteration that had started: the error then carries the
+    /// [`Report`] and the last iterate is in `x`.
+    ///
+    /// ```
+    /// use quintet::ErrorKind;
+    /// assert!(ErrorKind::NotConverged.is_solve());
+    /// assert!(!ErrorKind::LengthMismatch.is_solve());
+    /// ```
+    pub fn is_solve(self) -> bool {
+        matches!(
+            self,
+            ErrorKind::NotPositiveDefinite
+                | ErrorKind::PreconditionerNotPositive
+                | ErrorKind::NotConverged
+        )
+    }
+}
+
+/// Where on the grid an error happened: the cell index `k = i + nx·j` and, when the operator
+/// lives on a grid, `(i, j)`.
+///
+/// ```
+/// use quintet::{Grid, Location};
+/// let at = Location::on(Grid::new(10, 10)?, 23);
+/// assert_eq!((at.cell, at.coords), (23, Some((3, 2))));
+/// assert_eq!(at.to_string(), "cell 23 (i = 3, j = 2)");
+/// # Ok::<(), quintet::Error>(())
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+pub struct Location {
+    /// The cell (entry) index.
+    pub cell: usize,
+    /// `(i, j)` of the cell, when the unknowns are the cells of a grid.
+    pub coords: Option<(usize, usize)>,
+}
+
+impl Location {
+    /// Entry `k` of a vector with no grid behind it.
+    ///
+    /// ```
+    /// assert_eq!(quintet::Location::entry(7).to_string(), "cell 7");
+    /// ```
+    pub fn entry(k: usize) -> Location {
+        Location {
+            cell: k,
+            coords: None,
+        }
+    }
+}
+
+impl fmt::Display for Location {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self.coords {
+            Some((i, j)) => write!(f, "cell {} (i = {i}, j = {j})", self.cell),
+            None => write!(f, "cell {}", self.cell),
+        }
+    }
+}
+
+/// The shape two objects are compared by: a length and, for grid operators, the grid.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) struct Shape {
+    pub(crate) cells: usize,
+    /// `(nx, ny)` of the grid, if any.
+    pub(crate) grid: Option<(usize, usize)>,
+}
+
+impl fmt::Display for Shape {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self.grid {
+            Some((nx, ny)) => write!(f, "{nx} x {ny} cells"),
+            None => write!(f, "{} unknowns", self.cells),
+        }
+    }
+}
+
+/// The details behind an [`Error`].
+#[derive(Clone, Debug, PartialEq, thiserror::Error)]
+enum Detail {
+    #[error("a grid of {nx} x {ny} cells is not allowed: both sides must be at least 1")]
+    InvalidGrid { nx: usize, ny: usize },
+    #[error("{what}: {found} entries given, {expected} needed")]
     LengthMismatch {
-        /// Which array (for example `"rhs"` or `"east coefficients"`).
         what: &'static str,
-        /// Length the grid needs.
         expected: usize,
-        /// Length that was passed.
         found: usize,
     },
-
-    /// Two objects that must share a grid were built on different grids.
-    #[error(
-        "grid mismatch: expected {expected_nx} x {expected_ny}, found {found_nx} x {found_ny}"
-    )]
+    #[error("{what} was built for {found}, but the operator has {expected}")]
     GridMismatch {
-        /// Expected cells east.
-        expected_nx: usize,
-        /// Expected cells north.
-        expected_ny: usize,
-        /// Found cells east.
-        found_nx: usize,
-        /// Found cells north.
-        found_ny: usize,
-    },
-
-    /// A cell index lies outside the grid.
-    #[error("cell {cell} is outside the grid of {cells} cells")]
-    CellOutOfRange {
-        /// The offending index.
-        cell: usize,
-        /// Number of cells in the grid.
-        cells: usize,
-    },
-
-    /// A coefficient, right-hand side or initial value is NaN or infinite.
-    #[error("{what} at cell {cell} (i = {i}, j = {j}) is not finite")]
-    NonFinite {
-        /// Which quantity (for example `"center coefficient"`, `"rhs"`, `"initial guess"`).
         what: &'static str,
-        /// Cell index `k = i + nx·j`.
-        cell: usize,
-        /// Column (east index).
-        i: usize,
-        /// Row (north index).
-        j: usize,
+        expected: Shape,
+        found: Shape,
     },
-
-    /// A free cell's center (diagonal) coefficient is zero or negative, and the method divides
-    /// by it or needs a positive definite operator.
-    #[error("center coefficient at cell {cell} (i = {i}, j = {j}) is {value}; this method needs it positive")]
-    NonPositiveCenter {
-        /// Cell index.
-        cell: usize,
-        /// Column.
-        i: usize,
-        /// Row.
-        j: usize,
-        /// The center coefficient found.
-        value: f64,
-    },
-
-    /// A cell on the grid edge has a nonzero coupling towards a neighbour that does not exist.
-    #[error("cell {cell} (i = {i}, j = {j}) has {side} coupling {value}, but it has no {side} neighbour")]
+    #[error("cell {cell} is outside the grid of {cells} cells")]
+    CellOutOfRange { cell: usize, cells: usize },
+    #[error("{what} at {at} is not finite")]
+    NonFinite { what: &'static str, at: Location },
+    #[error("center coefficient at {at} is {value}; this method needs it positive")]
+    NonPositiveCenter { at: Location, value: f64 },
+    #[error("{at} has {side} coupling {value}, but it has no {side} neighbour")]
     OffGridCoupling {
-        /// Cell index.
-        cell: usize,
-        /// Column.
-        i: usize,
-        /// Row.
-        j: usize,
-        /// Which side points off the grid.
-        side: Side,
-        /// The coupling found (it must be zero).
+        at: Location,
+        side: &'static str,
         value: f64,
     },
-
-    /// The operator is not symmetric: the first pair of cells whose mutual couplings differ.
-    #[error("couplings between cells {cell} and {neighbour} differ: {forward} (from {cell}) vs {backward} (from {neighbour})")]
+    #[error("couplings between {at} and cell {neighbour} differ: {forward} from the first, {backward} from the second")]
     Asymmetric {
-        /// The first cell of the pair (the lower index).
-        cell: usize,
-        /// Its east or north neighbour.
+        at: Location,
         neighbour: usize,
-        /// Coupling of `cell` towards `neighbour`.
         forward: f64,
-        /// Coupling of `neighbour` towards `cell`.
         backward: f64,
     },
-
-    /// A numerical setting lies outside its allowed range (for example ω ∉ (0, 2)).
     #[error("setting {name} = {value} is not allowed: {allowed}")]
     InvalidSetting {
-        /// Name of the setting.
         name: &'static str,
-        /// The value passed.
         value: f64,
-        /// What is allowed.
         allowed: &'static str,
     },
-
-    /// CG found a search direction with `p·Ap ≤ 0`: the operator (restricted to the free
-    /// cells) is not symmetric positive definite. The last iterate is in `x`.
+    #[error("{method} walks the rows of a 5-point stencil, and this operator is not a Stencil5")]
+    NeedsStencil { method: &'static str },
     #[error("p·Ap = {curvature:e} at iteration {iteration}: the operator is not symmetric positive definite")]
     NotPositiveDefinite {
-        /// Iteration at which the breakdown happened.
         iteration: usize,
-        /// The value of `p·Ap` found.
         curvature: f64,
-        /// Everything recorded up to the breakdown.
         report: Box<Report>,
     },
-
-    /// PCG found `r·z ≤ 0` for a nonzero residual: the preconditioner is not positive definite.
     #[error(
         "r·z = {value:e} at iteration {iteration}: the preconditioner is not positive definite"
     )]
     PreconditionerNotPositive {
-        /// Iteration at which it happened.
         iteration: usize,
-        /// The value of `r·z` found.
         value: f64,
-        /// Everything recorded up to the breakdown.
         report: Box<Report>,
     },
-
-    /// An incomplete factorisation met a pivot that is not positive.
-    #[error("factorisation pivot at cell {cell} is {value}; it must be positive")]
-    PivotBreakdown {
-        /// Cell at which the pivot broke down.
-        cell: usize,
-        /// The pivot value found.
-        value: f64,
-    },
-
-    /// A grid spacing (cell width or distance between nodes) is zero, negative or not finite.
+    #[error("factorisation pivot at {at} is {value}; it must be positive")]
+    PivotBreakdown { at: Location, value: f64 },
+    #[error("{report}")]
+    NotConverged { report: Box<Report> },
     #[error("{what} {index} is {value}; spacings must be positive and finite")]
     InvalidSpacing {
-        /// Which spacing (`"cell width"` or `"node spacing"`).
         what: &'static str,
-        /// Its position along the axis (the column or row, or the gap after that node).
         index: usize,
-        /// The value found.
         value: f64,
     },
-
-    /// A per-cell property (conductivity, thickness, storage, exchange coefficient, ...) is
-    /// outside its allowed range at an active cell.
-    #[error("{what} at cell {cell} (i = {i}, j = {j}) is {value}; it must be {allowed}")]
+    #[error("{what} at {at} is {value}; it must be {allowed}")]
     InvalidProperty {
-        /// Which property.
         what: &'static str,
-        /// Cell index `k = i + nx·j`.
-        cell: usize,
-        /// Column.
-        i: usize,
-        /// Row.
-        j: usize,
-        /// The value found.
+        at: Location,
         value: f64,
-        /// What is allowed (for example `"finite and >= 0"`).
         allowed: &'static str,
     },
-
-    /// A condition names a cell that is inactive (outside the modelled domain).
-    #[error("{what} is placed on cell {cell} (i = {i}, j = {j}), which is inactive")]
-    InactiveCell {
-        /// Which condition (for example `"point source \"well 1\""`).
-        what: String,
-        /// Cell index.
-        cell: usize,
-        /// Column.
-        i: usize,
-        /// Row.
-        j: usize,
-    },
-
-    /// A condition names a cell whose value is prescribed, where it could have no effect.
-    #[error("{what} is placed on cell {cell} (i = {i}, j = {j}), whose value is prescribed; it would have no effect")]
-    PrescribedCellConflict {
-        /// Which condition.
-        what: String,
-        /// Cell index.
-        cell: usize,
-        /// Column.
-        i: usize,
-        /// Row.
-        j: usize,
-    },
-
-    /// A condition handle does not belong to the model it was used with.
+    #[error("{what} is placed on {at}, which is inactive")]
+    InactiveCell { what: String, at: Location },
+    #[error("{what} is placed on {at}, whose value is prescribed; it would have no effect")]
+    PrescribedCellConflict { what: String, at: Location },
     #[error("condition handle {id} does not belong to this model (it has {count} conditions); handles work only with the model that issued them")]
-    UnknownCondition {
-        /// The handle's number.
-        id: usize,
-        /// Number of conditions in the model.
-        count: usize,
-    },
-
-    /// A connected group of active cells has nothing that sets its level: no prescribed value,
-    /// no exchange with an outside value and (for a transient model) no storage. The steady
-    /// equations then fix its values only up to a constant.
-    #[error("the {cells} connected active cells around cell {cell} (i = {i}, j = {j}) have no prescribed value, no exchange boundary and no storage, so their level is undetermined; add one of these, or ask for the compatible problem with a fixed mean")]
-    FloatingRegion {
-        /// A cell of the region (its lowest index).
-        cell: usize,
-        /// Column.
-        i: usize,
-        /// Row.
-        j: usize,
-        /// Number of cells in the region.
-        cells: usize,
-    },
-
-    /// A region without anything that sets its level has sources that do not balance, so no
-    /// steady state exists.
-    #[error("the region around cell {cell} (i = {i}, j = {j}) has no prescribed value or exchange, and its sources do not balance: net inflow {net_inflow:e} against total source magnitude {total:e}; no steady state exists")]
+    UnknownCondition { id: usize, count: usize },
+    #[error("the {cells} connected active cells around {at} have no prescribed value, no exchange boundary and no storage, so their level is undetermined; add one of these, or ask for the compatible problem with a fixed mean")]
+    FloatingRegion { at: Location, cells: usize },
+    #[error("the region around {at} has no prescribed value or exchange, and its sources do not balance: net inflow {net_inflow:e} against total source magnitude {total:e}; no steady state exists")]
     UnbalancedSources {
-        /// A cell of the region (its lowest index).
-        cell: usize,
-        /// Column.
-        i: usize,
-        /// Row.
-        j: usize,
-        /// Sum of all sources and fluxes into the region.
+        at: Location,
         net_inflow: f64,
-        /// Sum of their magnitudes.
         total: f64,
     },
-
-    /// A flow budget does not close to within the caller's threshold.
-    #[error("the flow budget is off by {discrepancy_percent:e} %, more than the {threshold_percent} % allowed")]
-    BudgetOutOfBalance {
-        /// `100·(in − out)/((in + out)/2)`.
-        discrepancy_percent: f64,
-        /// The threshold the caller set, in percent.
+    #[error("the flow budget's imbalance is {imbalance_percent:e} %, more than the {threshold_percent} % allowed")]
+    BudgetImbalance {
+        imbalance_percent: f64,
         threshold_percent: f64,
-    },
-
-    /// The solve stopped for a reason that is not convergence (iteration limit, stagnation,
-    /// divergence, a non-finite residual, or a custom rule). The last iterate is in `x`.
-    #[error("{report}")]
-    NotConverged {
-        /// Everything the solve recorded.
-        report: Box<Report>,
     },
 }
 
+/// Everything that can go wrong in quintet: an opaque value with a [`kind`](Error::kind), the
+/// context of the failure, and a message that names the cell as index and `(i, j)`.
+///
+/// # Example
+///
+/// ```
+/// use quintet::prelude::*;
+///
+/// let grid = Grid::new(3, 3)?;
+/// let err = Banded5::from_fn(grid, |i, j| {
+///     let mut c = Coeffs5::laplacian(grid, i, j);
+///     if (i, j) == (1, 2) {
+///         c.center = f64::NAN;
+///     }
+///     c
+/// })
+/// .unwrap_err();
+/// assert_eq!(err.kind(), ErrorKind::NonFinite);
+/// assert_eq!(err.location().map(|at| at.coords), Some(Some((1, 2))));
+/// assert_eq!(err.to_string(), "center coefficient at cell 7 (i = 1, j = 2) is not finite");
+/// # Ok::<(), quintet::Error>(())
+/// ```
+#[derive(Clone, PartialEq)]
+pub struct Error {
+    detail: Box<Detail>,
+    context: Vec<String>,
+}
+
 impl Error {
-    /// The solve report carried by the error, if the error came out of an iteration.
+    fn new(detail: Detail) -> Error {
+        Error {
+            detail: Box::new(detail),
+            context: Vec::new(),
+        }
+    }
+
+    /// What kind of error this is.
     ///
-    /// # Example
+    /// ```
+    /// use quintet::{ErrorKind, Sor};
+    /// assert_eq!(Sor::new(2.5).unwrap_err().kind(), ErrorKind::InvalidSetting);
+    /// ```
+    pub fn kind(&self) -> ErrorKind {
+        match &*self.detail {
+            Detail::InvalidGrid { .. } => ErrorKind::InvalidGrid,
+            Detail::LengthMismatch { .. } => ErrorKind::LengthMismatch,
+            Detail::GridMismatch { .. } => ErrorKind::GridMismatch,
+            Detail::CellOutOfRange { .. } => ErrorKind::CellOutOfRange,
+            Detail::NonFinite { .. } => ErrorKind::NonFinite,
+            Detail::NonPositiveCenter { .. } => ErrorKind::NonPositiveCenter,
+            Detail::OffGridCoupling { .. } => ErrorKind::OffGridCoupling,
+            Detail::Asymmetric { .. } => ErrorKind::Asymmetric,
+            Detail::InvalidSetting { .. } => ErrorKind::InvalidSetting,
+            Detail::NeedsStencil { .. } => ErrorKind::NeedsStencil,
+            Detail::NotPositiveDefinite { .. } => ErrorKind::NotPositiveDefinite,
+            Detail::PreconditionerNotPositive { .. } => ErrorKind::PreconditionerNotPositive,
+            Detail::PivotBreakdown { .. } => ErrorKind::PivotBreakdown,
+            Detail::NotConverged { .. } => ErrorKind::NotConverged,
+            Detail::InvalidSpacing { .. } => ErrorKind::InvalidSpacing,
+            Detail::InvalidProperty { .. } => ErrorKind::InvalidProperty,
+            Detail::InactiveCell { .. } => ErrorKind::InactiveCell,
+            Detail::PrescribedCellConflict { .. } => ErrorKind::PrescribedCellConflict,
+            Detail::UnknownCondition { .. } => ErrorKind::UnknownCondition,
+            Detail::FloatingRegion { .. } => ErrorKind::FloatingRegion,
+            Detail::UnbalancedSources { .. } => ErrorKind::UnbalancedSources,
+            Detail::BudgetImbalance { .. } => ErrorKind::BudgetImbalance,
+        }
+    }
+
+    /// The solve report carried by the error, if the error came out of an iteration.
     ///
     /// ```
     /// use quintet::prelude::*;
@@ -291,19 +341,299 @@ impl Error {
     /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
     /// let rhs = vec![1.0; grid.cells()];
     /// let mut x = vec![0.0; grid.cells()];
-    /// let mut cg = Cg::default();
-    /// cg.options = SolveOptions::default().max_iterations(3);
+    /// let mut cg = Cg::default().with_options(SolveOptions::default().max_iterations(3));
     /// let err = cg.solve(&op, &rhs, &mut x).unwrap_err();
     /// let report = err.report().expect("an iteration error carries its report");
     /// assert_eq!(report.iterations, 3);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn report(&self) -> Option<&Report> {
-        match self {
-            Error::NotPositiveDefinite { report, .. }
-            | Error::PreconditionerNotPositive { report, .. }
-            | Error::NotConverged { report } => Some(report),
+        match &*self.detail {
+            Detail::NotPositiveDefinite { report, .. }
+            | Detail::PreconditionerNotPositive { report, .. }
+            | Detail::NotConverged { report } => Some(report),
             _ => None,
         }
     }
+
+    /// The cell the error is about, if it is about one.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(4, 1)?;
+    /// let op = Banded5::from_fn(grid, |i, _| Coeffs5 { center: if i == 2 { -1.0 } else { 2.0 }, ..Coeffs5::default() })?;
+    /// let err = Jacobi::new(&op).unwrap_err();
+    /// assert_eq!(err.location().map(|at| at.cell), Some(2));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn location(&self) -> Option<Location> {
+        match &*self.detail {
+            Detail::NonFinite { at, .. }
+            | Detail::NonPositiveCenter { at, .. }
+            | Detail::OffGridCoupling { at, .. }
+            | Detail::Asymmetric { at, .. }
+            | Detail::PivotBreakdown { at, .. }
+            | Detail::InvalidProperty { at, .. }
+            | Detail::InactiveCell { at, .. }
+            | Detail::PrescribedCellConflict { at, .. }
+            | Detail::FloatingRegion { at, .. }
+            | Detail::UnbalancedSources { at, .. } => Some(*at),
+            Detail::CellOutOfRange { cell, .. } => Some(Location::entry(*cell)),
+            _ => None,
+        }
+    }
+
+    /// The iteration at which a breakdown happened (`p·Ap ≤ 0` in iteration `k`, or `r·z ≤ 0`
+    /// for the residual after iteration `k`), or the iterations done by a solve that did not
+    /// converge.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(10, 10)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mut x = vec![0.0; 100];
+    /// let err = Cg::default().with_options(SolveOptions::default().max_iterations(2))
+    ///     .solve(&op, &[1.0; 100], &mut x).unwrap_err();
+    /// assert_eq!(err.iteration(), Some(2));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn iteration(&self) -> Option<usize> {
+        match &*self.detail {
+            Detail::NotPositiveDefinite { iteration, .. }
+            | Detail::PreconditionerNotPositive { iteration, .. } => Some(*iteration),
+            Detail::NotConverged { report } => Some(report.iterations),
+            _ => None,
+        }
+    }
+
+    /// The offending number, where there is one: the coefficient, center, pivot or property
+    /// found, the setting passed, `p·Ap` or `r·z` at a breakdown, the net inflow of unbalanced
+    /// sources, the budget's imbalance in percent.
+    ///
+    /// ```
+    /// assert_eq!(quintet::Sor::new(2.5).unwrap_err().value(), Some(2.5));
+    /// ```
+    pub fn value(&self) -> Option<f64> {
+        match &*self.detail {
+            Detail::NonPositiveCenter { value, .. }
+            | Detail::OffGridCoupling { value, .. }
+            | Detail::InvalidSetting { value, .. }
+            | Detail::PreconditionerNotPositive { value, .. }
+            | Detail::PivotBreakdown { value, .. }
+            | Detail::InvalidSpacing { value, .. }
+            | Detail::InvalidProperty { value, .. } => Some(*value),
+            Detail::NotPositiveDefinite { curvature, .. } => Some(*curvature),
+            Detail::Asymmetric { forward, .. } => Some(*forward),
+            Detail::UnbalancedSources { net_inflow, .. } => Some(*net_inflow),
+            Detail::BudgetImbalance {
+                imbalance_percent, ..
+            } => Some(*imbalance_percent),
+            _ => None,
+        }
+    }
+
+    /// What the error is about, where the message names it: the array, the coefficient or
+    /// property, the setting, the condition.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(3, 3)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mut x = vec![0.0; 8];
+    /// let err = Cg::default().solve(&op, &[1.0; 9], &mut x).unwrap_err();
+    /// assert_eq!(err.subject(), Some("x"));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn subject(&self) -> Option<&str> {
+        match &*self.detail {
+            Detail::LengthMismatch { what, .. }
+            | Detail::GridMismatch { what, .. }
+            | Detail::NonFinite { what, .. }
+            | Detail::InvalidSpacing { what, .. }
+            | Detail::InvalidProperty { what, .. } => Some(what),
+            Detail::InvalidSetting { name, .. } => Some(name),
+            Detail::NeedsStencil { method } => Some(method),
+            Detail::InactiveCell { what, .. } | Detail::PrescribedCellConflict { what, .. } => {
+                Some(what)
+            }
+            _ => None,
+        }
+    }
+
+    /// What the caller was doing when the error happened, outermost last (for example
+    /// `"time step 12 (t = 3600 s)"`); empty for most errors.
+    ///
+    /// ```
+    /// let err = quintet::Grid::new(0, 1).unwrap_err();
+    /// assert!(err.context().is_empty());
+    /// ```
+    pub fn context(&self) -> &[String] {
+        &self.context
+    }
+
+    /// The same error, with `what` added to its context.
+    pub(crate) fn while_doing(mut self, what: impl Into<String>) -> Error {
+        self.context.push(what.into());
+        self
+    }
+
+    // ---- constructors (crate-private) ----
+
+    pub(crate) fn invalid_grid(nx: usize, ny: usize) -> Error {
+        Error::new(Detail::InvalidGrid { nx, ny })
+    }
+
+    pub(crate) fn length(what: &'static str, expected: usize, found: usize) -> Error {
+        Error::new(Detail::LengthMismatch {
+            what,
+            expected,
+            found,
+        })
+    }
+
+    pub(crate) fn shape_mismatch(what: &'static str, expected: Shape, found: Shape) -> Error {
+        Error::new(Detail::GridMismatch {
+            what,
+            expected,
+            found,
+        })
+    }
+
+    pub(crate) fn cell_out_of_range(cell: usize, cells: usize) -> Error {
+        Error::new(Detail::CellOutOfRange { cell, cells })
+    }
+
+    pub(crate) fn non_finite(what: &'static str, at: Location) -> Error {
+        Error::new(Detail::NonFinite { what, at })
+    }
+
+    pub(crate) fn non_positive_center(at: Location, value: f64) -> Error {
+        Error::new(Detail::NonPositiveCenter { at, value })
+    }
+
+    pub(crate) fn off_grid(at: Location, side: &'static str, value: f64) -> Error {
+        Error::new(Detail::OffGridCoupling { at, side, value })
+    }
+
+    pub(crate) fn asymmetric(at: Location, neighbour: usize, forward: f64, backward: f64) -> Error {
+        Error::new(Detail::Asymmetric {
+            at,
+            neighbour,
+            forward,
+            backward,
+        })
+    }
+
+    pub(crate) fn setting(name: &'static str, value: f64, allowed: &'static str) -> Error {
+        Error::new(Detail::InvalidSetting {
+            name,
+            value,
+            allowed,
+        })
+    }
+
+    pub(crate) fn needs_stencil(method: &'static str) -> Error {
+        Error::new(Detail::NeedsStencil { method })
+    }
+
+    pub(crate) fn not_positive_definite(iteration: usize, curvature: f64, report: Report) -> Error {
+        Error::new(Detail::NotPositiveDefinite {
+            iteration,
+            curvature,
+            report: Box::new(report),
+        })
+    }
+
+    pub(crate) fn preconditioner_not_positive(
+        iteration: usize,
+        value: f64,
+        report: Report,
+    ) -> Error {
+        Error::new(Detail::PreconditionerNotPositive {
+            iteration,
+            value,
+            report: Box::new(report),
+        })
+    }
+
+    pub(crate) fn pivot(at: Location, value: f64) -> Error {
+        Error::new(Detail::PivotBreakdown { at, value })
+    }
+
+    pub(crate) fn not_converged(report: Report) -> Error {
+        Error::new(Detail::NotConverged {
+            report: Box::new(report),
+        })
+    }
+
+    pub(crate) fn spacing(what: &'static str, index: usize, value: f64) -> Error {
+        Error::new(Detail::InvalidSpacing { what, index, value })
+    }
+
+    pub(crate) fn property(
+        what: &'static str,
+        at: Location,
+        value: f64,
+        allowed: &'static str,
+    ) -> Error {
+        Error::new(Detail::InvalidProperty {
+            what,
+            at,
+            value,
+            allowed,
+        })
+    }
+
+    pub(crate) fn inactive_cell(what: String, at: Location) -> Error {
+        Error::new(Detail::InactiveCell { what, at })
+    }
+
+    pub(crate) fn prescribed_conflict(what: String, at: Location) -> Error {
+        Error::new(Detail::PrescribedCellConflict { what, at })
+    }
+
+    pub(crate) fn unknown_condition(id: usize, count: usize) -> Error {
+        Error::new(Detail::UnknownCondition { id, count })
+    }
+
+    pub(crate) fn floating(at: Location, cells: usize) -> Error {
+        Error::new(Detail::FloatingRegion { at, cells })
+    }
+
+    pub(crate) fn unbalanced(at: Location, net_inflow: f64, total: f64) -> Error {
+        Error::new(Detail::UnbalancedSources {
+            at,
+            net_inflow,
+            total,
+        })
+    }
+
+    pub(crate) fn budget_imbalance(imbalance_percent: f64, threshold_percent: f64) -> Error {
+        Error::new(Detail::BudgetImbalance {
+            imbalance_percent,
+            threshold_percent,
+        })
+    }
 }
+
+impl fmt::Display for Error {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        write!(f, "{}", self.detail)?;
+        for what in &self.context {
+            write!(f, "; in {what}")?;
+        }
+        Ok(())
+    }
+}
+
+impl fmt::Debug for Error {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.debug_struct("Error")
+            .field("kind", &self.kind())
+            .field("detail", &self.detail)
+            .field("context", &self.context)
+            .finish()
+    }
+}
+
+impl std::error::Error for Error {}

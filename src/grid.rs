@@ -4,7 +4,7 @@
 use std::fmt;
 use std::ops::Range;
 
-use crate::Error;
+use crate::error::{Error, Location};
 
 /// A rectangular grid of `nx × ny` cells.
 ///
@@ -35,7 +35,7 @@ impl Grid {
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidGrid`] if either side is zero or the cell count overflows `usize`.
+    /// [`ErrorKind::InvalidGrid`](crate::ErrorKind::InvalidGrid) if either side is zero or the cell count overflows `usize`.
     ///
     /// # Example
     ///
@@ -46,7 +46,7 @@ impl Grid {
     /// ```
     pub fn new(nx: usize, ny: usize) -> Result<Grid, Error> {
         if nx == 0 || ny == 0 || nx.checked_mul(ny).is_none() {
-            return Err(Error::InvalidGrid { nx, ny });
+            return Err(Error::invalid_grid(nx, ny));
         }
         Ok(Grid { nx, ny })
     }
@@ -217,14 +217,42 @@ impl Side {
     }
 }
 
-impl fmt::Display for Side {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(match self {
+impl Side {
+    /// The side's name in lower case.
+    pub(crate) fn name(self) -> &'static str {
+        match self {
             Side::West => "west",
             Side::East => "east",
             Side::South => "south",
             Side::North => "north",
-        })
+        }
+    }
+}
+
+impl fmt::Display for Side {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.name())
+    }
+}
+
+impl Location {
+    /// Cell `k` of `grid`.
+    ///
+    /// ```
+    /// let at = quintet::Location::on(quintet::Grid::new(4, 4)?, 5);
+    /// assert_eq!(at.coords, Some((1, 1)));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn on(grid: Grid, k: usize) -> Location {
+        Location {
+            cell: k,
+            coords: (k < grid.cells()).then(|| grid.coords(k)),
+        }
+    }
+
+    /// Cell `k` of `grid` if there is one, else entry `k`.
+    pub(crate) fn of(grid: Option<Grid>, k: usize) -> Location {
+        grid.map_or(Location::entry(k), |g| Location::on(g, k))
     }
 }
 

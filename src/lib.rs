@@ -55,7 +55,7 @@
 //! | yes | any | 10⁶ and up, bandwidth-bound | [`Pcg`] + [`SinglePrecision`]`<`[`Multigrid`]`>` | the V-cycle on an `f32` copy moves half the bytes; Krylov vectors and residuals stay `f64` (1.3–1.4× faster to 10⁻⁸ at 1000²–2000² than the `f64` V-cycle, measured) |
 //! | yes | any | 10⁶ and up, to 10⁻¹² | [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy (1.4–1.6× faster than `f64`, measured at 1000²) |
 //! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`] with [`estimate_relaxation`], or [`Sip`] on its own | both need positive centers only; SOR converges for ω ≤ 1 on diagonally dominant rows (larger ω is usually faster: check the report); red-black SOR parallelises |
-//! | yes | small only | any | [`Pcg`] + [`Sip`] | the symmetrised Stone factor; at contrast 10⁴ it is not positive definite and PCG stops with [`Error::PreconditionerNotPositive`] |
+//! | yes | small only | any | [`Pcg`] + [`Sip`] | the symmetrised Stone factor; at contrast 10⁴ it is not positive definite and PCG stops with [`ErrorKind::PreconditionerNotPositive`] |
 //! | either | — | — | [`Sor::gauss_seidel`] | a smoother, not a solver: iterations grow like `1/h²` |
 //! | yes | — | small | [`SteepestDescent`] | teaching and baselines; iterations grow like `1/h²` |
 //!
@@ -128,7 +128,7 @@
 //! ## Feature flags
 //!
 //! * `parallel` (default): kernels run on rayon's thread pool for grids of at least
-//!   [`kernels::PARALLEL_MIN_CELLS`] cells. Set the thread count with `RAYON_NUM_THREADS` or a
+//!   [`space::PARALLEL_MIN_CELLS`] cells. Set the thread count with `RAYON_NUM_THREADS` or a
 //!   rayon pool; results do not depend on it. Build with `--no-default-features` for a
 //!   serial library without rayon.
 //!
@@ -168,54 +168,41 @@
 #![deny(missing_docs)]
 #![forbid(unsafe_code)]
 
+mod blocks;
 mod error;
 mod grid;
+mod iterate;
+#[cfg(feature = "bench-internals")]
 pub mod kernels;
+mod krylov;
 pub mod model;
 mod monitor;
+mod operator;
 pub mod precond;
-pub mod solve;
-pub mod stencil;
+mod refine;
+mod relax;
+mod report;
+mod scalar;
+pub mod space;
+mod stencil;
 pub mod stop;
 
-pub use error::Error;
+pub use error::{Error, ErrorKind, Location};
 pub use grid::{Grid, Side};
+pub use iterate::{IterativeSolver, SolveOptions, Workspace};
+pub use krylov::{Cg, Pcg, SteepestDescent};
 pub use monitor::Monitor;
+pub use operator::{Coeffs5, FixedCells, LinearOperator, Stencil5};
 pub use precond::{
     CoarseOperator, FactorSettings, Identity, IncompleteCholesky, Jacobi, Multigrid,
     MultigridSettings, Preconditioner, SinglePrecision, Sip, SipSettings, Ssor, WeakPivot,
 };
-pub use solve::{
-    estimate_relaxation, Cg, IterativeSolver, MixedRefinement, Pcg, RelaxationEstimate, Report,
-    SolveOptions, Sor, SteepestDescent, SweepOrder, Workspace,
-};
-pub use stencil::{
-    check_symmetry, Banded5, ClosureStencil, Coeffs5, FixedCells, Stencil5, Symmetric5,
-};
-pub use stop::{Progress, StopReason, StopRule, Tolerances};
-
-/// The floating-point types quintet works in (`f64` and `f32`).
-///
-/// ```
-/// fn takes<T: quintet::Scalar>(_: T) {}
-/// takes(1.0_f32);
-/// takes(1.0_f64);
-/// ```
-pub trait Scalar: num_traits::Float + Send + Sync + std::fmt::Debug + 'static {}
-
-impl<T: num_traits::Float + Send + Sync + std::fmt::Debug + 'static> Scalar for T {}
-
-/// Whether `v > 0` (false for NaN).
-#[inline]
-pub(crate) fn is_positive<T: Scalar>(v: T) -> bool {
-    v > T::zero()
-}
-
-/// `v` as `f64` (NaN if it cannot be represented).
-#[inline]
-pub(crate) fn to_f64<T: Scalar>(v: T) -> f64 {
-    v.to_f64().unwrap_or(f64::NAN)
-}
+pub use refine::MixedRefinement;
+pub use relax::{estimate_relaxation, RelaxationEstimate, Sor, SweepOrder};
+pub use report::{History, MethodName, Progress, Report, StopReason};
+pub use scalar::Scalar;
+pub use stencil::{check_symmetry, Banded5, ClosureStencil, Symmetric5};
+pub use stop::{StopRule, Tolerances};
 
 /// Everything a typical caller needs, in one `use`.
 ///
@@ -228,10 +215,11 @@ pub(crate) fn to_f64<T: Scalar>(v: T) -> f64 {
 pub mod prelude {
     pub use crate::{
         check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, CoarseOperator, Coeffs5,
-        Error, FactorSettings, FixedCells, Grid, Identity, IncompleteCholesky, IterativeSolver,
-        Jacobi, MixedRefinement, Multigrid, MultigridSettings, Pcg, Preconditioner, Progress,
-        Report, Side, SinglePrecision, Sip, SipSettings, SolveOptions, Sor, Ssor, SteepestDescent,
-        Stencil5, StopReason, StopRule, SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
+        Error, ErrorKind, FactorSettings, FixedCells, Grid, Identity, IncompleteCholesky,
+        IterativeSolver, Jacobi, LinearOperator, MixedRefinement, Multigrid, MultigridSettings,
+        Pcg, Preconditioner, Progress, Report, Side, SinglePrecision, Sip, SipSettings,
+        SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule, SweepOrder,
+        Symmetric5, Tolerances, WeakPivot, Workspace,
     };
 }
 

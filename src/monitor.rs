@@ -6,9 +6,9 @@
 
 use std::time::Instant;
 
-use crate::solve::Report;
-use crate::stop::{Progress, StopReason, StopRule};
-use crate::{to_f64, Scalar};
+use crate::report::{History, MethodName, Progress, Report, StopReason};
+use crate::scalar::{to_f64, Scalar};
+use crate::stop::StopRule;
 
 /// Most history entries reserved up front (more are still recorded, with a reallocation).
 const HISTORY_RESERVE_CAP: usize = 1 << 20;
@@ -40,7 +40,7 @@ const HISTORY_RESERVE_CAP: usize = 1 << 20;
 ///         break reason;
 ///     }
 /// };
-/// let report = monitor.finish("Richardson".to_string(), reason);
+/// let report = monitor.finish("Richardson", reason);
 /// assert!(report.converged());
 /// assert!((x - 0.5).abs() < 1e-8);
 /// ```
@@ -204,18 +204,22 @@ impl<'a> Monitor<'a> {
     /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
     /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
     /// let reason = monitor.record(1e-20, None).expect("converged");
-    /// let report = monitor.finish("my iteration".to_string(), reason);
+    /// let report = monitor.finish("my iteration", reason);
     /// assert!(report.converged() && report.history.len() == 2);
     /// ```
-    pub fn finish(self, method: String, reason: StopReason) -> Report {
-        Report {
-            method,
-            reason,
+    pub fn finish(self, method: impl Into<MethodName>, reason: StopReason) -> Report {
+        let history = History::from(self.history.clone());
+        self.close().report(method.into(), reason, history)
+    }
+
+    /// Stop monitoring: everything a report needs but the method, the reason and the history
+    /// (which the caller owns).
+    pub(crate) fn close(self) -> Summary {
+        Summary {
             iterations: self.iteration,
             residual_norm: self.residual_norm(),
             initial_residual_norm: self.initial,
             rhs_norm: self.rhs_norm,
-            history: self.history.clone(),
             elapsed: self.start.elapsed(),
         }
     }
@@ -241,6 +245,31 @@ impl<'a> Monitor<'a> {
             self.start,
         );
         (self.observer)(&now);
+    }
+}
+
+/// The end state of a monitored solve.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct Summary {
+    pub(crate) iterations: usize,
+    pub(crate) residual_norm: f64,
+    pub(crate) initial_residual_norm: f64,
+    pub(crate) rhs_norm: f64,
+    pub(crate) elapsed: std::time::Duration,
+}
+
+impl Summary {
+    pub(crate) fn report(self, method: MethodName, reason: StopReason, history: History) -> Report {
+        Report {
+            method,
+            reason,
+            iterations: self.iterations,
+            residual_norm: self.residual_norm,
+            initial_residual_norm: self.initial_residual_norm,
+            rhs_norm: self.rhs_norm,
+            history,
+            elapsed: self.elapsed,
+        }
     }
 }
 

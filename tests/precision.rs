@@ -46,10 +46,9 @@ fn refinement_rejects_an_operator_on_another_grid() {
         Banded5::from_fn(other, |i, j| Coeffs5::laplacian(other, i, j)).unwrap();
     let mut solver = MixedRefinement::new(single, Cg::default()).unwrap();
     let mut x = vec![0.0; 25];
-    assert!(matches!(
-        solver.solve(&op, &[1.0; 25], &mut x),
-        Err(Error::GridMismatch { .. })
-    ));
+    assert!(
+        (solver.solve(&op, &[1.0; 25], &mut x)).is_err_and(|e| e.kind() == ErrorKind::GridMismatch)
+    );
 }
 
 #[test]
@@ -64,9 +63,8 @@ fn casting_to_f32_reports_coefficients_that_overflow() {
         vec![0.0; 3],
     )
     .unwrap();
-    assert!(matches!(
-        op.cast::<f32>(),
-        Err(Error::NonFinite { cell: 0, .. })
+    assert!((op.cast::<f32>()).is_err_and(
+        |e| e.kind() == ErrorKind::NonFinite && e.location().map(|at| at.cell) == Some(0)
     ));
 }
 
@@ -82,7 +80,7 @@ fn a_single_precision_preconditioner_keeps_f64_pcg_accurate() {
         let mg32 = Multigrid::new(&single, MultigridSettings::default()).unwrap();
         let opts = SolveOptions::default().tolerance(1e-10);
         let mut x = p.x0.clone();
-        let report = Pcg::new(SinglePrecision::new(mg32, p.grid))
+        let report = Pcg::new(SinglePrecision::new(single, mg32))
             .with_options(opts.clone())
             .solve(&op, &p.rhs, &mut x)
             .unwrap();

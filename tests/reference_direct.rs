@@ -1,4 +1,4 @@
-//! Every driver against a general-purpose dense direct solver (nalgebra's LU factorisation) on
+//! Every engine of the registry (`common::engines`) against a general-purpose dense direct solver (nalgebra's LU factorisation) on
 //! random symmetric, strictly diagonally dominant 5-point systems with fixed cells, including
 //! 1×1, 1×n and n×1 grids.
 //!
@@ -9,6 +9,7 @@
 
 mod common;
 
+use common::engines::engines;
 use common::{dist, norm, random_sdd, Problem};
 use proptest::prelude::*;
 use quintet::prelude::*;
@@ -17,7 +18,7 @@ const TOL: f64 = 1e-10;
 
 fn check_against_reference(
     p: &Problem,
-    solver: &mut impl IterativeSolver<f64>,
+    solver: &mut dyn IterativeSolver<f64>,
 ) -> Result<(), TestCaseError> {
     let op = p.banded();
     let mut x = p.x0.clone();
@@ -71,31 +72,25 @@ fn options() -> SolveOptions {
 proptest! {
     #![proptest_config(ProptestConfig::with_cases(256))]
 
+    /// Every engine of the registry against the dense direct solve, on the same problems.
     #[test]
-    fn steepest_descent_matches_dense_lu(p in problems()) {
-        check_against_reference(&p, &mut SteepestDescent::new(options()))?;
-    }
-
-    #[test]
-    fn cg_matches_dense_lu(p in problems()) {
-        check_against_reference(&p, &mut Cg::default().with_options(options()))?;
-    }
-
-    #[test]
-    fn jacobi_pcg_matches_dense_lu(p in problems()) {
+    fn every_engine_matches_dense_lu(p in problems()) {
+        let m_matrix = p.is_m_matrix();
         let op = p.banded();
-        check_against_reference(&p, &mut Pcg::new(Jacobi::new(&op).unwrap()).with_options(options()))?;
+        for engine in engines() {
+            if engine.handles(m_matrix) {
+                check_against_reference(&p, &mut *engine.solver(&op, options()))
+                    .map_err(|e| TestCaseError::fail(format!("{}: {e}", engine.name)))?;
+            }
+        }
     }
 
     #[test]
-    fn sor_lexicographic_matches_dense_lu(p in problems(), omega in 0.5f64..1.9) {
-        check_against_reference(&p, &mut Sor::new(omega).unwrap().with_options(options()))?;
-    }
-
-    #[test]
-    fn sor_red_black_matches_dense_lu(p in problems(), omega in 0.5f64..1.9) {
-        let mut sor = Sor::new(omega).unwrap().ordering(SweepOrder::RedBlack).with_options(options());
-        check_against_reference(&p, &mut sor)?;
+    fn sor_at_any_relaxation_factor_matches_dense_lu(p in problems(), omega in 0.5f64..1.9) {
+        for order in [SweepOrder::Lexicographic, SweepOrder::RedBlack] {
+            let mut sor = Sor::new(omega).unwrap().ordering(order).with_options(options());
+            check_against_reference(&p, &mut sor)?;
+        }
     }
 }
 
@@ -105,8 +100,11 @@ fn degenerate_grids_solve_exactly() {
     for (nx, ny) in [(1, 1), (1, 17), (17, 1)] {
         for seed in 0..8 {
             let p = random_sdd(nx, ny, seed, 0.2, false);
-            check_against_reference(&p, &mut Cg::default().with_options(options())).unwrap();
-            check_against_reference(&p, &mut Sor::gauss_seidel().with_options(options())).unwrap();
+            let op = p.banded();
+            for engine in engines() {
+                check_against_reference(&p, &mut *engine.solver(&op, options()))
+                    .unwrap_or_else(|e| panic!("{} on {nx} x {ny}: {e}", engine.name));
+            }
         }
     }
 }

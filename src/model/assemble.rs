@@ -11,10 +11,11 @@
 use super::axis::AxisLayout;
 use super::book::{Action, Book};
 use super::budget::FlowKind;
-use super::builder::Model;
-use super::conditions::{Spec, Target};
 use super::geometry::Geometry;
 use super::medium::ConductivityBasis;
+use super::spec::{Model, Spec, Target};
+use crate::error::Location;
+use crate::space::first_flagged;
 use crate::{Error, Grid, Side};
 
 /// A connected group of free cells with nothing that sets its level.
@@ -41,8 +42,61 @@ pub(crate) struct Assembly {
     pub(crate) volumes: Vec<f64>,
 }
 
+/// What an assembly found besides the coefficients: the fixed cells and the floating regions.
+#[derive(Clone, Debug)]
+pub(crate) struct Found {
+    /// Prescribed and inactive cells, in increasing order.
+    pub(crate) fixed: Vec<usize>,
+    pub(crate) floating: Vec<Region>,
+}
+
 /// Assemble `model`; with `transient`, storage is required and anchors regions.
 pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error> {
+    let grid = model.geometry.grid();
+    let n = grid.cells();
+    let mut bands: [Vec<f64>; 5] = Default::default();
+    let mut book = Book::new(model.tag, grid);
+    let mut capacity = Vec::new();
+    let found = fill(model, transient, bands.each_mut(), &mut book, &mut capacity)?;
+    Ok(Assembly {
+        grid,
+        bands,
+        fixed: found.fixed,
+        book,
+        inactive: (0..n).filter(|&k| !model.active[k]).collect(),
+        inactive_value: model.inactive_value,
+        capacity,
+        floating: found.floating,
+        volumes: (0..n).map(|k| model.geometry.volume(k)).collect(),
+    })
+}
+
+/// Assemble `model` again into the storage of an earlier assembly of the same model record
+/// (same cells, conditions and inactive cells; conductivity, exchange coefficients or storage
+/// changed): the bands and capacity are overwritten and the book's weights refreshed, its
+/// slots, levels and handles kept.
+pub(crate) fn reassemble(
+    model: &Model,
+    transient: bool,
+    bands: [&mut Vec<f64>; 5],
+    book: &mut Book,
+    capacity: &mut Vec<f64>,
+) -> Result<Found, Error> {
+    book.rewind();
+    let found = fill(model, transient, bands, book, capacity);
+    book.end_refill();
+    found
+}
+
+/// The assembly proper: bands, capacity and book (created, or refreshed when the book is
+/// rewound).
+fn fill(
+    model: &Model,
+    transient: bool,
+    bands: [&mut Vec<f64>; 5],
+    book: &mut Book,
+    capacity: &mut Vec<f64>,
+) -> Result<Found, Error> {
     let g = &model.geometry;
     let grid = g.grid();
     let n = grid.cells();
@@ -105,19 +159,18 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
     };
 
     // Center, then west, east, south, north; inactive cells are identity rows.
-    let mut bands: [Vec<f64>; 5] = std::array::from_fn(|b| {
-        (0..n)
-            .map(|k| match (model.active[k], b) {
-                (false, 0) => 1.0,
-                (false, _) => 0.0,
-                (true, 0) => Side::ALL.into_iter().map(|side| face(k, side)).sum(),
-                (true, b) => -face(k, Side::ALL[b - 1]),
-            })
-            .collect()
-    });
+    let mut bands = bands;
+    for (b, band) in bands.iter_mut().enumerate() {
+        band.clear();
+        band.extend((0..n).map(|k| match (model.active[k], b) {
+            (false, 0) => 1.0,
+            (false, _) => 0.0,
+            (true, 0) => Side::ALL.into_iter().map(|side| face(k, side)).sum(), // local: one cell's four faces
+            (true, b) => -face(k, Side::ALL[b - 1]),
+        }));
+    }
 
     // Conditions into slots.
-    let mut book = Book::new(model.tag, grid);
     let mut anchored = vec![false; n];
     for (c, cond) in model.conditions.iter().enumerate() {
         let label = cond.label.as_str();
@@ -126,13 +179,7 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
             if !model.active[k] {
                 Err(inactive(grid, what, k))
             } else if fixed_mask[k] {
-                let (i, j) = grid.coords(k);
-                Err(Error::PrescribedCellConflict {
-                    what,
-                    cell: k,
-                    i,
-                    j,
-                })
+                Err(Error::prescribed_conflict(what, Location::on(grid, k)))
             } else {
                 Ok(())
             }
@@ -163,11 +210,13 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
                         continue;
                     }
                     book.push(k, 0.0, values.at(t));
+                    // Every neighbour is linked, conducting or not, so that the slots keep
+                    // their shape when the conductivity changes in place.
                     for side in Side::ALL {
-                        let cf = face(k, side);
-                        if let (Some(nb), true) = (grid.neighbour(k, side), cf > 0.0) {
+                        if let Some(nb) = grid.neighbour(k, side) {
+                            let cf = face(k, side);
                             book.link(nb, cf);
-                            anchored[nb] = true;
+                            anchored[nb] |= cf > 0.0;
                         }
                     }
                 }
@@ -252,7 +301,8 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
         }
     }
 
-    let mut capacity = vec![0.0; n];
+    capacity.clear();
+    capacity.resize(n, 0.0);
     if let (true, Some(storage)) = (transient, &model.storage) {
         for k in (0..n).filter(|&k| model.active[k]) {
             let size = if storage.is_per_volume() {
@@ -266,16 +316,9 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
     }
 
     let floating = floating_regions(grid, &fixed_mask, &anchored, &face);
-    Ok(Assembly {
-        grid,
-        bands,
+    Ok(Found {
         fixed: (0..n).filter(|&k| fixed_mask[k]).collect(),
-        book,
-        inactive: (0..n).filter(|&k| !model.active[k]).collect(),
-        inactive_value: model.inactive_value,
-        capacity,
         floating,
-        volumes: (0..n).map(|k| g.volume(k)).collect(),
     })
 }
 
@@ -304,44 +347,42 @@ fn resistance(model: &Model, k: usize, side: Side) -> f64 {
     }
 }
 
-/// Check thickness, conductivities and (for a transient run) storage at active cells.
+/// Check thickness, conductivities and (for a transient run) storage at active cells; the
+/// first bad cell is found through the model's space, so every process would name the same.
 fn check_medium(model: &Model, transient: bool) -> Result<(), Error> {
     let grid = model.grid();
     if transient && model.storage.is_none() {
-        return Err(Error::InvalidSetting {
-            name: "storage",
-            value: 0.0,
-            allowed: "storage set with Model::set_storage before a transient run",
-        });
+        return Err(Error::setting(
+            "storage",
+            0.0,
+            "storage set with Model::set_storage before a transient run",
+        ));
     }
     let storage = model.storage.as_ref().filter(|_| transient);
-    for k in (0..grid.cells()).filter(|&k| model.active[k]) {
+    let bad = |k: usize| -> Option<Error> {
         let checks = [
             ("thickness", model.geometry.thickness(k), false),
             ("x conductivity", model.conductivity.x().at(k), true),
             ("y conductivity", model.conductivity.y().at(k), true),
             ("storage", storage.map_or(0.0, |s| s.values().at(k)), true),
         ];
-        for (what, value, zero_ok) in checks {
+        checks.into_iter().find_map(|(what, value, zero_ok)| {
             let ok = value.is_finite() && (value > 0.0 || (zero_ok && value == 0.0));
-            if !ok {
-                let (i, j) = grid.coords(k);
-                return Err(Error::InvalidProperty {
-                    what,
-                    cell: k,
-                    i,
-                    j,
-                    value,
-                    allowed: if zero_ok {
-                        "finite and >= 0"
-                    } else {
-                        "finite and > 0"
-                    },
-                });
-            }
-        }
+            let allowed = if zero_ok {
+                "finite and >= 0"
+            } else {
+                "finite and > 0"
+            };
+            (!ok).then(|| Error::property(what, Location::on(grid, k), value, allowed))
+        })
+    };
+    let first = first_flagged(&*model.space, grid.cells(), |k| {
+        model.active[k] && bad(k).is_some()
+    });
+    match first.and_then(bad) {
+        Some(e) => Err(e),
+        None => Ok(()),
     }
-    Ok(())
 }
 
 /// Connected groups of free cells (through faces that conduct) with no anchored cell.
@@ -383,11 +424,5 @@ fn floating_regions(
 }
 
 fn inactive(grid: Grid, what: String, k: usize) -> Error {
-    let (i, j) = grid.coords(k);
-    Error::InactiveCell {
-        what,
-        cell: k,
-        i,
-        j,
-    }
+    Error::inactive_cell(what, Location::on(grid, k))
 }

@@ -57,8 +57,8 @@ impl Axis {
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidSpacing`] for a width that is not positive and finite,
-    /// [`Error::InvalidSetting`] for an empty list.
+    /// [`ErrorKind::InvalidSpacing`](crate::ErrorKind::InvalidSpacing) for a width that is not positive and finite,
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for an empty list.
     ///
     /// ```
     /// use quintet::model::Axis;
@@ -103,8 +103,8 @@ impl Axis {
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidSpacing`] for a spacing that is not positive and finite,
-    /// [`Error::InvalidSetting`] for an empty list (a single node has no control volume).
+    /// [`ErrorKind::InvalidSpacing`](crate::ErrorKind::InvalidSpacing) for a spacing that is not positive and finite,
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for an empty list (a single node has no control volume).
     ///
     /// ```
     /// let axis = quintet::model::Axis::nodes(vec![0.25, 0.5])?;
@@ -265,18 +265,14 @@ impl Axis {
 
 fn check_spacings(what: &'static str, spacings: &[f64]) -> Result<(), Error> {
     if spacings.is_empty() {
-        return Err(Error::InvalidSetting {
-            name: what,
-            value: 0.0,
-            allowed: "at least one spacing (a node-centred axis needs two nodes; for a single row or column use a cell-centred axis of one cell)",
-        });
+        return Err(Error::setting(
+            what,
+            0.0,
+            "at least one spacing (a node-centred axis needs two nodes; for a single row or column use a cell-centred axis of one cell)",
+        ));
     }
     match spacings.iter().position(|s| !(s.is_finite() && *s > 0.0)) {
-        Some(index) => Err(Error::InvalidSpacing {
-            what,
-            index,
-            value: spacings[index],
-        }),
+        Some(index) => Err(Error::spacing(what, index, spacings[index])),
         None => Ok(()),
     }
 }

@@ -15,7 +15,9 @@
 use std::ops::Range;
 
 use super::budget::{Budget, BudgetLine, FlowKind};
-use super::builder::ConditionId;
+use super::spec::ConditionId;
+use crate::error::Location;
+use crate::space::{total, Space};
 use crate::{Error, Grid};
 
 /// How a term's slots act.
@@ -54,6 +56,8 @@ pub(crate) struct Book {
     /// For every slot, the range of its links in `links` (empty unless fixed).
     pub(crate) link_ranges: Vec<Range<usize>>,
     pub(crate) links: Vec<Link>,
+    /// While an assembly refreshes the weights in place: the next slot and link to overwrite.
+    refill: Option<(usize, usize)>,
 }
 
 impl Book {
@@ -67,11 +71,27 @@ impl Book {
             levels: Vec::new(),
             link_ranges: Vec::new(),
             links: Vec::new(),
+            refill: None,
         }
+    }
+
+    /// Start refreshing the weights in place: the assembly that follows opens the same terms
+    /// and pushes the same slots and links in the same order, and only their weights and
+    /// conductances are overwritten (levels, and so forcing, are kept).
+    pub(crate) fn rewind(&mut self) {
+        self.refill = Some((0, 0));
+    }
+
+    /// End a refresh started by [`Book::rewind`].
+    pub(crate) fn end_refill(&mut self) {
+        self.refill = None;
     }
 
     /// Open a new term; slots pushed until the next call belong to it.
     pub(crate) fn open(&mut self, label: &str, kind: FlowKind, action: Action) {
+        if self.refill.is_some() {
+            return;
+        }
         let at = self.cells.len();
         self.terms.push(Term {
             label: label.to_string(),
@@ -81,8 +101,17 @@ impl Book {
         });
     }
 
-    /// Add a slot to the open term.
+    /// Add a slot to the open term (or, refreshing, overwrite the next slot's weight).
     pub(crate) fn push(&mut self, cell: usize, weight: f64, level: f64) {
+        if let Some((slot, link)) = &mut self.refill {
+            debug_assert_eq!(self.cells.get(*slot), Some(&cell));
+            if let Some(w) = self.weights.get_mut(*slot) {
+                *w = weight;
+            }
+            *link = self.link_ranges.get(*slot).map_or(*link, |r| r.start);
+            *slot += 1;
+            return;
+        }
         self.cells.push(cell);
         self.weights.push(weight);
         self.levels.push(level);
@@ -93,8 +122,16 @@ impl Book {
         }
     }
 
-    /// Add a link to the last slot.
+    /// Add a link to the last slot (or, refreshing, overwrite the next link's conductance).
     pub(crate) fn link(&mut self, free: usize, conductance: f64) {
+        if let Some((_, link)) = &mut self.refill {
+            if let Some(l) = self.links.get_mut(*link) {
+                debug_assert_eq!(l.free, free);
+                l.conductance = conductance;
+            }
+            *link += 1;
+            return;
+        }
         self.links.push(Link { free, conductance });
         if let Some(range) = self.link_ranges.last_mut() {
             range.end = self.links.len();
@@ -129,13 +166,13 @@ impl Book {
         }
     }
 
-    /// Conduction out of fixed slot `s` to its active neighbours.
+    /// Conduction out of fixed slot `s` to its neighbours.
     fn conduction_out(&self, s: usize, x: &[f64]) -> f64 {
         let here = x[self.cells[s]];
         self.links[self.link_ranges[s].clone()]
             .iter()
             .map(|l| l.conductance * (here - x[l.free]))
-            .sum()
+            .sum() // local: one cell's links
     }
 
     /// The budget lines of all terms. Each slot's flow is weighted `theta` at the new state
@@ -146,6 +183,7 @@ impl Book {
     /// into it, plus what it takes into storage (`storage_uptake`, per cell, if given).
     pub(crate) fn lines(
         &self,
+        space: &dyn Space,
         new: (&[f64], &[f64]),
         previous: Option<(&[f64], &[f64], f64)>,
         storage_uptake: Option<&dyn Fn(usize) -> f64>,
@@ -196,12 +234,19 @@ impl Book {
                 book_flow(line, flow);
             }
         }
+        // This process's cells are summed; the space totals them over all processes.
+        let mut sums: Vec<f64> = lines.iter().flat_map(|l| [l.inflow, l.outflow]).collect();
+        total(space, &mut sums);
+        for (line, pair) in lines.iter_mut().zip(sums.chunks_exact(2)) {
+            line.inflow = pair[0];
+            line.outflow = pair[1];
+        }
         lines
     }
 
     /// The budget of a steady solution.
-    pub(crate) fn steady_budget(&self, x: &[f64]) -> Budget {
-        Budget::from_lines(self.lines((x, &self.levels), None, None))
+    pub(crate) fn steady_budget(&self, space: &dyn Space, x: &[f64]) -> Budget {
+        Budget::from_lines(self.lines(space, (x, &self.levels), None, None))
     }
 }
 
@@ -243,7 +288,7 @@ impl Forcing<'_> {
     ///
     /// # Errors
     ///
-    /// [`Error::UnknownCondition`] for a handle from another model, [`Error::NonFinite`] for a
+    /// [`ErrorKind::UnknownCondition`](crate::ErrorKind::UnknownCondition) for a handle from another model, [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite) for a
     /// level that is not finite.
     ///
     /// ```
@@ -282,13 +327,10 @@ impl Forcing<'_> {
         for s in range.clone() {
             let v = level(book.cells[s]);
             if !v.is_finite() {
-                let (i, j) = book.grid.coords(book.cells[s]);
-                return Err(Error::NonFinite {
-                    what: "forcing level",
-                    cell: book.cells[s],
-                    i,
-                    j,
-                });
+                return Err(Error::non_finite(
+                    "forcing level",
+                    Location::on(book.grid, book.cells[s]),
+                ));
             }
         }
         for s in range {
@@ -301,7 +343,7 @@ impl Forcing<'_> {
     ///
     /// # Errors
     ///
-    /// [`Error::UnknownCondition`].
+    /// [`ErrorKind::UnknownCondition`](crate::ErrorKind::UnknownCondition).
     ///
     /// ```
     /// # use quintet::model::{Conductivity, Geometry, Model};
@@ -324,7 +366,7 @@ impl Forcing<'_> {
     ///
     /// # Errors
     ///
-    /// [`Error::UnknownCondition`].
+    /// [`ErrorKind::UnknownCondition`](crate::ErrorKind::UnknownCondition).
     ///
     /// ```
     /// # use quintet::model::{Conductivity, Geometry, Model};
@@ -344,17 +386,14 @@ impl Forcing<'_> {
     }
 
     fn slots(&self, id: ConditionId) -> Result<Range<usize>, Error> {
-        let unknown = Error::UnknownCondition {
-            id: id.index,
-            count: self.book.terms.len(),
-        };
+        let unknown = || Error::unknown_condition(id.index, self.book.terms.len());
         if id.model != self.book.model {
-            return Err(unknown);
+            return Err(unknown());
         }
         self.book
             .terms
             .get(id.index)
             .map(|t| t.slots.clone())
-            .ok_or(unknown)
+            .ok_or_else(unknown)
     }
 }

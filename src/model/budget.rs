@@ -3,7 +3,7 @@
 
 use std::fmt;
 
-use super::builder::ConditionId;
+use super::spec::ConditionId;
 use crate::Error;
 
 /// The kind of a budget term.
@@ -146,8 +146,8 @@ impl Budget {
     /// assert_eq!(b.discrepancy_percent(), 0.0);
     /// ```
     pub fn from_lines(lines: Vec<BudgetLine>) -> Budget {
-        let total_in = lines.iter().map(|l| l.inflow).sum();
-        let total_out = lines.iter().map(|l| l.outflow).sum();
+        let total_in = lines.iter().map(|l| l.inflow).sum(); // local: lines are totals
+        let total_out = lines.iter().map(|l| l.outflow).sum(); // local: lines are totals
         Budget {
             lines,
             total_in,
@@ -222,7 +222,7 @@ impl Budget {
                 .lines
                 .iter()
                 .filter(|l| l.kind == kind)
-                .fold((0.0, 0.0), |(a, b), l| (a + l.inflow, b + l.outflow));
+                .fold((0.0, 0.0), |(a, b), l| (a + l.inflow, b + l.outflow)); // local: lines
             out.push(BudgetLine {
                 label: kind.to_string(),
                 kind,
@@ -252,7 +252,7 @@ impl Budget {
     ///
     /// # Errors
     ///
-    /// [`Error::BudgetOutOfBalance`] otherwise.
+    /// [`ErrorKind::BudgetImbalance`](crate::ErrorKind::BudgetImbalance) otherwise.
     ///
     /// ```
     /// # use quintet::model::{Budget, BudgetLine, FlowKind};
@@ -262,10 +262,10 @@ impl Budget {
     pub fn ensure_within(&self, threshold_percent: f64) -> Result<(), Error> {
         match self.warning(threshold_percent) {
             None => Ok(()),
-            Some(w) => Err(Error::BudgetOutOfBalance {
-                discrepancy_percent: w.discrepancy_percent,
+            Some(w) => Err(Error::budget_imbalance(
+                w.discrepancy_percent,
                 threshold_percent,
-            }),
+            )),
         }
     }
 

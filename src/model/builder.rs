@@ -1,117 +1,20 @@
-//! [`Model`]: geometry, medium and conditions, collected before assembly.
+//! Building a [`Model`]: every method of the model record, from its geometry and medium to the
+//! conditions and the assembly into a [`SteadySystem`].
 
-use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::atomic::Ordering;
+use std::sync::Arc;
 
-use super::assemble;
-use super::conditions::Condition;
+use super::field::{Field, Profile};
 use super::geometry::Geometry;
 use super::medium::{Conductivity, Storage};
+use super::spec::{
+    check_nonnegative, check_profile, Condition, ConditionId, Model, SingularPolicy,
+};
+use super::spec::{Spec, Target, NEXT_MODEL_TAG};
 use super::steady::SteadySystem;
-use crate::{Error, Grid};
-
-/// A handle to one condition of a [`Model`], returned when the condition is added. Use it to
-/// change the condition's values between solves or during a transient run
-/// ([`Forcing`](super::Forcing)) and to find its line in a [`Budget`](super::Budget).
-///
-/// ```
-/// use quintet::model::{Conductivity, Geometry, Model};
-/// let mut model = Model::new(Geometry::cell_centered(5, 5, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
-/// let heater = model.point_source("heater", 12, 3.0)?;
-/// assert_eq!(model.label(heater), Some("heater"));
-/// # Ok::<(), quintet::Error>(())
-/// ```
-///
-/// A handle remembers the model it came from (a clone of a model shares its handles); using
-/// it with another model's system is [`Error::UnknownCondition`].
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord)]
-pub struct ConditionId {
-    pub(crate) model: u64,
-    pub(crate) index: usize,
-}
-
-/// Source of model tags, so that handles from one model are refused by another.
-static NEXT_MODEL_TAG: AtomicU64 = AtomicU64::new(1);
-
-impl ConditionId {
-    /// The position of the condition in the order it was added (0 for the first).
-    ///
-    /// ```
-    /// # use quintet::model::{Conductivity, Geometry, Model};
-    /// # let mut model = Model::new(Geometry::cell_centered(5, 5, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
-    /// let first = model.point_source("heater", 12, 3.0)?;
-    /// assert_eq!(first.index(), 0);
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    pub fn index(self) -> usize {
-        self.index
-    }
-}
-
-/// What to do when some connected group of active cells has nothing that sets its level (no
-/// prescribed value and no exchange reaching it): the steady equations are then singular,
-/// with every constant shift of that group's values another solution.
-///
-/// ```
-/// use quintet::model::SingularPolicy;
-/// assert_eq!(SingularPolicy::default(), SingularPolicy::Reject);
-/// ```
-#[derive(Clone, Copy, Debug, PartialEq, Default)]
-pub enum SingularPolicy {
-    /// Refuse to assemble, with [`Error::FloatingRegion`] naming a cell of the group.
-    #[default]
-    Reject,
-    /// Solve the compatible problem: the sources of each such group must balance (to one part
-    /// in a million of their total magnitude, else [`Error::UnbalancedSources`]); the rest of
-    /// the imbalance is removed from the right-hand side, and after the solve the group's
-    /// volume-weighted mean is set to this value.
-    FixMean(f64),
-}
-
-/// A conduction (heat) or confined-flow (groundwater) model on a structured grid: geometry,
-/// conductivity, inactive cells, boundary conditions and sources, and optionally storage.
-///
-/// Build it up, then [`assemble`](Model::assemble) it into a [`SteadySystem`] for any driver,
-/// or hand it to a [`Stepper`](super::Stepper) for a transient run. Conditions are applied in
-/// the order added; where two prescribed values reach the same cell, the later one wins. Edge
-/// conditions and distributed sources skip inactive cells; on a prescribed cell they cannot
-/// change the solution, and the budget shows their flow passing straight out through the
-/// prescribed value. A condition placed by name on an inactive or prescribed cell is an error.
-/// Sources are positive into the model: a pumping well or a cooler is a negative source.
-///
-/// # Example
-///
-/// ```
-/// use quintet::model::{Conductivity, Geometry, Model};
-/// use quintet::prelude::*;
-///
-/// // A confined aquifer, 30 x 20 cells of 50 m, 10 m thick, K = 2e-4 m/s.
-/// let geometry = Geometry::cell_centered(30, 20, 50.0, 50.0, 10.0)?;
-/// let mut model = Model::new(geometry, Conductivity::isotropic(2e-4))?;
-/// model.prescribe_edge("lake", Side::West, 15.0)?;          // head on the west edge, m
-/// model.areal_source("recharge", 5e-9)?;                     // m/s over the plan area
-/// let well = model.point_source("supply well", 315, -4e-3)?; // m³/s, pumping
-///
-/// let system = model.assemble()?;
-/// let mut heads = system.initial_solution(15.0);
-/// let mut pcg = Pcg::new(Jacobi::new(system.operator())?)
-///     .with_options(SolveOptions::default().tolerance(1e-10));
-/// system.solve(&mut pcg, &mut heads, &mut Workspace::new())?;
-/// let budget = system.budget(&heads)?;
-/// assert!(budget.discrepancy_percent().abs() < 1e-6);
-/// assert_eq!(budget.line(well).map(|l| l.outflow), Some(4e-3));
-/// # Ok::<(), quintet::Error>(())
-/// ```
-#[derive(Clone, Debug, PartialEq)]
-pub struct Model {
-    pub(crate) tag: u64,
-    pub(crate) geometry: Geometry,
-    pub(crate) conductivity: Conductivity,
-    pub(crate) active: Vec<bool>,
-    pub(crate) inactive_value: f64,
-    pub(crate) storage: Option<Storage>,
-    pub(crate) conditions: Vec<Condition>,
-    pub(crate) singular: SingularPolicy,
-}
+use crate::error::Location;
+use crate::space::{Space, Threaded};
+use crate::{Error, Grid, Side};
 
 impl Model {
     /// A model with every cell active, no conditions (every edge no-flow / insulated) and no
@@ -119,7 +22,7 @@ impl Model {
     ///
     /// # Errors
     ///
-    /// [`Error::LengthMismatch`] if a per-cell conductivity does not have one value per cell.
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) if a per-cell conductivity does not have one value per cell.
     ///
     /// ```
     /// use quintet::model::{Conductivity, Geometry, Model};
@@ -139,6 +42,7 @@ impl Model {
             storage: None,
             conditions: Vec::new(),
             singular: SingularPolicy::Reject,
+            space: Arc::new(Threaded),
         })
     }
 
@@ -173,7 +77,7 @@ impl Model {
     ///
     /// # Errors
     ///
-    /// [`Error::CellOutOfRange`] for an index off the grid (no cell is changed then).
+    /// [`ErrorKind::CellOutOfRange`](crate::ErrorKind::CellOutOfRange) for an index off the grid (no cell is changed then).
     ///
     /// ```
     /// # use quintet::model::{Conductivity, Geometry, Model};
@@ -209,7 +113,7 @@ impl Model {
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidSetting`] for a value that is not finite.
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for a value that is not finite.
     ///
     /// ```
     /// # use quintet::model::{Conductivity, Geometry, Model};
@@ -220,11 +124,7 @@ impl Model {
     /// ```
     pub fn set_inactive_value(&mut self, value: f64) -> Result<(), Error> {
         if !value.is_finite() {
-            return Err(Error::InvalidSetting {
-                name: "inactive value",
-                value,
-                allowed: "a finite value",
-            });
+            return Err(Error::setting("inactive value", value, "a finite value"));
         }
         self.inactive_value = value;
         Ok(())
@@ -234,7 +134,7 @@ impl Model {
     ///
     /// # Errors
     ///
-    /// [`Error::LengthMismatch`] for a per-cell field of the wrong length. Values are checked
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) for a per-cell field of the wrong length. Values are checked
     /// (finite, `>= 0`) at active cells when a run is set up.
     ///
     /// ```
@@ -284,21 +184,48 @@ impl Model {
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidProperty`] naming the first active cell with a negative or non-finite
-    /// conductivity or a thickness that is not positive; [`Error::InactiveCell`] and
-    /// [`Error::PrescribedCellConflict`] for conditions placed by name on cells where they
-    /// cannot act; [`Error::FloatingRegion`] or [`Error::UnbalancedSources`] for a singular
+    /// [`ErrorKind::InvalidProperty`](crate::ErrorKind::InvalidProperty) naming the first active cell with a negative or non-finite
+    /// conductivity or a thickness that is not positive; [`ErrorKind::InactiveCell`](crate::ErrorKind::InactiveCell) and
+    /// [`ErrorKind::PrescribedCellConflict`](crate::ErrorKind::PrescribedCellConflict) for conditions placed by name on cells where they
+    /// cannot act; [`ErrorKind::FloatingRegion`](crate::ErrorKind::FloatingRegion) or [`ErrorKind::UnbalancedSources`](crate::ErrorKind::UnbalancedSources) for a singular
     /// problem (see [`SingularPolicy`]).
     ///
     /// ```
-    /// # use quintet::{model::{Conductivity, Geometry, Model}, Error};
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, ErrorKind};
     /// let mut model = Model::new(Geometry::cell_centered(3, 3, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
     /// // No prescribed value and no exchange: the level is undetermined.
-    /// assert!(matches!(model.assemble(), Err(Error::FloatingRegion { cells: 9, .. })));
+    /// assert_eq!(model.assemble().unwrap_err().kind(), ErrorKind::FloatingRegion);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn assemble(&self) -> Result<SteadySystem, Error> {
-        SteadySystem::from_assembly(assemble::assemble(self, false)?, self.singular)
+        SteadySystem::new(self)
+    }
+
+    /// Run the model's reductions (validation scans, budget sums) and the solves of its
+    /// systems and steppers in `space` (default: [`Threaded`]).
+    ///
+    /// ```
+    /// use std::sync::Arc;
+    /// use quintet::model::{Conductivity, Geometry, Model};
+    /// let mut model = Model::new(Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.set_space(Arc::new(quintet::space::Serial));
+    /// assert!(!model.space().threaded());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_space(&mut self, space: Arc<dyn Space>) {
+        self.space = space;
+    }
+
+    /// The space the model's reductions run in.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// let model = Model::new(Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// assert_eq!(model.space().threaded(), cfg!(feature = "parallel"));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn space(&self) -> &Arc<dyn Space> {
+        &self.space
     }
 
     pub(crate) fn checked_cells(
@@ -308,8 +235,274 @@ impl Model {
         let n = self.grid().cells();
         let cells: Vec<usize> = cells.into_iter().collect();
         match cells.iter().find(|&&k| k >= n) {
-            Some(&cell) => Err(Error::CellOutOfRange { cell, cells: n }),
+            Some(&cell) => Err(Error::cell_out_of_range(cell, n)),
             None => Ok(cells),
         }
     }
+
+    /// Hold the listed cells at prescribed values (fixed head or temperature at the cells'
+    /// nodes): one value for all, or one per listed cell. The cells must be active.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::CellOutOfRange`](crate::ErrorKind::CellOutOfRange), [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) for a profile that does not match
+    /// the cells, [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite) for a non-finite value.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.prescribe_cells("spring", [4], 102.5)?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn prescribe_cells(
+        &mut self,
+        label: impl Into<String>,
+        cells: impl IntoIterator<Item = usize>,
+        values: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let cells = self.checked_cells(cells)?;
+        let values = values.into();
+        check_profile(self.grid(), "prescribed value", &cells, &values)?;
+        Ok(self.push(label, Target::Cells(cells), Spec::Value(values)))
+    }
+
+    /// Prescribe the value on the edge `side` (fixed head or temperature on the boundary line):
+    /// one value, or one per cell along the edge. On a cell-centred axis the value acts on the
+    /// outer faces of the edge cells, through half a cell of conduction; on a node-centred axis
+    /// the edge nodes are held at it.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch), [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite).
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Side};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.prescribe_edge("cold wall", Side::North, vec![5.0, 6.0, 7.0])?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn prescribe_edge(
+        &mut self,
+        label: impl Into<String>,
+        side: Side,
+        values: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let values = values.into();
+        check_profile(
+            self.grid(),
+            "prescribed value",
+            &self.geometry.edge(side),
+            &values,
+        )?;
+        Ok(self.push(label, Target::Edge(side), Spec::Value(values)))
+    }
+
+    /// Prescribe the flux through the edge `side`, per unit face area, positive into the
+    /// model: W/m² for heat, m/s (m³/s per m²) for groundwater. An edge with no condition is
+    /// already no-flow (insulated); this is for nonzero fluxes.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch), [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite).
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Side};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.edge_flux("solar gain", Side::South, 350.0)?; // W/m²
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn edge_flux(
+        &mut self,
+        label: impl Into<String>,
+        side: Side,
+        flux: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let flux = flux.into();
+        check_profile(self.grid(), "edge flux", &self.geometry.edge(side), &flux)?;
+        Ok(self.push(label, Target::Edge(side), Spec::Flux(flux)))
+    }
+
+    /// Exchange through the edge `side` with an outside value: the flow into the model is
+    /// `h·A·(φ_outside − φ_face)`, with `A` the face area and `h` per unit area — a convection
+    /// coefficient (W/(m²·K)) for heat, or a conductance per area (1/s, bed conductivity over
+    /// bed thickness) for a river, lake or drain-like edge. On a cell-centred axis the half
+    /// cell between node and face is added in series.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch), [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite), and [`ErrorKind::InvalidProperty`](crate::ErrorKind::InvalidProperty) for a
+    /// negative coefficient.
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Side};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 0.1, 0.1, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.edge_exchange("air", Side::East, 25.0, 20.0)?; // h = 25 W/(m²·K), 20 °C air
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn edge_exchange(
+        &mut self,
+        label: impl Into<String>,
+        side: Side,
+        coefficient: impl Into<Profile>,
+        outside: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let (coefficient, external) = (coefficient.into(), outside.into());
+        let cells = self.geometry.edge(side);
+        check_profile(self.grid(), "exchange coefficient", &cells, &coefficient)?;
+        check_profile(self.grid(), "outside value", &cells, &external)?;
+        check_nonnegative(self.grid(), "exchange coefficient", &cells, &coefficient)?;
+        let spec = Spec::Exchange {
+            coefficient,
+            external,
+        };
+        Ok(self.push(label, Target::Edge(side), spec))
+    }
+
+    /// Exchange between the listed cells and an outside value: the flow into each cell is
+    /// `C·(φ_outside − φ_cell)` with `C` a conductance per cell — W/K for heat (a cooling
+    /// channel), m²/s for a river, drain or leaky layer in the cell. The cells must be active
+    /// and not prescribed. The exchange is linear and works both ways: a drain that only
+    /// removes water while the head is above its level, or a river that disconnects from a
+    /// deep water table, is not modelled — check the signs of the budget line.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::CellOutOfRange`](crate::ErrorKind::CellOutOfRange), [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch), [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite),
+    /// [`ErrorKind::InvalidProperty`](crate::ErrorKind::InvalidProperty) for a negative conductance.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 50.0, 50.0, 10.0)?, Conductivity::isotropic(1e-4))?;
+    /// // A stream through the middle row: conductance 0.02 m²/s, stage 31.2 m.
+    /// model.cell_exchange("stream", [3, 4, 5], 0.02, 31.2)?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn cell_exchange(
+        &mut self,
+        label: impl Into<String>,
+        cells: impl IntoIterator<Item = usize>,
+        conductance: impl Into<Profile>,
+        outside: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let cells = self.checked_cells(cells)?;
+        let (coefficient, external) = (conductance.into(), outside.into());
+        check_profile(self.grid(), "exchange conductance", &cells, &coefficient)?;
+        check_profile(self.grid(), "outside value", &cells, &external)?;
+        check_nonnegative(self.grid(), "exchange conductance", &cells, &coefficient)?;
+        let spec = Spec::Exchange {
+            coefficient,
+            external,
+        };
+        Ok(self.push(label, Target::Cells(cells), spec))
+    }
+
+    /// A point source in cell `k`: W for heat (a heater; negative for a cooler), m³/s for
+    /// groundwater (an injection well; negative for a pumping well). The cell must be active
+    /// and not prescribed.
+    ///
+    /// The value computed in the source's own cell is a cell average and depends on the cell
+    /// size (the exact solution is logarithmically singular at a point): it is not the head in
+    /// a pumping well nor the temperature of a heater. Estimate those with a well-radius
+    /// correction, or spread the source over its real footprint with an areal or volumetric
+    /// source.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::CellOutOfRange`](crate::ErrorKind::CellOutOfRange), [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite).
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 50.0, 50.0, 10.0)?, Conductivity::isotropic(1e-4))?;
+    /// model.point_source("well 2", 4, -0.01)?; // pumping 10 L/s
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn point_source(
+        &mut self,
+        label: impl Into<String>,
+        k: usize,
+        rate: f64,
+    ) -> Result<ConditionId, Error> {
+        let cells = self.checked_cells([k])?;
+        check_profile(
+            self.grid(),
+            "point source rate",
+            &cells,
+            &Profile::Uniform(rate),
+        )?;
+        Ok(self.push(label, Target::Cells(cells), Spec::PointSource(rate)))
+    }
+
+    /// A source spread over the plan area of every active cell, per unit plan area: recharge (m/s) for groundwater, W/m² for heat.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch), [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite).
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 50.0, 50.0, 10.0)?, Conductivity::isotropic(1e-4))?;
+    /// model.areal_source("recharge", 3.2e-9)?; // about 100 mm per year
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn areal_source(
+        &mut self,
+        label: impl Into<String>,
+        rate: impl Into<Field>,
+    ) -> Result<ConditionId, Error> {
+        let rate = rate.into();
+        self.check_field("areal source", &rate)?;
+        Ok(self.push(label, Target::Everywhere, Spec::ArealSource(rate)))
+    }
+
+    /// A source spread over the volume of every active cell, per unit volume:
+    /// heat generation (W/m³), or a volumetric water source (1/s).
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch), [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite).
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 0.01, 0.01, 0.01)?, Conductivity::isotropic(15.0))?;
+    /// model.volumetric_source("resistive heating", 2.0e6)?; // W/m³
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn volumetric_source(
+        &mut self,
+        label: impl Into<String>,
+        rate: impl Into<Field>,
+    ) -> Result<ConditionId, Error> {
+        let rate = rate.into();
+        self.check_field("volumetric source", &rate)?;
+        Ok(self.push(label, Target::Everywhere, Spec::VolumetricSource(rate)))
+    }
+
+    pub(crate) fn push(
+        &mut self,
+        label: impl Into<String>,
+        target: Target,
+        spec: Spec,
+    ) -> ConditionId {
+        self.conditions.push(Condition {
+            label: label.into(),
+            target,
+            spec,
+        });
+        ConditionId {
+            model: self.tag,
+            index: self.conditions.len() - 1,
+        }
+    }
+
+    fn check_field(&self, what: &'static str, field: &Field) -> Result<(), Error> {
+        field.check_len(what, self.grid())?;
+        match (0..self.grid().cells()).find(|&k| !field.at(k).is_finite()) {
+            Some(k) => Err(non_finite(what, self.grid(), k)),
+            None => Ok(()),
+        }
+    }
+}
+
+fn non_finite(what: &'static str, grid: Grid, cell: usize) -> Error {
+    Error::non_finite(what, Location::on(grid, cell))
 }

@@ -1,7 +1,7 @@
 //! Values given once for every cell ([`Field`]) or once for every target of a condition
 //! ([`Profile`]): either one uniform value or one value each.
 
-use crate::stencil::check_len;
+use crate::operator::check_len;
 use crate::{Error, Grid};
 
 /// A per-cell quantity: one value for every cell, or a vector of `grid.cells()` values in grid

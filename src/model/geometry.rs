@@ -40,7 +40,7 @@ impl Geometry {
     ///
     /// # Errors
     ///
-    /// [`Error::LengthMismatch`] if a per-cell thickness does not have one value per cell.
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) if a per-cell thickness does not have one value per cell.
     ///
     /// ```
     /// use quintet::model::{Axis, Geometry};

@@ -1,10 +1,16 @@
-//! [`SteadySystem`]: an assembled steady model, ready for any driver, with its budget.
+//! [`SteadySystem`]: an assembled steady model, ready for any driver, with its budget; its
+//! conductivity and exchange coefficients can change in place.
 
-use super::assemble::{Assembly, Region};
+use super::assemble::{assemble, reassemble, Assembly, Region};
 use super::book::{Book, Forcing};
 use super::budget::Budget;
-use super::builder::SingularPolicy;
-use crate::stencil::check_len;
+use super::field::Profile;
+use super::medium::Conductivity;
+use super::spec::{ConditionId, Model, SingularPolicy};
+use super::update::{Change, Reassemble};
+use crate::error::Location;
+use crate::operator::check_len;
+use crate::space::total;
 use crate::{Banded5, Error, FixedCells, Grid, IterativeSolver, Report, Stencil5, Workspace};
 
 /// Sources of a floating region must balance to this fraction of their total magnitude.
@@ -23,6 +29,13 @@ pub(crate) const BALANCE_TOLERANCE: f64 = 1e-6;
 /// Use [`solve`](SteadySystem::solve) with any [`IterativeSolver`], or take
 /// [`operator`](SteadySystem::operator) and [`rhs`](SteadySystem::rhs) to a driver directly
 /// after [`prepare`](SteadySystem::prepare) has written the fixed values into `x`.
+///
+/// **Changes in place.** Condition levels and rates change through [`force`](SteadySystem::force);
+/// the conductivity ([`set_conductivity`](SteadySystem::set_conductivity)) and exchange
+/// coefficients ([`set_exchange`](SteadySystem::set_exchange)) are re-assembled into the same
+/// operator storage. Condition handles stay valid, and preconditioners built from the operator
+/// keep working with it (rebuild them when the coefficients changed much: their quality
+/// depends on the coefficients they were built from).
 ///
 /// # Example
 ///
@@ -47,6 +60,7 @@ pub(crate) const BALANCE_TOLERANCE: f64 = 1e-6;
 /// ```
 #[derive(Clone, Debug)]
 pub struct SteadySystem {
+    model: Model,
     operator: Banded5<f64>,
     rhs: Vec<f64>,
     book: Book,
@@ -58,10 +72,8 @@ pub struct SteadySystem {
 }
 
 impl SteadySystem {
-    pub(crate) fn from_assembly(
-        assembly: Assembly,
-        policy: SingularPolicy,
-    ) -> Result<SteadySystem, Error> {
+    /// Assemble `model` (see [`Model::assemble`](super::Model::assemble)).
+    pub(crate) fn new(model: &Model) -> Result<SteadySystem, Error> {
         let Assembly {
             grid,
             bands,
@@ -72,36 +84,13 @@ impl SteadySystem {
             floating,
             volumes,
             ..
-        } = assembly;
-        let mean = match (policy, floating.first()) {
-            (_, None) => 0.0,
-            (SingularPolicy::Reject, Some(region)) => {
-                let cell = region.cells[0];
-                let (i, j) = grid.coords(cell);
-                return Err(Error::FloatingRegion {
-                    cell,
-                    i,
-                    j,
-                    cells: region.cells.len(),
-                });
-            }
-            (SingularPolicy::FixMean(mean), Some(_)) => {
-                if !mean.is_finite() {
-                    return Err(Error::InvalidSetting {
-                        name: "fixed mean",
-                        value: mean,
-                        allowed: "a finite value",
-                    });
-                }
-                // Pin one cell per region; its equation holds once the sources balance.
-                fixed.extend(floating.iter().map(|r| r.cells[0]));
-                mean
-            }
-        };
+        } = assemble(model, false)?;
+        let mean = settle(model.singular, grid, &floating, &mut fixed)?;
         let [center, west, east, south, north] = bands;
         let operator = Banded5::new(grid, center, west, east, south, north)?
             .with_fixed(FixedCells::new(grid, fixed)?)?;
         let mut system = SteadySystem {
+            model: model.clone(),
             operator,
             rhs: vec![0.0; grid.cells()],
             book,
@@ -114,7 +103,6 @@ impl SteadySystem {
         system.refresh_rhs()?;
         Ok(system)
     }
-
     /// The operator: symmetric, with prescribed and inactive cells as fixed cells.
     ///
     /// ```
@@ -177,7 +165,7 @@ impl SteadySystem {
     ///
     /// # Errors
     ///
-    /// [`Error::LengthMismatch`] unless `x` has one entry per cell.
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) unless `x` has one entry per cell.
     ///
     /// ```
     /// # use quintet::model::{Conductivity, Geometry, Model};
@@ -200,7 +188,7 @@ impl SteadySystem {
     ///
     /// # Errors
     ///
-    /// [`Error::LengthMismatch`], and whatever the driver returns (the last iterate is then
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch), and whatever the driver returns (the last iterate is then
     /// in `x`).
     ///
     /// ```
@@ -214,7 +202,7 @@ impl SteadySystem {
     /// assert!(report.converged());
     /// # Ok::<(), quintet::Error>(())
     /// ```
-    pub fn solve<S: IterativeSolver<f64>>(
+    pub fn solve<S: IterativeSolver<f64> + ?Sized>(
         &self,
         solver: &mut S,
         x: &mut [f64],
@@ -230,7 +218,7 @@ impl SteadySystem {
     ///
     /// # Errors
     ///
-    /// [`Error::LengthMismatch`] unless `x` has one entry per cell.
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) unless `x` has one entry per cell.
     ///
     /// ```
     /// # use quintet::{model::{Conductivity, Geometry, Model}, Side, Cg, SolveOptions, Workspace};
@@ -248,7 +236,7 @@ impl SteadySystem {
     /// ```
     pub fn budget(&self, x: &[f64]) -> Result<Budget, Error> {
         check_len("x", self.grid().cells(), x.len())?;
-        Ok(self.book.steady_budget(x))
+        Ok(self.book.steady_budget(&*self.model.space, x))
     }
 
     /// Change condition levels (outside values, prescribed values, rates) through a
@@ -256,7 +244,7 @@ impl SteadySystem {
     ///
     /// # Errors
     ///
-    /// Whatever `change` returns, and [`Error::UnbalancedSources`] if a floating region's
+    /// Whatever `change` returns, and [`ErrorKind::UnbalancedSources`](crate::ErrorKind::UnbalancedSources) if a floating region's
     /// sources no longer balance (the levels are changed all the same).
     ///
     /// ```
@@ -300,21 +288,87 @@ impl SteadySystem {
         }
     }
 
+    /// Replace the conductivity and re-assemble the operator in place (face conductances,
+    /// the half cells of edge conditions, the links of prescribed cells). Condition levels,
+    /// handles and the operator's storage are kept.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) for a field of the wrong
+    /// length, [`ErrorKind::InvalidProperty`](crate::ErrorKind::InvalidProperty) for a negative
+    /// or non-finite value at an active cell, and the singular-problem errors of
+    /// [`Model::assemble`](super::Model::assemble) if a region is cut loose; the system is then
+    /// left as it was.
+    ///
+    /// ```
+    /// use quintet::model::{Conductivity, Geometry, Model};
+    /// use quintet::prelude::*;
+    /// let mut model = Model::new(Geometry::cell_centered(10, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.prescribe_cells("ends", [0, 9], 0.0)?;
+    /// let heater = model.point_source("heater", 5, 1.0)?;
+    /// let mut system = model.assemble()?;
+    /// let mut ws = Workspace::new();
+    /// let mut t = system.initial_solution(0.0);
+    /// system.solve(&mut Cg::default(), &mut t, &mut ws)?;
+    /// let before = t[5];
+    /// system.set_conductivity(Conductivity::isotropic(2.0))?; // twice as conductive
+    /// system.solve(&mut Cg::default(), &mut t, &mut ws)?;
+    /// assert!((t[5] - before / 2.0).abs() < 1e-9 * before);
+    /// assert!(system.budget(&t)?.line(heater).is_some()); // the handle still works
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_conductivity(&mut self, conductivity: Conductivity) -> Result<(), Error> {
+        self.change(Change::Conductivity(conductivity))
+    }
+
+    /// Replace the exchange coefficient of condition `id` (an edge exchange's coefficient per
+    /// face area, or a cell exchange's conductance; one value, or one per cell of the
+    /// condition) and re-assemble the operator in place. The outside value is a level: change
+    /// it with [`force`](SteadySystem::force).
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::UnknownCondition`](crate::ErrorKind::UnknownCondition) for a handle of
+    /// another model, [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) if the
+    /// condition is not an exchange, the profile errors of
+    /// [`Model::edge_exchange`](super::Model::edge_exchange), and those of
+    /// [`set_conductivity`](SteadySystem::set_conductivity); the system is then left as it was.
+    ///
+    /// ```
+    /// use quintet::model::{Conductivity, Geometry, Model};
+    /// use quintet::prelude::*;
+    /// let mut model = Model::new(Geometry::cell_centered(6, 6, 10.0, 10.0, 5.0)?, Conductivity::isotropic(1e-4))?;
+    /// let river = model.edge_exchange("river", Side::West, 1e-6, 12.0)?;
+    /// model.point_source("well", 20, -1e-3)?;
+    /// let mut system = model.assemble()?;
+    /// system.set_exchange(river, 4e-6)?; // the river bed was cleaned
+    /// let mut h = system.initial_solution(12.0);
+    /// system.solve(&mut Cg::default().with_options(SolveOptions::default().tolerance(1e-12)), &mut h, &mut Workspace::new())?;
+    /// let budget = system.budget(&h)?;
+    /// assert!((budget.line(river).map_or(0.0, |l| l.inflow) - 1e-3).abs() < 1e-9);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_exchange(
+        &mut self,
+        id: ConditionId,
+        coefficient: impl Into<Profile>,
+    ) -> Result<(), Error> {
+        self.change(Change::Exchange(id, coefficient.into()))
+    }
+
     fn refresh_rhs(&mut self) -> Result<(), Error> {
         self.book.fill_rhs(&mut self.rhs);
         for region in &self.regions {
-            let net: f64 = region.cells.iter().map(|&k| self.rhs[k]).sum();
-            let total: f64 = region.cells.iter().map(|&k| self.rhs[k].abs()).sum();
-            if net.abs() > BALANCE_TOLERANCE * total {
+            let mut sums = [0.0, 0.0];
+            for &k in &region.cells {
+                sums[0] += self.rhs[k];
+                sums[1] += self.rhs[k].abs();
+            }
+            total(&*self.model.space, &mut sums);
+            let [net, all] = sums;
+            if net.abs() > BALANCE_TOLERANCE * all {
                 let cell = region.cells[0];
-                let (i, j) = self.grid().coords(cell);
-                return Err(Error::UnbalancedSources {
-                    cell,
-                    i,
-                    j,
-                    net_inflow: net,
-                    total,
-                });
+                return Err(Error::unbalanced(Location::on(self.grid(), cell), net, all));
             }
         }
         Ok(())
@@ -322,15 +376,65 @@ impl SteadySystem {
 
     fn shift_regions(&self, x: &mut [f64]) {
         for region in &self.regions {
-            let (mut vx, mut v) = (0.0, 0.0);
+            let mut sums = [0.0, 0.0];
             for &k in &region.cells {
-                vx += self.volumes[k] * x[k];
-                v += self.volumes[k];
+                sums[0] += self.volumes[k] * x[k];
+                sums[1] += self.volumes[k];
             }
-            let shift = self.mean - vx / v;
+            total(&*self.model.space, &mut sums);
+            let shift = self.mean - sums[0] / sums[1];
             for &k in &region.cells {
                 x[k] += shift;
             }
         }
+    }
+}
+
+/// The mean a singular problem is held at, with one cell of each floating region pinned as a
+/// fixed cell ([`SingularPolicy::FixMean`]), or the error [`SingularPolicy::Reject`] asks for.
+pub(crate) fn settle(
+    policy: SingularPolicy,
+    grid: Grid,
+    floating: &[Region],
+    fixed: &mut Vec<usize>,
+) -> Result<f64, Error> {
+    match (policy, floating.first()) {
+        (_, None) => Ok(0.0),
+        (SingularPolicy::Reject, Some(region)) => Err(Error::floating(
+            Location::on(grid, region.cells[0]),
+            region.cells.len(),
+        )),
+        (SingularPolicy::FixMean(mean), Some(_)) => {
+            if !mean.is_finite() {
+                return Err(Error::setting("fixed mean", mean, "a finite value"));
+            }
+            // Pin one cell per region; its equation holds once the sources balance.
+            fixed.extend(floating.iter().map(|r| r.cells[0]));
+            fixed.sort_unstable();
+            Ok(mean)
+        }
+    }
+}
+
+impl Reassemble for SteadySystem {
+    fn record(&mut self) -> &mut Model {
+        &mut self.model
+    }
+
+    /// The model record again into the operator's storage and the book's weights.
+    fn reassemble(&mut self) -> Result<(), Error> {
+        let grid = self.grid();
+        let mut capacity = Vec::new();
+        let found = self.operator.refill(|bands| {
+            reassemble(&self.model, false, bands, &mut self.book, &mut capacity)
+        })??;
+        let mut fixed = found.fixed;
+        let mean = settle(self.model.singular, grid, &found.floating, &mut fixed)?;
+        if self.operator.fixed().map(|f| f.cells()) != Some(&fixed[..]) {
+            self.operator.set_fixed(FixedCells::new(grid, fixed)?)?;
+        }
+        self.regions = found.floating;
+        self.mean = mean;
+        self.refresh_rhs()
     }
 }

@@ -4,8 +4,8 @@
 //! definite whenever every pivot is positive, whatever `L` is, which is what makes these
 //! preconditioners safe for PCG.
 
-use crate::stencil::Stencil5;
-use crate::{Coeffs5, FixedCells, Grid, Scalar};
+use crate::operator::Stencil5;
+use crate::{Coeffs5, Grid, Scalar};
 
 /// Pivots and lower couplings of `M = s⁻¹·(P + L)·P⁻¹·(P + Lᵀ)`.
 ///
@@ -138,51 +138,9 @@ pub(crate) fn for_each_eliminated<T: Scalar, S: Stencil5<T> + ?Sized>(
 ) {
     let grid = op.grid();
     let (nx, ny) = (grid.nx(), grid.ny());
-    let fixed = op.fixed_cells();
     for j in 0..ny {
         for i in 0..nx {
-            let k = i + nx * j;
-            f(k, eliminated_row(op, fixed, nx, ny, i, j));
+            f(i + nx * j, op.eliminated_coeffs(i, j));
         }
     }
-}
-
-/// Row `(i, j)` of the eliminated system: as [`Stencil5::eliminated_coeffs`], computed without
-/// the index arithmetic of the general method (the hot loops of the smoothers call it).
-#[inline]
-pub(crate) fn eliminated_row<T: Scalar, S: Stencil5<T> + ?Sized>(
-    op: &S,
-    fixed: Option<&FixedCells>,
-    nx: usize,
-    ny: usize,
-    i: usize,
-    j: usize,
-) -> Coeffs5<T> {
-    let mut c = op.coeffs(i, j);
-    let Some(fixed) = fixed else {
-        return c;
-    };
-    let k = i + nx * j;
-    if fixed.contains(k) {
-        return Coeffs5::identity();
-    }
-    if i > 0 && fixed.contains(k - 1) {
-        c.west = T::zero();
-    }
-    if i + 1 < nx && fixed.contains(k + 1) {
-        c.east = T::zero();
-    }
-    if j > 0 && fixed.contains(k - nx) {
-        c.south = T::zero();
-    }
-    if j + 1 < ny && fixed.contains(k + nx) {
-        c.north = T::zero();
-    }
-    c
-}
-
-/// `v` in the scalar type (every `f64` literal used here is representable in `f32` and `f64`).
-#[inline]
-pub(crate) fn lit<T: Scalar>(v: f64) -> T {
-    T::from(v).unwrap_or_else(T::zero)
 }

@@ -2,10 +2,13 @@
 //! (Meijerink & van der Vorst 1977) and the modified, row-sum compensated MIC(0)
 //! (Gustafsson 1978).
 
-use super::factor::{lit, LowerFactor};
-use super::Preconditioner;
-use crate::stencil::Stencil5;
-use crate::{is_positive, to_f64, Error, Scalar};
+use super::factor::LowerFactor;
+use super::{check_built_for, Preconditioner};
+use crate::error::Location;
+use crate::operator::Stencil5;
+use crate::scalar::{is_positive, lit, to_f64};
+use crate::space::Space;
+use crate::{Error, LinearOperator, Scalar};
 
 /// What a factorisation does with a pivot that is not safely positive.
 ///
@@ -24,7 +27,7 @@ pub enum WeakPivot {
     /// quality of the preconditioner suffers near the replaced cells.
     #[default]
     UseCenter,
-    /// Stop the setup with [`Error::PivotBreakdown`] naming the cell.
+    /// Stop the setup with [`ErrorKind::PivotBreakdown`](crate::ErrorKind::PivotBreakdown) naming the cell.
     Reject,
 }
 
@@ -175,9 +178,9 @@ impl<T: Scalar> IncompleteCholesky<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidSetting`] for a compensation outside `[0, 1]` or a pivot floor outside
-    /// `[0, 1)`; [`Error::NonPositiveCenter`] for a free cell whose center is not positive;
-    /// [`Error::PivotBreakdown`] for a weak pivot under [`WeakPivot::Reject`].
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for a compensation outside `[0, 1]` or a pivot floor outside
+    /// `[0, 1)`; [`ErrorKind::NonPositiveCenter`](crate::ErrorKind::NonPositiveCenter) for a free cell whose center is not positive;
+    /// [`ErrorKind::PivotBreakdown`](crate::ErrorKind::PivotBreakdown) for a weak pivot under [`WeakPivot::Reject`].
     ///
     /// ```
     /// use quintet::prelude::*;
@@ -185,7 +188,8 @@ impl<T: Scalar> IncompleteCholesky<T> {
     /// let grid = Grid::new(2, 1)?;
     /// let op = Banded5::new(grid, vec![1.0, 1.0], vec![0.0, -2.0], vec![-2.0, 0.0], vec![0.0; 2], vec![0.0; 2])?;
     /// let strict = FactorSettings { weak_pivot: WeakPivot::Reject, ..FactorSettings::ic0() };
-    /// assert!(matches!(IncompleteCholesky::new(&op, strict), Err(Error::PivotBreakdown { cell: 1, .. })));
+    /// let err = IncompleteCholesky::new(&op, strict).unwrap_err();
+    /// assert_eq!((err.kind(), err.location().map(|at| at.cell)), (ErrorKind::PivotBreakdown, Some(1)));
     /// assert_eq!(IncompleteCholesky::new(&op, FactorSettings::ic0())?.replaced_pivots(), 1);
     /// # Ok::<(), quintet::Error>(())
     /// ```
@@ -195,25 +199,21 @@ impl<T: Scalar> IncompleteCholesky<T> {
     ) -> Result<IncompleteCholesky<T>, Error> {
         let alpha = settings.compensation;
         if !(0.0..=1.0).contains(&alpha) {
-            return Err(Error::InvalidSetting {
-                name: "compensation",
-                value: alpha,
-                allowed: "0 <= compensation <= 1",
-            });
+            return Err(Error::setting(
+                "compensation",
+                alpha,
+                "0 <= compensation <= 1",
+            ));
         }
         let floor = settings.pivot_floor;
         if !(0.0..1.0).contains(&floor) {
-            return Err(Error::InvalidSetting {
-                name: "pivot_floor",
-                value: floor,
-                allowed: "0 <= pivot_floor < 1",
-            });
+            return Err(Error::setting("pivot_floor", floor, "0 <= pivot_floor < 1"));
         }
         super::check_centers(op)?;
         let mut factor = LowerFactor::lower_part(op);
         let grid = op.grid();
         let (nx, ny) = (grid.nx(), grid.ny());
-        let fixed = op.fixed_cells();
+        let fixed = op.fixed();
         let (alpha, floor): (T, T) = (lit(alpha), lit(floor));
         let mut replaced = 0;
         for j in 0..ny {
@@ -242,10 +242,7 @@ impl<T: Scalar> IncompleteCholesky<T> {
                 }
                 if !(d.is_finite() && is_positive(d - floor * center)) {
                     if settings.weak_pivot == WeakPivot::Reject {
-                        return Err(Error::PivotBreakdown {
-                            cell: k,
-                            value: to_f64(d),
-                        });
+                        return Err(Error::pivot(Location::on(grid, k), to_f64(d)));
                     }
                     replaced += 1;
                     d = center;
@@ -302,8 +299,11 @@ impl<T: Scalar> IncompleteCholesky<T> {
 }
 
 impl<T: Scalar> Preconditioner<T> for IncompleteCholesky<T> {
-    fn apply(&mut self, r: &[T], z: &mut [T]) {
+    fn apply(&mut self, _op: &dyn LinearOperator<T>, _space: &dyn Space, r: &[T], z: &mut [T]) {
         self.factor.solve(r, z);
+    }
+    fn check(&self, op: &dyn LinearOperator<T>) -> Result<(), Error> {
+        check_built_for(self.factor.grid, op)
     }
     fn name(&self) -> &'static str {
         if self.settings.compensation == 0.0 {

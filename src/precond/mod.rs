@@ -21,7 +21,6 @@
 //! positive definite on the free cells. The driver holds `z` at zero on fixed cells after
 //! every application, so a preconditioner never moves a fixed cell.
 
-mod correction;
 mod factor;
 mod ic0;
 mod jacobi;
@@ -37,23 +36,30 @@ pub use single::SinglePrecision;
 pub use sip::{Sip, SipSettings};
 pub use ssor::Ssor;
 
-use crate::stencil::Stencil5;
-use crate::{to_f64, Error, Scalar};
+use crate::error::Location;
+use crate::operator::Stencil5;
+use crate::operator::{check_shape, grid_shape, shape_of, LinearOperator};
+use crate::scalar::to_f64;
+use crate::space::Space;
+use crate::{Error, Grid, Scalar};
 
 /// `Err(NonPositiveCenter)` for the first free cell whose center is not positive.
 pub(crate) fn check_centers<T: Scalar, S: Stencil5<T> + ?Sized>(op: &S) -> Result<(), Error> {
     match op.first_nonpositive_center() {
         None => Ok(()),
-        Some((k, value)) => {
-            let (i, j) = op.grid().coords(k);
-            Err(Error::NonPositiveCenter {
-                cell: k,
-                i,
-                j,
-                value: to_f64(value),
-            })
-        }
+        Some((k, value)) => Err(Error::non_positive_center(
+            Location::on(op.grid(), k),
+            to_f64(value),
+        )),
     }
+}
+
+/// `Err(GridMismatch)` unless `op` lives on `grid`, the grid a preconditioner was built for.
+pub(crate) fn check_built_for<T: Scalar>(
+    grid: Grid,
+    op: &dyn LinearOperator<T>,
+) -> Result<(), Error> {
+    check_shape("the preconditioner", shape_of(op), grid_shape(grid))
 }
 
 /// An approximate inverse `M⁻¹ ≈ A⁻¹`, applied as `z = M⁻¹ r`.
@@ -64,10 +70,11 @@ pub(crate) fn check_centers<T: Scalar, S: Stencil5<T> + ?Sized>(op: &S) -> Resul
 ///
 /// ```
 /// use quintet::prelude::*;
+/// use quintet::space::Space;
 ///
 /// struct Scaled(f64);
 /// impl Preconditioner<f64> for Scaled {
-///     fn apply(&mut self, r: &[f64], z: &mut [f64]) {
+///     fn apply(&mut self, _op: &dyn LinearOperator<f64>, _space: &dyn Space, r: &[f64], z: &mut [f64]) {
 ///         for (zi, ri) in z.iter_mut().zip(r) {
 ///             *zi = self.0 * ri;
 ///         }
@@ -85,18 +92,46 @@ pub(crate) fn check_centers<T: Scalar, S: Stencil5<T> + ?Sized>(op: &S) -> Resul
 /// # Ok::<(), quintet::Error>(())
 /// ```
 pub trait Preconditioner<T: Scalar> {
-    /// `z = M⁻¹ r`. Both slices have one entry per cell of the operator's grid.
+    /// `z = M⁻¹ r` for the system with operator `op` (the one being solved, which
+    /// [`check`](Preconditioner::check) accepted), with the threads `space` allows. Both slices
+    /// have one entry per unknown.
     ///
     /// ```
     /// use quintet::prelude::*;
+    /// use quintet::space::Serial;
     /// let grid = Grid::new(2, 1)?;
     /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
     /// let mut z = [0.0; 2];
-    /// Jacobi::new(&op)?.apply(&[4.0, 8.0], &mut z); // centers are 4
+    /// Jacobi::new(&op)?.apply(&op, &Serial, &[4.0, 8.0], &mut z); // centers are 4
     /// assert_eq!(z, [1.0, 2.0]);
     /// # Ok::<(), quintet::Error>(())
     /// ```
-    fn apply(&mut self, r: &[T], z: &mut [T]);
+    fn apply(&mut self, op: &dyn LinearOperator<T>, space: &dyn Space, r: &[T], z: &mut [T]);
+
+    /// Check, once per solve before the first iteration, that this preconditioner fits `op`:
+    /// the preconditioners of this crate refuse an operator on another grid than the one they
+    /// were built from ([`ErrorKind::GridMismatch`](crate::ErrorKind::GridMismatch)), and
+    /// multigrid one that is not a [`Stencil5`]. Default: accept.
+    ///
+    /// # Errors
+    ///
+    /// Whatever makes the preconditioner unusable with `op`.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let small = Grid::new(4, 4)?;
+    /// let big = Grid::new(8, 2)?;
+    /// let a: Banded5<f64> = Banded5::from_fn(small, |i, j| Coeffs5::laplacian(small, i, j))?;
+    /// let b: Banded5<f64> = Banded5::from_fn(big, |i, j| Coeffs5::laplacian(big, i, j))?;
+    /// let jacobi = Jacobi::new(&a)?;
+    /// assert!(jacobi.check(&a).is_ok());
+    /// assert_eq!(jacobi.check(&b).unwrap_err().kind(), ErrorKind::GridMismatch);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    fn check(&self, op: &dyn LinearOperator<T>) -> Result<(), Error> {
+        let _ = op;
+        Ok(())
+    }
 
     /// A short name for reports. Default `"custom"`.
     ///
@@ -122,16 +157,20 @@ pub trait Preconditioner<T: Scalar> {
 /// The identity preconditioner `M = I`: PCG with it is plain CG.
 ///
 /// ```
-/// use quintet::{Identity, Preconditioner};
+/// use quintet::prelude::*;
+/// use quintet::space::Serial;
+/// let grid = Grid::new(2, 1)?;
+/// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
 /// let mut z = [0.0; 2];
-/// Identity.apply(&[1.0, 2.0], &mut z);
+/// Identity.apply(&op, &Serial, &[1.0, 2.0], &mut z);
 /// assert_eq!(z, [1.0, 2.0]);
+/// # Ok::<(), quintet::Error>(())
 /// ```
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 pub struct Identity;
 
 impl<T: Scalar> Preconditioner<T> for Identity {
-    fn apply(&mut self, r: &[T], z: &mut [T]) {
+    fn apply(&mut self, _op: &dyn LinearOperator<T>, _space: &dyn Space, r: &[T], z: &mut [T]) {
         let n = r.len().min(z.len());
         z[..n].copy_from_slice(&r[..n]);
     }
@@ -140,5 +179,34 @@ impl<T: Scalar> Preconditioner<T> for Identity {
     }
     fn is_identity(&self) -> bool {
         true
+    }
+}
+
+/// A boxed preconditioner is one: `Pcg<Box<dyn Preconditioner<f64>>>` takes any of them.
+///
+/// ```
+/// use quintet::prelude::*;
+/// let grid = Grid::new(16, 16)?;
+/// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+/// let choices: Vec<Box<dyn Preconditioner<f64>>> =
+///     vec![Box::new(Jacobi::new(&op)?), Box::new(IncompleteCholesky::mic0(&op)?)];
+/// for pre in choices {
+///     let mut x = vec![0.0; grid.cells()];
+///     assert!(Pcg::new(pre).solve(&op, &vec![1.0; grid.cells()], &mut x)?.converged());
+/// }
+/// # Ok::<(), quintet::Error>(())
+/// ```
+impl<T: Scalar, P: Preconditioner<T> + ?Sized> Preconditioner<T> for Box<P> {
+    fn apply(&mut self, op: &dyn LinearOperator<T>, space: &dyn Space, r: &[T], z: &mut [T]) {
+        (**self).apply(op, space, r, z)
+    }
+    fn check(&self, op: &dyn LinearOperator<T>) -> Result<(), Error> {
+        (**self).check(op)
+    }
+    fn name(&self) -> &'static str {
+        (**self).name()
+    }
+    fn is_identity(&self) -> bool {
+        (**self).is_identity()
     }
 }

@@ -2,13 +2,15 @@
 //! the 5-point operator whose dropped fill-in is partly cancelled by a Taylor expansion, used
 //! as a standalone iteration or (symmetrised) as a PCG preconditioner.
 
-use super::correction::correction_solve;
-use super::factor::{for_each_eliminated, lit};
-use super::{Preconditioner, WeakPivot};
-use crate::solve::{IterativeSolver, Report, SolveOptions, Workspace};
-use crate::stencil::{check_grid, Stencil5};
-use crate::stop::Progress;
-use crate::{is_positive, to_f64, Error, Grid, Scalar};
+use super::factor::for_each_eliminated;
+use super::{check_built_for, Preconditioner, WeakPivot};
+use crate::error::Location;
+use crate::iterate::{IterativeSolver, NameCache, SolveOptions, Task, Workspace};
+use crate::operator::Stencil5;
+use crate::relax::correction_solve;
+use crate::scalar::{is_positive, lit, to_f64};
+use crate::space::Space;
+use crate::{Error, Grid, LinearOperator, Progress, Report, Scalar};
 
 /// Settings of Stone's factorisation.
 ///
@@ -27,7 +29,7 @@ pub struct SipSettings {
     pub pivot_floor: f64,
     /// What to do with a weak pivot: [`WeakPivot::UseCenter`] replaces it by the cell's center
     /// (and a weak compensation denominator by 1, i.e. no compensation there);
-    /// [`WeakPivot::Reject`] returns [`Error::PivotBreakdown`].
+    /// [`WeakPivot::Reject`] returns [`ErrorKind::PivotBreakdown`](crate::ErrorKind::PivotBreakdown).
     pub weak_pivot: WeakPivot,
 }
 
@@ -64,7 +66,7 @@ impl Default for SipSettings {
 ///   IC(0) factor). The average of the inverse and its transpose is symmetric by construction;
 ///   it is positive definite when `LU` is a good approximation of an SPD `A` (as it is for
 ///   diffusion operators), but this is not guaranteed in general, and PCG stops with
-///   [`Error::PreconditionerNotPositive`] if it is not. Each application costs four
+///   [`ErrorKind::PreconditionerNotPositive`](crate::ErrorKind::PreconditionerNotPositive) if it is not. Each application costs four
 ///   triangular sweeps.
 ///
 /// Storage: five arrays of one entry per cell, plus one scratch vector.
@@ -118,6 +120,7 @@ pub struct Sip<T> {
     replaced: usize,
     /// Stopping rule for the standalone iteration.
     pub options: SolveOptions,
+    name: NameCache,
 }
 
 impl<T: Scalar> Sip<T> {
@@ -125,9 +128,9 @@ impl<T: Scalar> Sip<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidSetting`] for `alpha` outside `[0, 1)` or a pivot floor outside `[0, 1)`;
-    /// [`Error::NonPositiveCenter`] for a free cell whose center is not positive;
-    /// [`Error::PivotBreakdown`] for a weak pivot under [`WeakPivot::Reject`].
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for `alpha` outside `[0, 1)` or a pivot floor outside `[0, 1)`;
+    /// [`ErrorKind::NonPositiveCenter`](crate::ErrorKind::NonPositiveCenter) for a free cell whose center is not positive;
+    /// [`ErrorKind::PivotBreakdown`](crate::ErrorKind::PivotBreakdown) for a weak pivot under [`WeakPivot::Reject`].
     ///
     /// ```
     /// use quintet::prelude::*;
@@ -139,18 +142,14 @@ impl<T: Scalar> Sip<T> {
     /// ```
     pub fn new<S: Stencil5<T> + ?Sized>(op: &S, settings: SipSettings) -> Result<Sip<T>, Error> {
         if !(0.0..1.0).contains(&settings.alpha) {
-            return Err(Error::InvalidSetting {
-                name: "alpha",
-                value: settings.alpha,
-                allowed: "0 <= alpha < 1",
-            });
+            return Err(Error::setting("alpha", settings.alpha, "0 <= alpha < 1"));
         }
         if !(0.0..1.0).contains(&settings.pivot_floor) {
-            return Err(Error::InvalidSetting {
-                name: "pivot_floor",
-                value: settings.pivot_floor,
-                allowed: "0 <= pivot_floor < 1",
-            });
+            return Err(Error::setting(
+                "pivot_floor",
+                settings.pivot_floor,
+                "0 <= pivot_floor < 1",
+            ));
         }
         super::check_centers(op)?;
         let grid = op.grid();
@@ -197,7 +196,7 @@ impl<T: Scalar> Sip<T> {
             f[k] = (a.north - alpha * ck * f_w) / dk;
         });
         if let Some((cell, value)) = failure {
-            return Err(Error::PivotBreakdown { cell, value });
+            return Err(Error::pivot(Location::on(grid, cell), value));
         }
         Ok(Sip {
             grid,
@@ -210,6 +209,7 @@ impl<T: Scalar> Sip<T> {
             scratch: zeros(),
             replaced,
             options: SolveOptions::default(),
+            name: NameCache::default(),
         })
     }
 
@@ -352,7 +352,7 @@ impl<T: Scalar> Sip<T> {
 
 impl<T: Scalar> Preconditioner<T> for Sip<T> {
     /// `z = ½·((LU)⁻¹ + (LU)⁻ᵀ)·r`.
-    fn apply(&mut self, r: &[T], z: &mut [T]) {
+    fn apply(&mut self, _op: &dyn LinearOperator<T>, _space: &dyn Space, r: &[T], z: &mut [T]) {
         if !self.lengths_ok(r, z) {
             return;
         }
@@ -365,6 +365,9 @@ impl<T: Scalar> Preconditioner<T> for Sip<T> {
         }
         self.scratch = scratch;
     }
+    fn check(&self, op: &dyn LinearOperator<T>) -> Result<(), Error> {
+        check_built_for(self.grid, op)
+    }
     fn name(&self) -> &'static str {
         "symmetrised SIP"
     }
@@ -376,22 +379,37 @@ impl<T: Scalar> IterativeSolver<T> for Sip<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::GridMismatch`] if `op` lives on another grid; otherwise as for every
-    /// [`IterativeSolver`].
-    fn solve_observed<S: Stencil5<T> + ?Sized>(
+    /// [`ErrorKind::GridMismatch`](crate::ErrorKind::GridMismatch) if `op` lives on another
+    /// grid; otherwise as for every [`IterativeSolver`].
+    fn solve_observed(
         &mut self,
-        op: &S,
+        op: &dyn LinearOperator<T>,
         rhs: &[T],
         x: &mut [T],
         ws: &mut Workspace<T>,
         observer: &mut dyn FnMut(&Progress<'_>),
     ) -> Result<Report, Error> {
-        check_grid(self.grid, op.grid())?;
-        let method = format!("SIP (alpha = {})", self.settings.alpha);
+        check_built_for(self.grid, op)?;
+        let alpha = self.settings.alpha;
+        let name = self.name.get("", || format!("SIP (alpha = {alpha})"));
         let options = self.options.clone();
         let this = &*self;
-        correction_solve(op, rhs, x, ws, observer, &options, method, false, |r, z| {
-            this.solve_lu(r, z)
-        })
+        let task = Task {
+            op,
+            rhs,
+            x,
+            ws,
+            options: &options,
+            observer,
+        };
+        correction_solve(task, &name, false, |_, _, r, z| this.solve_lu(r, z))
+    }
+
+    fn options(&self) -> &SolveOptions {
+        &self.options
+    }
+
+    fn options_mut(&mut self) -> &mut SolveOptions {
+        &mut self.options
     }
 }

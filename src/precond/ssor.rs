@@ -1,9 +1,11 @@
 //! Symmetric successive over-relaxation (SSOR) preconditioning.
 
-use super::factor::{lit, LowerFactor};
-use super::Preconditioner;
-use crate::stencil::Stencil5;
-use crate::{Error, Scalar};
+use super::factor::LowerFactor;
+use super::{check_built_for, Preconditioner};
+use crate::operator::Stencil5;
+use crate::scalar::lit;
+use crate::space::Space;
+use crate::{Error, LinearOperator, Scalar};
 
 /// SSOR preconditioning: one forward and one backward SOR sweep with relaxation factor ω,
 /// from a zero start, as a symmetric operator.
@@ -45,7 +47,7 @@ impl<T: Scalar> Ssor<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidSetting`] unless `0 < omega < 2`; [`Error::NonPositiveCenter`] for a
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) unless `0 < omega < 2`; [`ErrorKind::NonPositiveCenter`](crate::ErrorKind::NonPositiveCenter) for a
     /// free cell whose center is not positive.
     ///
     /// ```
@@ -53,22 +55,22 @@ impl<T: Scalar> Ssor<T> {
     /// let grid = Grid::new(8, 8)?;
     /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
     /// assert!(Ssor::new(&op, 1.0).is_ok());
-    /// assert!(matches!(Ssor::new(&op, 2.0), Err(Error::InvalidSetting { .. })));
+    /// assert_eq!(Ssor::new(&op, 2.0).unwrap_err().kind(), ErrorKind::InvalidSetting);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn new<S: Stencil5<T> + ?Sized>(op: &S, omega: f64) -> Result<Ssor<T>, Error> {
         if !(omega > 0.0 && omega < 2.0) {
-            return Err(Error::InvalidSetting {
-                name: "relaxation factor omega",
-                value: omega,
-                allowed: "0 < omega < 2",
-            });
+            return Err(Error::setting(
+                "relaxation factor omega",
+                omega,
+                "0 < omega < 2",
+            ));
         }
         super::check_centers(op)?;
         let mut factor = LowerFactor::lower_part(op);
         let w: T = lit(omega);
         let grid = op.grid();
-        let fixed = op.fixed_cells();
+        let fixed = op.fixed();
         for (k, d) in factor.inv_pivot.iter_mut().enumerate() {
             let center = if fixed.is_some_and(|f| f.contains(k)) {
                 T::one()
@@ -113,8 +115,11 @@ impl<T: Scalar> Ssor<T> {
 }
 
 impl<T: Scalar> Preconditioner<T> for Ssor<T> {
-    fn apply(&mut self, r: &[T], z: &mut [T]) {
+    fn apply(&mut self, _op: &dyn LinearOperator<T>, _space: &dyn Space, r: &[T], z: &mut [T]) {
         self.factor.solve(r, z);
+    }
+    fn check(&self, op: &dyn LinearOperator<T>) -> Result<(), Error> {
+        check_built_for(self.factor.grid, op)
     }
     fn name(&self) -> &'static str {
         "SSOR"
@@ -145,7 +150,9 @@ mod tests {
             x[i] = (r[i] + left + right) / 4.0;
         }
         let mut z = [0.0; 5];
-        Ssor::new(&op, 1.0).unwrap().apply(&r, &mut z);
+        Ssor::new(&op, 1.0)
+            .unwrap()
+            .apply(&op, &crate::space::Serial, &r, &mut z);
         for (a, b) in z.iter().zip(&x) {
             assert!((a - b).abs() < 1e-14, "{z:?} vs {x:?}");
         }

@@ -2,10 +2,8 @@
 
 use std::ops::Range;
 
-use super::{
-    cast_scalar, check_grid, check_len, row_neighbourhood, row_product, survey, Coeffs5,
-    FixedCells, Stencil5,
-};
+use super::{cast_scalar, check_fixed, survey};
+use crate::operator::{check_len, row_neighbourhood, row_product, Coeffs5, FixedCells, Stencil5};
 use crate::{Error, Grid, Scalar};
 
 /// A 5-point operator stored as five coefficient arrays (center, west, east, south, north), one
@@ -41,8 +39,8 @@ impl<T: Scalar> Banded5<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::LengthMismatch`] naming the array of the wrong length, [`Error::NonFinite`]
-    /// naming the first non-finite coefficient, [`Error::OffGridCoupling`] naming the first
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) naming the array of the wrong length, [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite)
+    /// naming the first non-finite coefficient, [`ErrorKind::OffGridCoupling`](crate::ErrorKind::OffGridCoupling) naming the first
     /// edge cell with a coupling towards a missing neighbour.
     ///
     /// ```
@@ -150,7 +148,7 @@ impl<T: Scalar> Banded5<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::GridMismatch`] if `fixed` was built for another grid.
+    /// [`ErrorKind::GridMismatch`](crate::ErrorKind::GridMismatch) if `fixed` was built for another grid.
     ///
     /// ```
     /// use quintet::prelude::*;
@@ -161,7 +159,7 @@ impl<T: Scalar> Banded5<T> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn with_fixed(mut self, fixed: FixedCells) -> Result<Banded5<T>, Error> {
-        check_grid(self.grid, fixed.grid())?;
+        check_fixed(self.grid, &fixed)?;
         self.fixed = Some(fixed);
         self.resurvey()?;
         Ok(self)
@@ -172,7 +170,7 @@ impl<T: Scalar> Banded5<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::NonFinite`] if a coefficient does not fit the new type (overflows to infinity).
+    /// [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite) if a coefficient does not fit the new type (overflows to infinity).
     ///
     /// ```
     /// use quintet::prelude::*;
@@ -280,6 +278,37 @@ impl<T: Scalar> Banded5<T> {
         [self.center, self.west, self.east, self.south, self.north]
     }
 
+    /// Overwrite the five bands in place (`f` gets center, west, east, south, north), then
+    /// validate them again. The bands must keep one entry per cell.
+    pub(crate) fn refill<R>(&mut self, f: impl FnOnce([&mut Vec<T>; 5]) -> R) -> Result<R, Error> {
+        let out = f([
+            &mut self.center,
+            &mut self.west,
+            &mut self.east,
+            &mut self.south,
+            &mut self.north,
+        ]);
+        let n = self.grid.cells();
+        for (what, band) in [
+            ("center coefficients", &self.center),
+            ("west coefficients", &self.west),
+            ("east coefficients", &self.east),
+            ("south coefficients", &self.south),
+            ("north coefficients", &self.north),
+        ] {
+            check_len(what, n, band.len())?;
+        }
+        self.resurvey()?;
+        Ok(out)
+    }
+
+    /// Replace the fixed cells in place.
+    pub(crate) fn set_fixed(&mut self, fixed: FixedCells) -> Result<(), Error> {
+        check_fixed(self.grid, &fixed)?;
+        self.fixed = Some(fixed);
+        self.resurvey()
+    }
+
     fn resurvey(&mut self) -> Result<(), Error> {
         let found = survey(self.grid, self.fixed.as_ref(), |i, j| self.coeffs(i, j))?;
         self.first_nonpositive = found.first_nonpositive.map(|(k, _)| (k, self.center[k]));
@@ -304,7 +333,7 @@ impl<T: Scalar> Stencil5<T> for Banded5<T> {
         }
     }
 
-    fn fixed_cells(&self) -> Option<&FixedCells> {
+    fn fixed(&self) -> Option<&FixedCells> {
         self.fixed.as_ref()
     }
 
@@ -338,11 +367,5 @@ impl<T: Scalar> Stencil5<T> for Banded5<T> {
 
     fn first_nonpositive_center(&self) -> Option<(usize, T)> {
         self.first_nonpositive
-    }
-
-    fn diagonal(&self, d: &mut [T]) -> Result<(), Error> {
-        check_len("diagonal", self.grid.cells(), d.len())?;
-        d.copy_from_slice(&self.center);
-        Ok(())
     }
 }

@@ -2,7 +2,8 @@
 
 use std::fmt;
 
-use super::{check_grid, survey, Coeffs5, FixedCells, Stencil5};
+use super::{check_fixed, survey};
+use crate::operator::{Coeffs5, FixedCells, Stencil5};
 use crate::{Error, Grid, Scalar};
 
 /// A 5-point operator with no coefficient storage: row `(i, j)` is `f(i, j)`, computed each time
@@ -47,14 +48,16 @@ where
     ///
     /// # Errors
     ///
-    /// [`Error::NonFinite`] or [`Error::OffGridCoupling`] naming the first bad cell.
+    /// [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite) or [`ErrorKind::OffGridCoupling`](crate::ErrorKind::OffGridCoupling) naming the first bad cell.
     ///
     /// ```
     /// use quintet::prelude::*;
     /// let grid = Grid::new(3, 3)?;
     /// // A west coupling on the west edge points off the grid.
     /// let bad = ClosureStencil::new(grid, |_, _| Coeffs5 { center: 4.0, west: -1.0, ..Coeffs5::default() });
-    /// assert!(matches!(bad, Err(Error::OffGridCoupling { cell: 0, side: Side::West, .. })));
+    /// let err = bad.unwrap_err();
+    /// assert_eq!(err.kind(), ErrorKind::OffGridCoupling);
+    /// assert_eq!(err.to_string(), "cell 0 (i = 0, j = 0) has west coupling -1, but it has no west neighbour");
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn new(grid: Grid, coeffs: F) -> Result<ClosureStencil<T, F>, Error> {
@@ -72,7 +75,7 @@ where
     ///
     /// # Errors
     ///
-    /// [`Error::GridMismatch`] if `fixed` was built for another grid.
+    /// [`ErrorKind::GridMismatch`](crate::ErrorKind::GridMismatch) if `fixed` was built for another grid.
     ///
     /// ```
     /// use quintet::prelude::*;
@@ -83,7 +86,7 @@ where
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn with_fixed(mut self, fixed: FixedCells) -> Result<ClosureStencil<T, F>, Error> {
-        check_grid(self.grid, fixed.grid())?;
+        check_fixed(self.grid, &fixed)?;
         self.fixed = Some(fixed);
         self.resurvey()?;
         Ok(self)
@@ -113,7 +116,7 @@ where
         (self.coeffs)(i, j)
     }
 
-    fn fixed_cells(&self) -> Option<&FixedCells> {
+    fn fixed(&self) -> Option<&FixedCells> {
         self.fixed.as_ref()
     }
 

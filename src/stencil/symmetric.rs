@@ -2,10 +2,8 @@
 
 use std::ops::Range;
 
-use super::{
-    cast_scalar, check_grid, check_len, check_symmetry, row_neighbourhood, row_product, survey,
-    Banded5, Coeffs5, FixedCells, Stencil5,
-};
+use super::{cast_scalar, check_fixed, check_symmetry, survey, Banded5};
+use crate::operator::{check_len, row_neighbourhood, row_product, Coeffs5, FixedCells, Stencil5};
 use crate::{Error, Grid, Scalar};
 
 /// A symmetric 5-point operator that stores only the center, east and north coefficients; the
@@ -49,8 +47,8 @@ impl<T: Scalar> Symmetric5<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::LengthMismatch`] naming the array, [`Error::NonFinite`] naming the first
-    /// non-finite coefficient, [`Error::OffGridCoupling`] for an east coupling on the east
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) naming the array, [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite) naming the first
+    /// non-finite coefficient, [`ErrorKind::OffGridCoupling`](crate::ErrorKind::OffGridCoupling) for an east coupling on the east
     /// edge or a north coupling on the north edge.
     ///
     /// ```
@@ -88,13 +86,14 @@ impl<T: Scalar> Symmetric5<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::Asymmetric`] naming the first pair of cells that disagree.
+    /// [`ErrorKind::Asymmetric`](crate::ErrorKind::Asymmetric) naming the first pair of cells that disagree.
     ///
     /// ```
     /// use quintet::prelude::*;
     /// let grid = Grid::new(3, 1)?;
     /// let lopsided = Banded5::new(grid, vec![2.0; 3], vec![0.0, -1.0, -1.0], vec![-0.5, -1.0, 0.0], vec![0.0; 3], vec![0.0; 3])?;
-    /// assert!(matches!(Symmetric5::from_banded(&lopsided, 1e-12), Err(Error::Asymmetric { cell: 0, .. })));
+    /// let err = Symmetric5::from_banded(&lopsided, 1e-12).unwrap_err();
+    /// assert_eq!(err.kind(), ErrorKind::Asymmetric);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn from_banded(banded: &Banded5<T>, rel_tol: f64) -> Result<Symmetric5<T>, Error> {
@@ -105,7 +104,7 @@ impl<T: Scalar> Symmetric5<T> {
             banded.east().to_vec(),
             banded.north().to_vec(),
         )?;
-        match banded.fixed_cells() {
+        match banded.fixed() {
             Some(fixed) => op.with_fixed(fixed.clone()),
             None => Ok(op),
         }
@@ -115,7 +114,7 @@ impl<T: Scalar> Symmetric5<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::GridMismatch`] if `fixed` was built for another grid.
+    /// [`ErrorKind::GridMismatch`](crate::ErrorKind::GridMismatch) if `fixed` was built for another grid.
     ///
     /// ```
     /// use quintet::prelude::*;
@@ -126,7 +125,7 @@ impl<T: Scalar> Symmetric5<T> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn with_fixed(mut self, fixed: FixedCells) -> Result<Symmetric5<T>, Error> {
-        check_grid(self.grid, fixed.grid())?;
+        check_fixed(self.grid, &fixed)?;
         self.fixed = Some(fixed);
         self.resurvey()?;
         Ok(self)
@@ -136,7 +135,7 @@ impl<T: Scalar> Symmetric5<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::NonFinite`] if a coefficient does not fit the new type.
+    /// [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite) if a coefficient does not fit the new type.
     ///
     /// ```
     /// # let grid = quintet::Grid::new(2, 1)?;
@@ -220,7 +219,7 @@ impl<T: Scalar> Stencil5<T> for Symmetric5<T> {
         }
     }
 
-    fn fixed_cells(&self) -> Option<&FixedCells> {
+    fn fixed(&self) -> Option<&FixedCells> {
         self.fixed.as_ref()
     }
 
@@ -259,11 +258,5 @@ impl<T: Scalar> Stencil5<T> for Symmetric5<T> {
 
     fn first_nonpositive_center(&self) -> Option<(usize, T)> {
         self.first_nonpositive
-    }
-
-    fn diagonal(&self, d: &mut [T]) -> Result<(), Error> {
-        check_len("diagonal", self.grid.cells(), d.len())?;
-        d.copy_from_slice(&self.center);
-        Ok(())
     }
 }

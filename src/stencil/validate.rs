@@ -1,7 +1,10 @@
 //! Checks on an operator's coefficients that name the offending cell.
 
-use super::{Coeffs5, FixedCells, Stencil5};
-use crate::{is_positive, to_f64, Error, Grid, Scalar, Side};
+use crate::error::Location;
+use crate::operator::FixedCells;
+use crate::operator::{Coeffs5, Stencil5};
+use crate::scalar::{is_positive, to_f64};
+use crate::{Error, Grid, Scalar, Side};
 
 /// What a full pass over the coefficients found (when no check failed).
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -30,23 +33,16 @@ pub(crate) fn survey<T: Scalar>(
             ("north coefficient", c.north),
         ];
         if let Some(&(what, _)) = named.iter().find(|(_, v)| !v.is_finite()) {
-            return Err(Error::NonFinite {
-                what,
-                cell: k,
-                i,
-                j,
-            });
+            return Err(Error::non_finite(what, Location::on(grid, k)));
         }
         for side in Side::ALL {
             let value = c.towards(side);
             if grid.neighbour(k, side).is_none() && value != T::zero() {
-                return Err(Error::OffGridCoupling {
-                    cell: k,
-                    i,
-                    j,
-                    side,
-                    value: to_f64(value),
-                });
+                return Err(Error::off_grid(
+                    Location::on(grid, k),
+                    side.name(),
+                    to_f64(value),
+                ));
             }
         }
         let free = !fixed.is_some_and(|f| f.contains(k));
@@ -63,8 +59,8 @@ pub(crate) fn survey<T: Scalar>(
 ///
 /// # Errors
 ///
-/// [`Error::Asymmetric`] naming the first pair (in increasing cell order) that disagrees, and
-/// [`Error::InvalidSetting`] if `rel_tol` is negative or not finite.
+/// [`ErrorKind::Asymmetric`](crate::ErrorKind::Asymmetric) naming the first pair (in increasing cell order) that disagrees, and
+/// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) if `rel_tol` is negative or not finite.
 ///
 /// # Example
 ///
@@ -79,7 +75,8 @@ pub(crate) fn survey<T: Scalar>(
 ///     ..Coeffs5::default()
 /// })?;
 /// let err = check_symmetry(&op, 1e-12).unwrap_err();
-/// assert!(matches!(err, Error::Asymmetric { cell: 0, neighbour: 1, .. }));
+/// assert_eq!(err.kind(), ErrorKind::Asymmetric);
+/// assert_eq!(err.location().map(|at| at.cell), Some(0));
 /// # Ok::<(), quintet::Error>(())
 /// ```
 pub fn check_symmetry<T: Scalar, S: Stencil5<T> + ?Sized>(
@@ -87,11 +84,7 @@ pub fn check_symmetry<T: Scalar, S: Stencil5<T> + ?Sized>(
     rel_tol: f64,
 ) -> Result<(), Error> {
     if !(rel_tol >= 0.0 && rel_tol.is_finite()) {
-        return Err(Error::InvalidSetting {
-            name: "rel_tol",
-            value: rel_tol,
-            allowed: "a finite value >= 0",
-        });
+        return Err(Error::setting("rel_tol", rel_tol, "a finite value >= 0"));
     }
     let grid = op.grid();
     for k in 0..grid.cells() {
@@ -106,12 +99,7 @@ pub fn check_symmetry<T: Scalar, S: Stencil5<T> + ?Sized>(
             let a = to_f64(here.towards(side));
             let b = to_f64(there.towards(side.opposite()));
             if (a - b).abs() > rel_tol * a.abs().max(b.abs()) {
-                return Err(Error::Asymmetric {
-                    cell: k,
-                    neighbour: n,
-                    forward: a,
-                    backward: b,
-                });
+                return Err(Error::asymmetric(Location::on(grid, k), n, a, b));
             }
         }
     }

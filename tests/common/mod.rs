@@ -6,6 +6,8 @@
 
 #![allow(dead_code)]
 
+pub mod engines;
+
 use nalgebra::{DMatrix, DVector};
 use quintet::{Banded5, Coeffs5, FixedCells, Grid};
 
@@ -70,6 +72,11 @@ impl Problem {
             op.with_fixed(FixedCells::new(self.grid, self.fixed.iter().copied()).unwrap())
                 .unwrap()
         }
+    }
+
+    /// Whether every coupling is a conductance (non-positive), as in a diffusion problem.
+    pub fn is_m_matrix(&self) -> bool {
+        self.bands[1..].iter().flatten().all(|&c| c <= 0.0)
     }
 
     pub fn is_fixed(&self, k: usize) -> bool {

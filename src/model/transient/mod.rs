@@ -16,12 +16,19 @@
 mod state;
 mod step;
 
-use super::assemble;
+use super::assemble::{assemble, reassemble, Region};
 use super::book::{Book, Forcing};
-use super::builder::Model;
-use crate::kernels::Kernels;
-use crate::stencil::check_len;
-use crate::{Banded5, Error, FixedCells, IterativeSolver, Jacobi, Pcg, Report, Workspace};
+use super::field::Profile;
+use super::medium::{Conductivity, Storage};
+use super::spec::{ConditionId, Model};
+use super::update::{Change, Reassemble};
+use crate::blocks::Blocks;
+use crate::error::Location;
+use crate::operator::check_len;
+use crate::space::first_flagged;
+use crate::{
+    Banded5, Error, FixedCells, Grid, IterativeSolver, Jacobi, Pcg, Report, Stencil5, Workspace,
+};
 
 /// Crank–Nicolson steps replaced by damped steps (two backward-Euler half steps each) unless
 /// the caller says otherwise with [`Stepper::damped_start`].
@@ -106,9 +113,10 @@ pub(crate) enum LastStep {
 /// # Ok::<(), quintet::Error>(())
 /// ```
 pub struct Stepper<S> {
+    model: Model,
     solver: S,
     ws: Workspace<f64>,
-    kernels: Kernels<f64>,
+    blocks: Blocks<f64>,
     step_op: Banded5<f64>,
     a_center: Vec<f64>,
     capacity_dt: Vec<f64>,
@@ -138,9 +146,9 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidSetting`] for a step that is not positive and finite, a start time that
-    /// is not finite, or a model without storage; [`Error::LengthMismatch`] and
-    /// [`Error::NonFinite`] for a bad initial solution; the assembly errors of
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for a step that is not positive and finite, a start time that
+    /// is not finite, or a model without storage; [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) and
+    /// [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite) for a bad initial solution; the assembly errors of
     /// [`Model::assemble`] (a region is floating only if it also has no storage); whatever
     /// `make_solver` returns.
     ///
@@ -163,67 +171,40 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
         make_solver: impl FnOnce(&Banded5<f64>) -> Result<S, Error>,
     ) -> Result<Stepper<S>, Error> {
         if !(dt.is_finite() && dt > 0.0) {
-            return Err(Error::InvalidSetting {
-                name: "time step",
-                value: dt,
-                allowed: "a finite value > 0 (s)",
-            });
+            return Err(Error::setting("time step", dt, "a finite value > 0 (s)"));
         }
         if !start_time.is_finite() {
-            return Err(Error::InvalidSetting {
-                name: "start time",
-                value: start_time,
-                allowed: "a finite value (s)",
-            });
+            return Err(Error::setting(
+                "start time",
+                start_time,
+                "a finite value (s)",
+            ));
         }
         let grid = model.grid();
         let n = grid.cells();
         check_len("initial solution", n, initial.len())?;
-        if let Some(k) = initial.iter().position(|v| !v.is_finite()) {
-            let (i, j) = grid.coords(k);
-            return Err(Error::NonFinite {
-                what: "initial solution",
-                cell: k,
-                i,
-                j,
-            });
+        if let Some(k) = first_flagged(&*model.space, n, |k| !initial[k].is_finite()) {
+            return Err(Error::non_finite("initial solution", Location::on(grid, k)));
         }
-        let assembly = assemble::assemble(model, true)?;
-        if let Some(region) = assembly.floating.first() {
-            let cell = region.cells[0];
-            let (i, j) = grid.coords(cell);
-            return Err(Error::FloatingRegion {
-                cell,
-                i,
-                j,
-                cells: region.cells.len(),
-            });
-        }
+        let assembly = assemble(model, true)?;
+        refuse_floating(grid, &assembly.floating)?;
         let theta = scheme.theta();
-        let capacity_dt: Vec<f64> = assembly.capacity.iter().map(|c| c / dt).collect();
-        let [center, west, east, south, north] = assembly.bands;
-        let step_center = center
-            .iter()
-            .zip(&capacity_dt)
-            .map(|(a, c)| c + theta * a)
-            .collect();
-        let scale = |band: Vec<f64>| band.into_iter().map(|v| theta * v).collect();
-        let step_op = Banded5::new(
-            grid,
-            step_center,
-            scale(west),
-            scale(east),
-            scale(south),
-            scale(north),
-        )?
-        .with_fixed(FixedCells::new(grid, assembly.fixed)?)?;
+        let mut capacity_dt = assembly.capacity;
+        capacity_dt.iter_mut().for_each(|c| *c /= dt);
+        let mut bands = assembly.bands;
+        let mut a_center = Vec::new();
+        to_step_operator(theta, &capacity_dt, bands.each_mut(), &mut a_center);
+        let [center, west, east, south, north] = bands;
+        let step_op = Banded5::new(grid, center, west, east, south, north)?
+            .with_fixed(FixedCells::new(grid, assembly.fixed)?)?;
         let solver = make_solver(&step_op)?;
         let mut stepper = Stepper {
+            model: model.clone(),
             solver,
-            ws: Workspace::for_grid(grid),
-            kernels: Kernels::new(grid),
+            ws: Workspace::for_grid(grid).with_space(model.space.clone()),
+            blocks: Blocks::for_grid(grid),
             step_op,
-            a_center: center,
+            a_center,
             capacity_dt,
             levels_start: assembly.book.levels.clone(),
             levels_mid: assembly.book.levels.clone(),
@@ -368,6 +349,137 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
         self.write_fixed();
         self.book.fill_rhs(&mut self.b_prev);
         Ok(())
+    }
+}
+
+/// Changes of the model in place: re-assembled into the same step operator, handles kept.
+impl<S: IterativeSolver<f64>> Stepper<S> {
+    /// Replace the conductivity from the next step on, re-assembling the step operator in
+    /// place (see [`SteadySystem::set_conductivity`](super::SteadySystem::set_conductivity)).
+    ///
+    /// # Errors
+    ///
+    /// As for [`SteadySystem::set_conductivity`](super::SteadySystem::set_conductivity); the
+    /// stepper is then left as it was.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
+    /// # let mut model = Model::new(Geometry::cell_centered(4, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.set_storage(Storage::per_area(1.0))?;
+    /// let mut run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 1.0, 0.0, &[0.0; 4])?;
+    /// run.set_conductivity(Conductivity::isotropic(3.0))?;
+    /// assert_eq!(run.operator().east()[0], -3.0);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_conductivity(&mut self, conductivity: Conductivity) -> Result<(), Error> {
+        self.change(Change::Conductivity(conductivity))
+    }
+
+    /// Replace the storage from the next step on, re-assembling the step operator in place.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch) and
+    /// [`ErrorKind::InvalidProperty`](crate::ErrorKind::InvalidProperty) for a bad field; the
+    /// stepper is then left as it was.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
+    /// # let mut model = Model::new(Geometry::cell_centered(4, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.set_storage(Storage::per_area(1.0))?;
+    /// let mut run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 2.0, 0.0, &[0.0; 4])?;
+    /// run.set_storage(Storage::per_area(4.0))?;
+    /// assert_eq!(run.operator().center()[0], 2.0 + 1.0); // S/Δt + conductance to the one neighbour
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_storage(&mut self, storage: Storage) -> Result<(), Error> {
+        self.change(Change::Storage(storage))
+    }
+
+    /// Replace the exchange coefficient of condition `id` from the next step on (see
+    /// [`SteadySystem::set_exchange`](super::SteadySystem::set_exchange)).
+    ///
+    /// # Errors
+    ///
+    /// As for [`SteadySystem::set_exchange`](super::SteadySystem::set_exchange); the stepper is
+    /// then left as it was.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
+    /// # use quintet::Side;
+    /// # let mut model = Model::new(Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.set_storage(Storage::per_area(1.0))?;
+    /// let air = model.edge_exchange("air", Side::North, 10.0, 20.0)?;
+    /// let mut run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 1.0, 0.0, &[0.0; 16])?;
+    /// run.set_exchange(air, 30.0)?; // the fan came on
+    /// run.step()?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_exchange(
+        &mut self,
+        id: ConditionId,
+        coefficient: impl Into<Profile>,
+    ) -> Result<(), Error> {
+        self.change(Change::Exchange(id, coefficient.into()))
+    }
+}
+
+impl<S: IterativeSolver<f64>> Reassemble for Stepper<S> {
+    fn record(&mut self) -> &mut Model {
+        &mut self.model
+    }
+
+    /// The step operator `S/Δt + θ·A`, the center of `A` and `S/Δt` from the model record,
+    /// into their storage.
+    fn reassemble(&mut self) -> Result<(), Error> {
+        let (theta, dt) = (self.scheme.theta(), self.dt);
+        let grid = self.step_op.grid();
+        let (model, book) = (&self.model, &mut self.book);
+        let (capacity_dt, a_center) = (&mut self.capacity_dt, &mut self.a_center);
+        self.step_op.refill(|mut bands| {
+            let found = reassemble(
+                model,
+                true,
+                bands.each_mut().map(|b| &mut **b),
+                book,
+                capacity_dt,
+            )?;
+            refuse_floating(grid, &found.floating)?;
+            capacity_dt.iter_mut().for_each(|c| *c /= dt);
+            to_step_operator(theta, capacity_dt, bands, a_center);
+            Ok(())
+        })?
+    }
+}
+
+/// `Err(FloatingRegion)` for the first region with nothing that sets its level (no storage
+/// either, in a transient run).
+fn refuse_floating(grid: Grid, floating: &[Region]) -> Result<(), Error> {
+    match floating.first() {
+        None => Ok(()),
+        Some(region) => Err(Error::floating(
+            Location::on(grid, region.cells[0]),
+            region.cells.len(),
+        )),
+    }
+}
+
+/// Turn the conduction operator `A` in `bands` (center, west, east, south, north) into the
+/// step operator `S/Δt + θ·A` in place, keeping the center of `A` in `a_center`.
+fn to_step_operator(
+    theta: f64,
+    capacity_dt: &[f64],
+    bands: [&mut Vec<f64>; 5],
+    a_center: &mut Vec<f64>,
+) {
+    let [center, couplings @ ..] = bands;
+    a_center.clear();
+    a_center.extend_from_slice(center);
+    for ((c, cap), a) in center.iter_mut().zip(capacity_dt).zip(a_center.iter()) {
+        *c = cap + theta * a;
+    }
+    for band in couplings {
+        band.iter_mut().for_each(|v| *v *= theta);
     }
 }
 

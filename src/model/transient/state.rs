@@ -2,6 +2,7 @@
 
 use super::{LastStep, Stepper};
 use crate::model::budget::{Budget, BudgetLine, FlowKind};
+use crate::space::total;
 use crate::{Banded5, IterativeSolver, Stencil5};
 
 impl<S: IterativeSolver<f64>> Stepper<S> {
@@ -30,21 +31,23 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
             LastStep::Trapezoid => Some((&self.x_start[..], &self.levels_start[..], 0.5)),
             LastStep::HalfSteps => Some((&self.x_mid[..], &self.levels_mid[..], 0.5)),
         };
-        let mut lines = self.book.lines(new, previous, Some(&uptake));
-        let (mut inflow, mut outflow) = (0.0, 0.0);
+        let space = &*self.ws.space;
+        let mut lines = self.book.lines(space, new, previous, Some(&uptake));
+        let mut flows = [0.0, 0.0];
         for ((c, x1), x0) in self.capacity_dt.iter().zip(&self.x).zip(&self.x_start) {
             let release = -c * (x1 - x0);
             if release >= 0.0 {
-                inflow += release;
+                flows[0] += release;
             } else {
-                outflow -= release;
+                flows[1] -= release;
             }
         }
+        total(space, &mut flows);
         lines.push(BudgetLine {
             label: "storage".to_string(),
             kind: FlowKind::Storage,
-            inflow,
-            outflow,
+            inflow: flows[0],
+            outflow: flows[1],
         });
         Some(Budget::from_lines(lines))
     }

@@ -67,7 +67,8 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
                     center: &self.a_center,
                     inv_theta: 2.0,
                 };
-                self.kernels.apply(&conduction, &self.x, &mut self.rhs);
+                self.blocks
+                    .apply(&*self.ws.space, &conduction, &self.x, &mut self.rhs);
                 self.rhs.iter_mut().for_each(|v| *v *= -0.5);
                 self.add_storage_term(false);
                 add_scaled(&mut self.rhs, 0.5, &self.b_prev);

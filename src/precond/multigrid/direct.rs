@@ -1,7 +1,7 @@
 //! The coarsest-level solve: a banded Cholesky factorisation `A = L·Lᵀ` of the eliminated
 //! operator, in the cell ordering (row-wise or column-wise) with the smaller bandwidth.
 
-use super::level::Rows;
+use crate::operator::Stencil5;
 use crate::{Error, Scalar};
 
 /// Largest number of cells the direct solve accepts.
@@ -26,15 +26,15 @@ pub(crate) struct BandCholesky<T> {
 impl<T: Scalar> BandCholesky<T> {
     /// Factor the operator of `rows` (at most [`MAX_DIRECT_CELLS`] cells). Only the couplings
     /// below the diagonal (in the chosen ordering) are read; the operator is taken as symmetric.
-    pub(crate) fn new<R: Rows<T>>(rows: &R) -> Result<BandCholesky<T>, Error> {
+    pub(crate) fn new<R: Stencil5<T> + ?Sized>(rows: &R) -> Result<BandCholesky<T>, Error> {
         let g = rows.grid();
         let (nx, ny, n) = (g.nx(), g.ny(), g.cells());
         if n > MAX_DIRECT_CELLS {
-            return Err(Error::InvalidSetting {
-                name: "coarsest level cells",
-                value: n as f64,
-                allowed: "at most 4096 cells for the direct coarsest solve",
-            });
+            return Err(Error::setting(
+                "coarsest level cells",
+                n as f64,
+                "at most 4096 cells for the direct coarsest solve",
+            ));
         }
         // Row-wise ordering has bandwidth nx, column-wise ny: take the smaller.
         let by_columns = ny < nx;
@@ -55,7 +55,7 @@ impl<T: Scalar> BandCholesky<T> {
         for j in 0..ny {
             for i in 0..nx {
                 let k = i + nx * j;
-                let c = rows.row(i, j, k);
+                let c = rows.eliminated_coeffs(i, j);
                 let p = position[k];
                 diag[p] = c.center;
                 band[p * w + m] = c.center;

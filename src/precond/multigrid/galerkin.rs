@@ -1,7 +1,8 @@
 //! The lumped Galerkin coarse operator ([`CoarseOperator::LumpedGalerkin`]).
 
-use super::level::{split, Axis, Rows};
-use crate::precond::factor::lit;
+use super::aggregate::{split, Axis};
+use crate::operator::Stencil5;
+use crate::scalar::lit;
 use crate::{Coeffs5, Grid, Scalar};
 
 #[cfg(doc)]
@@ -16,7 +17,7 @@ use super::CoarseOperator;
 /// entry exactly in every direction of the gradient for straight offsets, and on average over
 /// directions for the others. A path through an inactive cell is replaced by the other; if
 /// both are blocked the entry goes to both diagonals as `2g` (`(u_a − u_c)² ≤ 2u_a² + 2u_c²`).
-pub(crate) fn galerkin_lumped<T: Scalar, R: Rows<T>>(
+pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
     fine: &R,
     ax: &Axis,
     ay: &Axis,
@@ -28,6 +29,8 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Rows<T>>(
     let g = fine.grid();
     let (nx, ny) = (g.nx(), g.ny());
     let (ncx, ncy, nc) = (grid.nx(), grid.ny(), grid.cells());
+    let fixed = fine.fixed();
+    let fine_active = |k: usize| !fixed.is_some_and(|f| f.contains(k));
     let p_row = |i: usize, j: usize, k: usize| -> [(usize, usize, T); 4] {
         let (pi, qi, pj, qj) = (ax.parent(i), ax.neighbour(i), ay.parent(j), ay.neighbour(j));
         let ((u1, w1), (u2, w2)) = (split(wx[k]), split(wy[k]));
@@ -42,10 +45,10 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Rows<T>>(
     for j in 0..ny {
         for i in 0..nx {
             let k = i + nx * j;
-            if !fine.active(k) {
+            if !fine_active(k) {
                 continue;
             }
-            let c = fine.row(i, j, k);
+            let c = fine.eliminated_coeffs(i, j);
             let mut nbrs = [(i, j, k, c.center); 5];
             let mut m = 1;
             if i > 0 {
@@ -66,7 +69,7 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Rows<T>>(
             }
             let pf = p_row(i, j, k);
             for &(gi, gj, gk, a) in &nbrs[..m] {
-                if a == T::zero() || !fine.active(gk) {
+                if a == T::zero() || !fine_active(gk) {
                     continue;
                 }
                 let pg = p_row(gi, gj, gk);

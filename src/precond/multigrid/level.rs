@@ -30,83 +30,54 @@
 //! cells, coarse cells with no unknown under them) are left out of `P` and `R` and are identity
 //! rows, so the V-cycle stays symmetric.
 
+use super::aggregate::{split, Axis};
 use super::galerkin::galerkin_lumped;
 use super::CoarseOperator;
-use crate::precond::factor::{eliminated_row, lit};
 use std::ops::Range;
 
-use crate::kernels::Kernels;
-use crate::stencil::{row_neighbourhood, row_product, Stencil5};
-use crate::{Coeffs5, Error, FixedCells, Grid, Scalar};
+use crate::blocks::Blocks;
+use crate::error::Location;
+use crate::operator::FixedCells;
+use crate::operator::{row_neighbourhood, row_product, Stencil5};
+use crate::scalar::{lit, to_f64};
+use crate::space::Space;
+use crate::{Coeffs5, Error, Grid, Scalar};
 
-/// A source of eliminated rows: the fine operator or a coarse level.
-pub(crate) trait Rows<T: Scalar>: Sync {
-    fn grid(&self) -> Grid;
-    /// The eliminated row of cell `(i, j)`, `k = i + nx·j`.
-    fn row(&self, i: usize, j: usize, k: usize) -> Coeffs5<T>;
-    /// Whether cell `k` is an unknown (false for fixed cells and identity rows).
-    fn active(&self, k: usize) -> bool;
-    /// `y = A·x` over the grid rows `rows` (`y` holds exactly those rows), for an `x` that is
-    /// zero at every inactive cell (so couplings towards inactive cells contribute nothing
-    /// whether or not they are eliminated).
-    fn product_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
-        let g = self.grid();
-        let (nx, ny) = (g.nx(), g.ny());
-        for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
-            let (south, row, north) = row_neighbourhood(x, nx, ny, j);
-            row_product(|i| self.row(i, j, i + nx * j), south, row, north, y_row);
-        }
-    }
+/// Whether cell `k` of `op` is an unknown (false for fixed cells and identity rows), with the
+/// fixed set looked up once.
+pub(crate) fn active_cells<T: Scalar, R: Stencil5<T> + ?Sized>(
+    op: &R,
+) -> impl Fn(usize) -> bool + '_ {
+    let fixed = op.fixed();
+    move |k| !fixed.is_some_and(|f| f.contains(k))
 }
 
-/// The user's operator, seen through its eliminated rows.
-pub(crate) struct FineRows<'a, S: ?Sized> {
-    pub(crate) op: &'a S,
-    pub(crate) fixed: Option<&'a FixedCells>,
-    pub(crate) nx: usize,
-    pub(crate) ny: usize,
-}
-
-impl<T: Scalar, S: Stencil5<T> + ?Sized> Rows<T> for FineRows<'_, S> {
-    fn grid(&self) -> Grid {
-        self.op.grid()
-    }
-    #[inline]
-    fn row(&self, i: usize, j: usize, _k: usize) -> Coeffs5<T> {
-        eliminated_row(self.op, self.fixed, self.nx, self.ny, i, j)
-    }
-    #[inline]
-    fn active(&self, k: usize) -> bool {
-        !self.fixed.is_some_and(|f| f.contains(k))
-    }
-    /// The operator's own row kernel: with `x` zero at fixed cells, the raw couplings towards
-    /// them add nothing, so this equals the eliminated product on the free cells.
-    fn product_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
-        self.op.apply_rows(rows, x, y);
-    }
-}
-
-/// A coarse 5-point operator, stored as five arrays, with its active-cell mask.
+/// A coarse 5-point operator: one row per cell, its cells without an unknown (identity rows)
+/// as fixed cells.
 #[derive(Clone, Debug)]
 pub(crate) struct LevelOperator<T> {
     pub(crate) grid: Grid,
     pub(crate) rows: Vec<Coeffs5<T>>,
-    pub(crate) active: Vec<bool>,
+    pub(crate) inactive: FixedCells,
 }
 
-impl<T: Scalar> Rows<T> for LevelOperator<T> {
+impl<T: Scalar> Stencil5<T> for LevelOperator<T> {
     fn grid(&self) -> Grid {
         self.grid
     }
     #[inline]
-    fn row(&self, _i: usize, _j: usize, k: usize) -> Coeffs5<T> {
-        self.rows[k]
+    fn coeffs(&self, i: usize, j: usize) -> Coeffs5<T> {
+        self.rows[i + self.grid.nx() * j]
     }
+    fn fixed(&self) -> Option<&FixedCells> {
+        Some(&self.inactive)
+    }
+    /// The rows are built eliminated: identity rows at inactive cells, no couplings to them.
     #[inline]
-    fn active(&self, k: usize) -> bool {
-        self.active[k]
+    fn eliminated_coeffs(&self, i: usize, j: usize) -> Coeffs5<T> {
+        self.coeffs(i, j)
     }
-    fn product_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
+    fn apply_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
         let (nx, ny) = (self.grid.nx(), self.grid.ny());
         for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
             // The row's coefficients cut to exactly `nx` entries: no checks in the loop.
@@ -114,52 +85,6 @@ impl<T: Scalar> Rows<T> for LevelOperator<T> {
             let (south, row, north) = row_neighbourhood(x, nx, ny, j);
             row_product(|i| coeffs[i], south, row, north, y_row);
         }
-    }
-}
-
-/// Coarse-cell geometry along one axis: fine index → parent and neighbour aggregates.
-#[derive(Clone, Copy, Debug)]
-pub(crate) struct Axis {
-    pub(crate) n: usize,
-}
-
-impl Axis {
-    /// The aggregate fine cell `i` belongs to.
-    #[inline]
-    pub(crate) fn parent(&self, i: usize) -> usize {
-        i / 2
-    }
-
-    /// The aggregate fine cell `i` interpolates from besides its own: the left cell of a pair
-    /// looks towards the previous aggregate, the right one towards the next; a 1-wide
-    /// aggregate (last cell of an odd axis) and the cells at the ends have none (the parent
-    /// is returned).
-    #[inline]
-    pub(crate) fn neighbour(&self, i: usize) -> usize {
-        let p = i / 2;
-        let paired = 2 * p + 1 < self.n;
-        if !paired {
-            p
-        } else if i % 2 == 0 {
-            p.saturating_sub(1)
-        } else if p + 1 < self.n.div_ceil(2) {
-            p + 1
-        } else {
-            p
-        }
-    }
-}
-
-/// Own and neighbour weights of a stored interpolation weight: `w ≥ 0` is the share of the
-/// neighbouring aggregate; `w < 0` means the outward side is a zero-valued ghost (a grid edge or
-/// fixed cells) with share `|w|`, so the cell keeps `1 − |w|` of its own aggregate and nothing
-/// else.
-#[inline]
-pub(crate) fn split<T: Scalar>(w: T) -> (T, T) {
-    if w < T::zero() {
-        (T::one() + w, T::zero())
-    } else {
-        (T::one() - w, w)
     }
 }
 
@@ -237,9 +162,12 @@ impl<T: Scalar> Level<T> {
     ///
     /// # Errors
     ///
-    /// [`Error::PivotBreakdown`] naming the first fine cell of an aggregate whose coarse center
+    /// [`ErrorKind::PivotBreakdown`](crate::ErrorKind::PivotBreakdown) naming the first fine cell of an aggregate whose coarse center
     /// comes out non-positive or not finite.
-    pub(crate) fn below<R: Rows<T>>(fine: &R, rule: CoarseOperator) -> Result<Level<T>, Error> {
+    pub(crate) fn below<R: Stencil5<T> + ?Sized>(
+        fine: &R,
+        rule: CoarseOperator,
+    ) -> Result<Level<T>, Error> {
         let g = fine.grid();
         let (nx, ny, n) = (g.nx(), g.ny(), g.cells());
         let (ncx, ncy) = (nx.div_ceil(2), ny.div_ceil(2));
@@ -248,6 +176,7 @@ impl<T: Scalar> Level<T> {
         let (ax, ay) = (Axis { n: nx }, Axis { n: ny });
         let two: T = lit(2.0);
         let half: T = lit(0.5);
+        let active_fine = active_cells(fine);
         // Conductances towards east and north, and row-sum excess, of every fine cell.
         let mut east = vec![T::zero(); n];
         let mut north = vec![T::zero(); n];
@@ -255,10 +184,10 @@ impl<T: Scalar> Level<T> {
         for j in 0..ny {
             for i in 0..nx {
                 let k = i + nx * j;
-                if !fine.active(k) {
+                if !active_fine(k) {
                     continue;
                 }
-                let c = fine.row(i, j, k);
+                let c = fine.eliminated_coeffs(i, j);
                 east[k] = conductance(c.east);
                 north[k] = conductance(c.north);
                 let sum = c.center + c.west + c.east + c.south + c.north;
@@ -270,7 +199,7 @@ impl<T: Scalar> Level<T> {
         let half_x = |i: usize, j: usize| -> Option<T> {
             let k = i + nx * j;
             let sib = if i % 2 == 0 { i + 1 } else { i - 1 };
-            if sib >= nx || !fine.active(sib + nx * j) {
+            if sib >= nx || !active_fine(sib + nx * j) {
                 return None;
             }
             Some(two * east[k.min(sib + nx * j)])
@@ -278,7 +207,7 @@ impl<T: Scalar> Level<T> {
         let half_y = |i: usize, j: usize| -> Option<T> {
             let k = i + nx * j;
             let sib = if j % 2 == 0 { j + 1 } else { j - 1 };
-            if sib >= ny || !fine.active(i + nx * sib) {
+            if sib >= ny || !active_fine(i + nx * sib) {
                 return None;
             }
             Some(two * north[k.min(i + nx * sib)])
@@ -300,7 +229,7 @@ impl<T: Scalar> Level<T> {
         for j in 0..ny {
             for i in 0..nx {
                 let k = i + nx * j;
-                if !fine.active(k) {
+                if !active_fine(k) {
                     continue;
                 }
                 let (ci, cj) = (ax.parent(i), ay.parent(j));
@@ -308,10 +237,10 @@ impl<T: Scalar> Level<T> {
                 // Missing or fixed neighbours of this cell: its row-sum excess is shared among
                 // them as the conductance to a zero-valued ghost beyond each.
                 let missing = [
-                    i == 0 || !fine.active(k - 1),
-                    i + 1 == nx || !fine.active(k + 1),
-                    j == 0 || !fine.active(k - nx),
-                    j + 1 == ny || !fine.active(k + nx),
+                    i == 0 || !active_fine(k - 1),
+                    i + 1 == nx || !active_fine(k + 1),
+                    j == 0 || !active_fine(k - nx),
+                    j + 1 == ny || !active_fine(k + nx),
                 ];
                 let m = missing.iter().filter(|&&b| b).count();
                 let ghost = if m > 0 {
@@ -374,7 +303,7 @@ impl<T: Scalar> Level<T> {
         for j in 0..ny {
             for i in 0..nx {
                 let k = i + nx * j;
-                if !fine.active(k) {
+                if !active_fine(k) {
                     continue;
                 }
                 let (ci, cj) = (ax.parent(i), ay.parent(j));
@@ -452,15 +381,20 @@ impl<T: Scalar> Level<T> {
             }
             if !(row.center.is_finite() && row.center > T::zero()) {
                 let (ci, cj) = grid.coords(kc);
-                return Err(Error::PivotBreakdown {
-                    cell: g.index(2 * ci, 2 * cj),
-                    value: crate::to_f64(row.center),
-                });
+                return Err(Error::pivot(
+                    Location::on(g, g.index(2 * ci, 2 * cj)),
+                    to_f64(row.center),
+                ));
             }
         }
         let inverse_centers = inverse_centers(&rows, |k| active[k]);
+        let inactive = FixedCells::new(grid, (0..nc).filter(|&k| !active[k]))?;
         Ok(Level {
-            op: LevelOperator { grid, rows, active },
+            op: LevelOperator {
+                grid,
+                rows,
+                inactive,
+            },
             inverse_centers,
             ax,
             ay,
@@ -496,14 +430,15 @@ impl<T: Scalar> Level<T> {
     }
 
     /// `self.b = Pᵀ·r_fine` (inactive fine cells left out).
-    pub(crate) fn restrict<R: Rows<T>>(&mut self, fine: &R, r_fine: &[T]) {
+    pub(crate) fn restrict<R: Stencil5<T> + ?Sized>(&mut self, fine: &R, r_fine: &[T]) {
         let nx = fine.grid().nx();
+        let active_fine = active_cells(fine);
         let mut b = std::mem::take(&mut self.b);
         b.iter_mut().for_each(|v| *v = T::zero());
         for (j, row) in r_fine.chunks_exact(nx).enumerate() {
             for (i, &r) in row.iter().enumerate() {
                 let k = i + nx * j;
-                if !fine.active(k) {
+                if !active_fine(k) {
                     continue;
                 }
                 for (kc, w) in self.stencil(i, j, k) {
@@ -515,19 +450,22 @@ impl<T: Scalar> Level<T> {
     }
 
     /// `x_fine += P·self.x` (inactive fine cells left out), rows in parallel on large grids.
-    pub(crate) fn prolong_add<R: Rows<T>>(
+    pub(crate) fn prolong_add<R: Stencil5<T> + ?Sized>(
         &self,
         fine: &R,
         x_fine: &mut [T],
-        kernels: &mut Kernels<T>,
+        blocks: &mut Blocks<T>,
+        space: &dyn Space,
     ) {
         let nx = fine.grid().nx();
         let x = &self.x;
-        kernels.map_blocks(x_fine, |rows, _, block| {
+        let active_fine = active_cells(fine);
+        blocks.for_each(space, x_fine, |cells, block| {
+            let rows = cells.start / nx..cells.end / nx;
             for (j, row) in rows.zip(block.chunks_exact_mut(nx)) {
                 for (i, v) in row.iter_mut().enumerate() {
                     let k = i + nx * j;
-                    if !fine.active(k) {
+                    if !active_fine(k) {
                         continue;
                     }
                     let mut e = T::zero();
@@ -537,7 +475,6 @@ impl<T: Scalar> Level<T> {
                     *v = *v + e;
                 }
             }
-            (T::zero(), T::zero())
         });
     }
 
@@ -546,7 +483,8 @@ impl<T: Scalar> Level<T> {
     pub(crate) fn bytes(&self) -> usize {
         let t = std::mem::size_of::<T>();
         let n = self.op.grid.cells();
-        n * (8 * t + 5) + (self.wx.len() + self.wy.len()) * std::mem::size_of::<f32>()
+        let mask = n.div_ceil(64) * 8 + self.op.inactive.len() * std::mem::size_of::<usize>();
+        n * (8 * t + 4) + mask + (self.wx.len() + self.wy.len()) * std::mem::size_of::<f32>()
     }
 }
 

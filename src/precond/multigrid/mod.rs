@@ -38,22 +38,23 @@
 //! cycle converges (about 12 cycles at 256²). On heterogeneous fields PCG is the use.
 //! Results support, and do not replace, engineering judgement: check the report.
 
+mod aggregate;
 mod direct;
 mod galerkin;
 mod level;
 mod smooth;
 
 use direct::{BandCholesky, MAX_DIRECT_CELLS};
-use level::{FineRows, Level, Rows};
+use level::Level;
 use smooth::{red_black_sweep, residual, smooth_from_zero};
 
-use super::correction::correction_solve;
-use super::Preconditioner;
-use crate::kernels::Kernels;
-use crate::solve::{IterativeSolver, Report, SolveOptions, Workspace};
-use crate::stencil::{check_grid, Stencil5};
-use crate::stop::Progress;
-use crate::{Error, Grid, Scalar};
+use super::{check_built_for, Preconditioner};
+use crate::blocks::Blocks;
+use crate::iterate::{IterativeSolver, NameCache, SolveOptions, Task, Workspace};
+use crate::operator::Stencil5;
+use crate::relax::correction_solve;
+use crate::space::Space;
+use crate::{Error, Grid, LinearOperator, Progress, Report, Scalar};
 
 /// How the coarse-level operators are built from the finer level (both keep a 5-point
 /// stencil).
@@ -125,8 +126,10 @@ impl Default for MultigridSettings {
 
 /// A geometric multigrid V-cycle for a 5-point operator (see the [module notes](self)).
 ///
-/// Built once from the operator (`S` is usually a reference, `&op`), then applied as many times
-/// as needed; applying it allocates nothing. One application is one V-cycle from a zero
+/// Built once from the operator (borrowed only while the hierarchy is built), then applied as
+/// many times as needed with that operator — the one PCG solves, or the one passed to the
+/// standalone solve — and applying it allocates nothing. It holds no reference to the
+/// operator, so it can live beside the model or time stepper that owns the operator. One application is one V-cycle from a zero
 /// initial guess, `z = B·r`. As a PCG preconditioner the iteration count to a fixed relative
 /// residual does not grow with the grid size; as a standalone solver
 /// ([`IterativeSolver::solve`]) each iteration is one V-cycle on the current residual, its
@@ -153,8 +156,7 @@ impl Default for MultigridSettings {
 /// # Ok::<(), quintet::Error>(())
 /// ```
 #[derive(Clone, Debug)]
-pub struct Multigrid<T, S> {
-    op: S,
+pub struct Multigrid<T> {
     grid: Grid,
     settings: MultigridSettings,
     levels: Vec<Level<T>>,
@@ -163,19 +165,20 @@ pub struct Multigrid<T, S> {
     /// `1/center` of the fine operator at free cells, 0 at fixed cells (`f32`, see
     /// `Level::inverse_centers`).
     fine_inverse_centers: Vec<f32>,
-    /// Blocked kernels for the fine level (index 0) and each coarse level.
-    kernels: Vec<Kernels<T>>,
+    /// Blocks of the fine level (index 0) and of each coarse level.
+    blocks: Vec<Blocks<T>>,
     /// Stopping rule for the standalone solver.
     pub options: SolveOptions,
+    name: NameCache,
 }
 
-impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
-    /// Build the hierarchy for `op` (pass `&op` to borrow it).
+impl<T: Scalar> Multigrid<T> {
+    /// Build the hierarchy for `op`.
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidSetting`] for settings out of range; [`Error::NonPositiveCenter`] for a
-    /// free cell whose center is not positive; [`Error::PivotBreakdown`] if a coarse center
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for settings out of range; [`ErrorKind::NonPositiveCenter`](crate::ErrorKind::NonPositiveCenter) for a
+    /// free cell whose center is not positive; [`ErrorKind::PivotBreakdown`](crate::ErrorKind::PivotBreakdown) if a coarse center
     /// comes out non-positive (the operator is not positive definite).
     ///
     /// ```
@@ -185,17 +188,14 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
     /// let mg = Multigrid::new(&op, MultigridSettings::default())?;
     /// assert_eq!(mg.level_grids()[1], Grid::new(50, 20)?);
     /// let bad = MultigridSettings { smoothing_sweeps: 0, ..Default::default() };
-    /// assert!(matches!(Multigrid::new(&op, bad), Err(Error::InvalidSetting { .. })));
+    /// assert_eq!(Multigrid::new(&op, bad).unwrap_err().kind(), ErrorKind::InvalidSetting);
     /// # Ok::<(), quintet::Error>(())
     /// ```
-    pub fn new(op: S, settings: MultigridSettings) -> Result<Multigrid<T, S>, Error> {
-        let bad = |name, value: usize, allowed| {
-            Err(Error::InvalidSetting {
-                name,
-                value: value as f64,
-                allowed,
-            })
-        };
+    pub fn new<S: Stencil5<T> + ?Sized>(
+        op: &S,
+        settings: MultigridSettings,
+    ) -> Result<Multigrid<T>, Error> {
+        let bad = |name, value: usize, allowed| Err(Error::setting(name, value as f64, allowed));
         if !(1..=16).contains(&settings.smoothing_sweeps) {
             return bad(
                 "smoothing_sweeps",
@@ -209,9 +209,9 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
         if settings.max_levels == 0 {
             return bad("max_levels", 0, "at least 1 level");
         }
-        super::check_centers(&op)?;
+        super::check_centers(op)?;
         let grid = op.grid();
-        let fine = fine_rows(&op);
+        let fine = op;
         let mut levels: Vec<Level<T>> = Vec::new();
         loop {
             let current = levels.last().map_or(grid, |l| l.op.grid);
@@ -223,28 +223,29 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
                 break;
             }
             let next = match levels.last() {
-                None => Level::below(&fine, settings.coarse_operator)?,
+                None => Level::below(fine, settings.coarse_operator)?,
                 Some(l) => Level::below(&l.op, settings.coarse_operator)?,
             };
             levels.push(next);
         }
         let direct = match levels.last() {
-            None => BandCholesky::new(&fine)?,
+            None => BandCholesky::new(fine)?,
             Some(l) => BandCholesky::new(&l.op)?,
         };
+        let active = level::active_cells(fine);
         let fine_inverse_centers = (0..grid.cells())
             .map(|k| {
                 let (i, j) = grid.coords(k);
-                if fine.active(k) {
+                if active(k) {
                     level::narrow_one(T::one() / op.coeffs(i, j).center)
                 } else {
                     0.0
                 }
             })
             .collect();
-        let kernels = std::iter::once(grid)
+        let blocks = std::iter::once(grid)
             .chain(levels.iter().map(|l| l.op.grid))
-            .map(Kernels::new)
+            .map(Blocks::for_grid)
             .collect();
         Ok(Multigrid {
             grid,
@@ -253,9 +254,9 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
             direct,
             fine_residual: vec![T::zero(); grid.cells()],
             fine_inverse_centers,
-            kernels,
-            op,
+            blocks,
             options: SolveOptions::default(),
+            name: NameCache::default(),
         })
     }
 
@@ -269,7 +270,7 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
     /// assert_eq!(mg.options.tolerances.relative, 1e-10);
     /// # Ok::<(), quintet::Error>(())
     /// ```
-    pub fn with_options(mut self, options: SolveOptions) -> Multigrid<T, S> {
+    pub fn with_options(mut self, options: SolveOptions) -> Multigrid<T> {
         self.options = options;
         self
     }
@@ -318,7 +319,7 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn storage_bytes(&self) -> usize {
-        self.levels.iter().map(Level::bytes).sum::<usize>()
+        self.levels.iter().map(Level::bytes).sum::<usize>() // local: bytes held by the levels
             + self.fine_residual.len() * std::mem::size_of::<T>()
             + self.fine_inverse_centers.len() * std::mem::size_of::<f32>()
             + self.direct.bytes()
@@ -339,10 +340,10 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
         self.direct.replaced
     }
 
-    /// One V-cycle from a zero initial guess: `z = B·r`.
-    fn cycle(&mut self, r: &[T], z: &mut [T]) {
+    /// One V-cycle from a zero initial guess, `z = B·r`, with `fine` the fine-level operator.
+    fn cycle(&mut self, fine: &dyn Stencil5<T>, space: &dyn Space, r: &[T], z: &mut [T]) {
         let n = self.grid.cells();
-        if r.len() < n || z.len() < n {
+        if r.len() < n || z.len() < n || fine.grid() != self.grid {
             return;
         }
         let (r, z) = (&r[..n], &mut z[..n]);
@@ -351,21 +352,20 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
             return;
         }
         let nu = self.settings.smoothing_sweeps;
-        let fine = fine_rows(&self.op);
         // The fine residual buffer doubles as the smoother's scratch on the fine level, and
         // each level's residual buffer on its own level: neither is in use while smoothing.
-        let (fine_kernels, level_kernels) = self.kernels.split_at_mut(1);
+        let (fine_blocks, level_blocks) = self.blocks.split_at_mut(1);
         let inv = &self.fine_inverse_centers;
-        let fine_kernels = &mut fine_kernels[0];
-        smooth_from_zero(&fine, inv, r, z, &mut self.fine_residual, nu, fine_kernels);
-        residual(&fine, r, z, &mut self.fine_residual, fine_kernels);
-        self.levels[0].restrict(&fine, &self.fine_residual);
+        let fb = &mut fine_blocks[0];
+        smooth_from_zero(fine, inv, r, z, &mut self.fine_residual, nu, fb, space);
+        residual(fine, r, z, &mut self.fine_residual, fb, space);
+        self.levels[0].restrict(fine, &self.fine_residual);
         // Down the hierarchy.
         let last = self.levels.len() - 1;
         for l in 0..last {
             let (upper, lower) = self.levels.split_at_mut(l + 1);
             let here = &mut upper[l];
-            let kernels = &mut level_kernels[l];
+            let blocks = &mut level_blocks[l];
             smooth_from_zero(
                 &here.op,
                 &here.inverse_centers,
@@ -373,9 +373,10 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
                 &mut here.x,
                 &mut here.r,
                 nu,
-                kernels,
+                blocks,
+                space,
             );
-            residual(&here.op, &here.b, &here.x, &mut here.r, kernels);
+            residual(&here.op, &here.b, &here.x, &mut here.r, blocks, space);
             lower[0].restrict(&here.op, &here.r);
         }
         let coarsest = &mut self.levels[last];
@@ -384,8 +385,8 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
         for l in (0..last).rev() {
             let (upper, lower) = self.levels.split_at_mut(l + 1);
             let here = &mut upper[l];
-            let kernels = &mut level_kernels[l];
-            lower[0].prolong_add(&here.op, &mut here.x, kernels);
+            let blocks = &mut level_blocks[l];
+            lower[0].prolong_add(&here.op, &mut here.x, blocks, space);
             for _ in 0..nu {
                 red_black_sweep(
                     &here.op,
@@ -394,73 +395,92 @@ impl<T: Scalar, S: Stencil5<T>> Multigrid<T, S> {
                     &mut here.x,
                     &mut here.r,
                     1,
-                    kernels,
+                    blocks,
+                    space,
                 );
             }
         }
-        self.levels[0].prolong_add(&fine, z, fine_kernels);
+        self.levels[0].prolong_add(fine, z, fb, space);
         for _ in 0..nu {
-            red_black_sweep(&fine, inv, r, z, &mut self.fine_residual, 1, fine_kernels);
+            red_black_sweep(fine, inv, r, z, &mut self.fine_residual, 1, fb, space);
         }
     }
 }
 
-fn fine_rows<T: Scalar, S: Stencil5<T> + ?Sized>(op: &S) -> FineRows<'_, S> {
-    let g = op.grid();
-    FineRows {
-        op,
-        fixed: op.fixed_cells(),
-        nx: g.nx(),
-        ny: g.ny(),
+impl<T: Scalar> Preconditioner<T> for Multigrid<T> {
+    /// One V-cycle on `op`'s rows (if `op` is not the stencil [`check`](Preconditioner::check)
+    /// accepts, `z` is left as it is).
+    fn apply(&mut self, op: &dyn LinearOperator<T>, space: &dyn Space, r: &[T], z: &mut [T]) {
+        if let Some(fine) = op.as_stencil() {
+            self.cycle(fine, space, r, z);
+        }
     }
-}
 
-impl<T: Scalar, S: Stencil5<T>> Preconditioner<T> for Multigrid<T, S> {
-    fn apply(&mut self, r: &[T], z: &mut [T]) {
-        self.cycle(r, z);
+    /// `op` must be a [`Stencil5`] on the grid the hierarchy was built for.
+    fn check(&self, op: &dyn LinearOperator<T>) -> Result<(), Error> {
+        if op.as_stencil().is_none() {
+            return Err(Error::needs_stencil("the multigrid V-cycle"));
+        }
+        check_built_for(self.grid, op)
     }
+
     fn name(&self) -> &'static str {
         "multigrid V-cycle"
     }
 }
 
-impl<T: Scalar, S: Stencil5<T>> IterativeSolver<T> for Multigrid<T, S> {
+impl<T: Scalar> IterativeSolver<T> for Multigrid<T> {
     /// Multigrid as a solver: each iteration is one V-cycle on the current residual,
     /// `x ← x + α·B·(b − A·x)`, with `α` the energy-minimising step or 1
     /// ([`MultigridSettings::energy_step`]). `op` must be the operator the hierarchy was built
-    /// from.
+    /// from (or one with the same grid and fixed cells, for example after changing
+    /// coefficients in place).
     ///
     /// # Errors
     ///
-    /// [`Error::GridMismatch`] if `op` lives on another grid; otherwise as for every
-    /// [`IterativeSolver`].
-    fn solve_observed<S2: Stencil5<T> + ?Sized>(
+    /// [`ErrorKind::GridMismatch`](crate::ErrorKind::GridMismatch) if `op` lives on another
+    /// grid, [`ErrorKind::NeedsStencil`](crate::ErrorKind::NeedsStencil) if it is not a
+    /// [`Stencil5`]; otherwise as for every [`IterativeSolver`].
+    fn solve_observed(
         &mut self,
-        op: &S2,
+        op: &dyn LinearOperator<T>,
         rhs: &[T],
         x: &mut [T],
         ws: &mut Workspace<T>,
         observer: &mut dyn FnMut(&Progress<'_>),
     ) -> Result<Report, Error> {
-        check_grid(self.grid, op.grid())?;
+        self.check(op)?;
+        let fine = op
+            .as_stencil()
+            .ok_or_else(|| Error::needs_stencil("the multigrid V-cycle"))?;
         let nu = self.settings.smoothing_sweeps;
         let energy_step = self.settings.energy_step;
-        let method = if energy_step {
-            format!("multigrid V({nu},{nu}) with energy-minimising steps")
-        } else {
-            format!("multigrid V({nu},{nu})")
-        };
+        let name = self.name.get("", || {
+            if energy_step {
+                format!("multigrid V({nu},{nu}) with energy-minimising steps")
+            } else {
+                format!("multigrid V({nu},{nu})")
+            }
+        });
         let options = self.options.clone();
-        correction_solve(
+        let task = Task {
             op,
             rhs,
             x,
             ws,
+            options: &options,
             observer,
-            &options,
-            method,
-            energy_step,
-            |r, z| self.cycle(r, z),
-        )
+        };
+        correction_solve(task, &name, energy_step, |_, space, r, z| {
+            self.cycle(fine, space, r, z)
+        })
+    }
+
+    fn options(&self) -> &SolveOptions {
+        &self.options
+    }
+
+    fn options_mut(&mut self) -> &mut SolveOptions {
+        &mut self.options
     }
 }

@@ -4,28 +4,34 @@
 //! them at once from the current values of the other colour *is* the Gauss–Seidel half-sweep.
 //! That lets every half-sweep run as a data-parallel pass: the level's row product gives
 //! `A·x`, and each cell of the colour takes `x + (b − A·x)/center` (with `1/center` stored, and
-//! zero at inactive cells so they keep their zero), written into a second buffer. A full sweep goes `x → scratch → x`. Rows are cut into the fixed blocks of
-//! [`Kernels`], so results do not depend on the thread count.
+//! zero at inactive cells so they keep their zero), written into a second buffer. A full sweep
+//! goes `x → scratch → x`. Rows are cut into the fixed blocks of the level, so results do not
+//! depend on the thread count.
 
-use super::level::Rows;
-use crate::kernels::Kernels;
+use super::level::active_cells;
+use crate::blocks::Blocks;
+use crate::operator::Stencil5;
+use crate::space::Space;
 use crate::Scalar;
 
 /// Half a sweep: `y` takes the Gauss–Seidel update of `x` at the cells of `colour`
 /// (`(i + j) % 2 == colour`) and the value of `x` everywhere else. `inv` is `1/center`, zero at
 /// inactive cells.
-fn half_sweep<T: Scalar, R: Rows<T>>(
+#[allow(clippy::too_many_arguments)]
+fn half_sweep<T: Scalar, R: Stencil5<T> + ?Sized>(
     op: &R,
     inv: &[f32],
     b: &[T],
     x: &[T],
     y: &mut [T],
     colour: usize,
-    kernels: &mut Kernels<T>,
+    blocks: &mut Blocks<T>,
+    space: &dyn Space,
 ) {
     let nx = op.grid().nx();
-    kernels.map_blocks(y, |rows, _, block| {
-        op.product_rows(rows.clone(), x, block);
+    blocks.for_each(space, y, |cells, block| {
+        let rows = cells.start / nx..cells.end / nx;
+        op.apply_rows(rows.clone(), x, block);
         for (j, y_row) in rows.zip(block.chunks_exact_mut(nx)) {
             let base = j * nx;
             let (x_row, b_row, d_row) = (&x[base..][..nx], &b[base..][..nx], &inv[base..][..nx]);
@@ -39,7 +45,6 @@ fn half_sweep<T: Scalar, R: Rows<T>>(
                 y_row[i] = x_row[i];
             }
         }
-        (T::zero(), T::zero())
     });
 }
 
@@ -47,33 +52,36 @@ fn half_sweep<T: Scalar, R: Rows<T>>(
 /// `(i + j) % 2 == first`), then the other. `scratch` is overwritten. `x` must be zero at
 /// inactive cells, and stays so.
 #[allow(clippy::too_many_arguments)]
-pub(crate) fn red_black_sweep<T: Scalar, R: Rows<T>>(
+pub(crate) fn red_black_sweep<T: Scalar, R: Stencil5<T> + ?Sized>(
     op: &R,
     inv: &[f32],
     b: &[T],
     x: &mut [T],
     scratch: &mut [T],
     first: usize,
-    kernels: &mut Kernels<T>,
+    blocks: &mut Blocks<T>,
+    space: &dyn Space,
 ) {
-    half_sweep(op, inv, b, x, scratch, first, kernels);
-    half_sweep(op, inv, b, scratch, x, 1 - first, kernels);
+    half_sweep(op, inv, b, x, scratch, first, blocks, space);
+    half_sweep(op, inv, b, scratch, x, 1 - first, blocks, space);
 }
 
 /// `ν` pre-smoothing sweeps from `x = 0`, the result in `x` (`scratch` overwritten). The first
 /// half-sweep needs no product: from zero, the cells of the first colour take `b/center`.
 #[allow(clippy::too_many_arguments)]
-pub(crate) fn smooth_from_zero<T: Scalar, R: Rows<T>>(
+pub(crate) fn smooth_from_zero<T: Scalar, R: Stencil5<T> + ?Sized>(
     op: &R,
     inv: &[f32],
     b: &[T],
     x: &mut [T],
     scratch: &mut [T],
     sweeps: usize,
-    kernels: &mut Kernels<T>,
+    blocks: &mut Blocks<T>,
+    space: &dyn Space,
 ) {
     let nx = op.grid().nx();
-    kernels.map_blocks(scratch, |rows, cells, block| {
+    blocks.for_each(space, scratch, |cells, block| {
+        let rows = cells.start / nx..cells.end / nx;
         let (b, inv) = (&b[cells.clone()], &inv[cells]);
         for (jj, j) in rows.enumerate() {
             let first = j % 2;
@@ -86,28 +94,29 @@ pub(crate) fn smooth_from_zero<T: Scalar, R: Rows<T>>(
                 y_row[i] = T::zero();
             }
         }
-        (T::zero(), T::zero())
     });
-    half_sweep(op, inv, b, scratch, x, 1, kernels);
+    half_sweep(op, inv, b, scratch, x, 1, blocks, space);
     for _ in 1..sweeps {
-        red_black_sweep(op, inv, b, x, scratch, 0, kernels);
+        red_black_sweep(op, inv, b, x, scratch, 0, blocks, space);
     }
 }
 
 /// `r = b − A·x` with the eliminated rows, zero at inactive cells (`x` zero there).
-pub(crate) fn residual<T: Scalar, R: Rows<T>>(
+pub(crate) fn residual<T: Scalar, R: Stencil5<T> + ?Sized>(
     op: &R,
     b: &[T],
     x: &[T],
     r: &mut [T],
-    kernels: &mut Kernels<T>,
+    blocks: &mut Blocks<T>,
+    space: &dyn Space,
 ) {
-    kernels.map_blocks(r, |rows, cells, block| {
-        op.product_rows(rows, x, block);
+    let nx = op.grid().nx();
+    let active = active_cells(op);
+    blocks.for_each(space, r, |cells, block| {
+        op.apply_rows(cells.start / nx..cells.end / nx, x, block);
         for ((ri, &bi), k) in block.iter_mut().zip(&b[cells.clone()]).zip(cells) {
-            *ri = if op.active(k) { bi - *ri } else { T::zero() };
+            *ri = if active(k) { bi - *ri } else { T::zero() };
         }
-        (T::zero(), T::zero())
     });
 }
 

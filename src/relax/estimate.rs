@@ -1,8 +1,11 @@
 //! Estimating the optimal SOR relaxation factor from the Jacobi iteration's spectral radius.
 
-use crate::kernels::Kernels;
-use crate::stencil::Stencil5;
-use crate::{is_positive, to_f64, Error, Scalar};
+use crate::blocks::Blocks;
+use crate::error::Location;
+use crate::operator::Stencil5;
+use crate::scalar::{is_positive, to_f64};
+use crate::space::Threaded;
+use crate::{Error, Scalar};
 
 /// The outcome of [`estimate_relaxation`].
 ///
@@ -46,8 +49,8 @@ pub struct RelaxationEstimate {
 ///
 /// # Errors
 ///
-/// [`Error::InvalidSetting`] if `steps` is 0 or the estimated `ρ_J ≥ 1` (Jacobi does not
-/// converge, so the formula does not apply), [`Error::NonPositiveCenter`] for a free cell with
+/// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) if `steps` is 0 or the estimated `ρ_J ≥ 1` (Jacobi does not
+/// converge, so the formula does not apply), [`ErrorKind::NonPositiveCenter`](crate::ErrorKind::NonPositiveCenter) for a free cell with
 /// a center that is not positive.
 ///
 /// # Example
@@ -68,24 +71,17 @@ pub fn estimate_relaxation<T: Scalar, S: Stencil5<T> + ?Sized>(
     steps: usize,
 ) -> Result<RelaxationEstimate, Error> {
     if steps == 0 {
-        return Err(Error::InvalidSetting {
-            name: "steps",
-            value: 0.0,
-            allowed: "at least 1",
-        });
+        return Err(Error::setting("steps", 0.0, "at least 1"));
     }
     let grid = op.grid();
     if let Some((k, value)) = op.first_nonpositive_center() {
-        let (i, j) = grid.coords(k);
-        return Err(Error::NonPositiveCenter {
-            cell: k,
-            i,
-            j,
-            value: to_f64(value),
-        });
+        return Err(Error::non_positive_center(
+            Location::on(grid, k),
+            to_f64(value),
+        ));
     }
     let n = grid.cells();
-    let fixed = op.fixed_cells();
+    let fixed = op.fixed();
     let free = |k: usize| !fixed.is_some_and(|f| f.contains(k));
 
     // D^{-1/2} on free cells, zero on fixed cells.
@@ -110,8 +106,9 @@ pub fn estimate_relaxation<T: Scalar, S: Stencil5<T> + ?Sized>(
             }
         })
         .collect();
-    let mut kernels = Kernels::new(grid);
-    let norm = kernels.dot(&v, &v).sqrt();
+    let mut kernels = Blocks::for_grid(grid);
+    let space = &Threaded;
+    let norm = kernels.dot(space, &v, &v).sqrt();
     if !is_positive(norm) {
         // Every cell is fixed: nothing to relax.
         return Ok(RelaxationEstimate {
@@ -130,15 +127,15 @@ pub fn estimate_relaxation<T: Scalar, S: Stencil5<T> + ?Sized>(
         for ((uk, &vk), &sk) in u.iter_mut().zip(&v).zip(&scale) {
             *uk = vk * sk;
         }
-        kernels.apply_dot_free(op, &u, &mut w);
+        kernels.apply_dot_free(space, op, &u, &mut w);
         for (wk, &sk) in w.iter_mut().zip(&scale) {
             *wk = *wk * sk;
         }
-        let a = kernels.dot(&w, &v);
+        let a = kernels.dot(space, &w, &v);
         for ((wk, &vk), &pk) in w.iter_mut().zip(&v).zip(&v_prev) {
             *wk = *wk - a * vk - beta_prev * pk;
         }
-        let b = kernels.dot(&w, &w).sqrt();
+        let b = kernels.dot(space, &w, &w).sqrt();
         alphas.push(to_f64(a));
         let exhausted = !is_positive(to_f64(b) - 1e-12 * to_f64(a).abs());
         if exhausted || step + 1 == steps {
@@ -154,11 +151,11 @@ pub fn estimate_relaxation<T: Scalar, S: Stencil5<T> + ?Sized>(
     let (lambda_min, lambda_max) = extreme_eigenvalues(&alphas, &betas);
     let jacobi_radius = (1.0 - lambda_min).max(lambda_max - 1.0);
     if !is_positive(1.0 - jacobi_radius) {
-        return Err(Error::InvalidSetting {
-            name: "Jacobi spectral radius",
-            value: jacobi_radius,
-            allowed: "below 1 (Jacobi must converge for the optimal-omega formula)",
-        });
+        return Err(Error::setting(
+            "Jacobi spectral radius",
+            jacobi_radius,
+            "below 1 (Jacobi must converge for the optimal-omega formula)",
+        ));
     }
     Ok(RelaxationEstimate {
         jacobi_radius,
@@ -180,11 +177,11 @@ fn extreme_eigenvalues(a: &[f64], b: &[f64]) -> (f64, f64) {
     };
     let lo = (0..m)
         .map(|i| a[i] - radius(i))
-        .fold(f64::INFINITY, f64::min);
+        .fold(f64::INFINITY, f64::min); // local: the small tridiagonal matrix
     let hi = (0..m)
         .map(|i| a[i] + radius(i))
-        .fold(f64::NEG_INFINITY, f64::max);
-    // Number of eigenvalues below `x`.
+        .fold(f64::NEG_INFINITY, f64::max); // local: as above
+                                            // Number of eigenvalues below `x`.
     let below = |x: f64| {
         let mut count = 0;
         let mut q = 1.0;

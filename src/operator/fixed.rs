@@ -2,7 +2,8 @@
 
 use std::ops::Range;
 
-use crate::{Error, Grid};
+use crate::error::Error;
+use crate::grid::Grid;
 
 /// A set of fixed (Dirichlet) cells on a grid.
 ///
@@ -24,7 +25,8 @@ use crate::{Error, Grid};
 /// ```
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct FixedCells {
-    grid: Grid,
+    grid: Option<Grid>,
+    total: usize,
     cells: Vec<usize>,
     mask: Vec<u64>,
 }
@@ -34,7 +36,7 @@ impl FixedCells {
     ///
     /// # Errors
     ///
-    /// [`Error::CellOutOfRange`] for an index not on the grid.
+    /// [`ErrorKind::CellOutOfRange`](crate::ErrorKind::CellOutOfRange) for an index not on the grid.
     ///
     /// ```
     /// let grid = quintet::Grid::new(3, 3)?;
@@ -44,13 +46,28 @@ impl FixedCells {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn new(grid: Grid, cells: impl IntoIterator<Item = usize>) -> Result<FixedCells, Error> {
-        let n = grid.cells();
+        let mut set = FixedCells::of_len(grid.cells(), cells)?;
+        set.grid = Some(grid);
+        Ok(set)
+    }
+
+    /// The set of the given entries of a vector of `len` unknowns with no grid behind it (for
+    /// an operator that implements only [`LinearOperator`](crate::LinearOperator)).
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::CellOutOfRange`](crate::ErrorKind::CellOutOfRange) for an index `>= len`.
+    ///
+    /// ```
+    /// let fixed = quintet::FixedCells::of_len(10, [0, 9])?;
+    /// assert_eq!((fixed.len(), fixed.grid()), (2, None));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn of_len(len: usize, cells: impl IntoIterator<Item = usize>) -> Result<FixedCells, Error> {
+        let n = len;
         let mut list: Vec<usize> = cells.into_iter().collect();
         if let Some(&bad) = list.iter().find(|&&k| k >= n) {
-            return Err(Error::CellOutOfRange {
-                cell: bad,
-                cells: n,
-            });
+            return Err(Error::cell_out_of_range(bad, n));
         }
         list.sort_unstable();
         list.dedup();
@@ -59,21 +76,33 @@ impl FixedCells {
             mask[k / 64] |= 1 << (k % 64);
         }
         Ok(FixedCells {
-            grid,
+            grid: None,
+            total: n,
             cells: list,
             mask,
         })
     }
 
-    /// The grid the set belongs to.
+    /// The grid the set belongs to (`None` for a set made by [`FixedCells::of_len`]).
     ///
     /// ```
     /// let grid = quintet::Grid::new(3, 3)?;
-    /// assert_eq!(quintet::FixedCells::new(grid, [])?.grid(), grid);
+    /// assert_eq!(quintet::FixedCells::new(grid, [])?.grid(), Some(grid));
     /// # Ok::<(), quintet::Error>(())
     /// ```
-    pub fn grid(&self) -> Grid {
+    pub fn grid(&self) -> Option<Grid> {
         self.grid
+    }
+
+    /// The number of unknowns the set is a subset of (fixed and free together).
+    ///
+    /// ```
+    /// let fixed = quintet::FixedCells::new(quintet::Grid::new(3, 2)?, [1])?;
+    /// assert_eq!(fixed.total(), 6);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn total(&self) -> usize {
+        self.total
     }
 
     /// Whether cell `k` is fixed (`false` for cells off the grid).

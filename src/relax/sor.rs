@@ -2,10 +2,10 @@
 
 use std::fmt;
 
-use super::{begin, conclude, IterativeSolver, Report, SolveOptions, Workspace};
-use crate::stencil::Stencil5;
-use crate::stop::Progress;
-use crate::{Error, Monitor, Scalar};
+use crate::iterate::{run, Breakdown, Context, Method, Residual, Step, Task};
+use crate::iterate::{IterativeSolver, NameCache, SolveOptions, Workspace};
+use crate::operator::Stencil5;
+use crate::{Error, LinearOperator, Progress, Report, Scalar};
 
 /// The order in which an SOR sweep visits the cells.
 ///
@@ -61,6 +61,7 @@ pub struct Sor {
     /// Stopping rule (the residual refresh setting does not apply: SOR residuals are always
     /// true residuals).
     pub options: SolveOptions,
+    name: NameCache,
 }
 
 impl Sor {
@@ -68,7 +69,7 @@ impl Sor {
     ///
     /// # Errors
     ///
-    /// [`Error::InvalidSetting`] unless `0 < omega < 2` (outside that range SOR diverges for
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) unless `0 < omega < 2` (outside that range SOR diverges for
     /// every symmetric positive definite system, by Kahan's theorem).
     ///
     /// ```
@@ -77,16 +78,17 @@ impl Sor {
     /// ```
     pub fn new(omega: f64) -> Result<Sor, Error> {
         if !(omega > 0.0 && omega < 2.0) {
-            return Err(Error::InvalidSetting {
-                name: "relaxation factor omega",
-                value: omega,
-                allowed: "0 < omega < 2",
-            });
+            return Err(Error::setting(
+                "relaxation factor omega",
+                omega,
+                "0 < omega < 2",
+            ));
         }
         Ok(Sor {
             omega,
             order: SweepOrder::Lexicographic,
             options: SolveOptions::default(),
+            name: NameCache::default(),
         })
     }
 
@@ -100,6 +102,7 @@ impl Sor {
             omega: 1.0,
             order: SweepOrder::Lexicographic,
             options: SolveOptions::default(),
+            name: NameCache::default(),
         }
     }
 
@@ -111,6 +114,7 @@ impl Sor {
     /// ```
     pub fn ordering(mut self, order: SweepOrder) -> Sor {
         self.order = order;
+        self.name = NameCache::default();
         self
     }
 
@@ -143,50 +147,95 @@ impl Sor {
     pub fn order(&self) -> SweepOrder {
         self.order
     }
+}
 
-    fn method(&self) -> String {
-        if self.omega == 1.0 {
-            format!("Gauss-Seidel ({})", self.order)
-        } else {
-            format!("SOR (omega = {:.4}, {})", self.omega, self.order)
-        }
+/// The report name of SOR with `omega` in `order`.
+fn sor_name(omega: f64, order: SweepOrder) -> String {
+    if omega == 1.0 {
+        format!("Gauss-Seidel ({order})")
+    } else {
+        format!("SOR (omega = {omega:.4}, {order})")
+    }
+}
+
+/// One SOR iteration: a sweep (or a red and a black half-sweep), then the true residual.
+struct SorStep<'a, T> {
+    stencil: &'a dyn Stencil5<T>,
+    omega: T,
+    order: SweepOrder,
+}
+
+impl<T: Scalar> Method<T> for SorStep<'_, T> {
+    fn work_vectors(&self) -> usize {
+        1
+    }
+
+    fn step(&mut self, cx: &mut Context<'_, T>, _rr: T) -> Result<Step<T>, Breakdown<T>> {
+        let (op, omega) = (self.stencil, self.omega);
+        let change = match self.order {
+            SweepOrder::Lexicographic => sweep(op, cx.rhs, cx.x, omega, None),
+            SweepOrder::RedBlack => {
+                let red = sweep(op, cx.rhs, cx.x, omega, Some(0));
+                red.max(sweep(op, cx.rhs, cx.x, omega, Some(1)))
+            }
+        };
+        let rr = cx.blocks.residual_free(cx.space, cx.op, cx.rhs, cx.x, cx.r);
+        Ok(Step {
+            rr,
+            change,
+            residual: Residual::Recomputed,
+        })
     }
 }
 
 impl<T: Scalar> IterativeSolver<T> for Sor {
-    fn solve_observed<S: Stencil5<T> + ?Sized>(
+    /// # Errors
+    ///
+    /// [`ErrorKind::NeedsStencil`](crate::ErrorKind::NeedsStencil) if `op` is not a
+    /// [`Stencil5`]; otherwise as for every [`IterativeSolver`].
+    fn solve_observed(
         &mut self,
-        op: &S,
+        op: &dyn LinearOperator<T>,
         rhs: &[T],
         x: &mut [T],
         ws: &mut Workspace<T>,
         observer: &mut dyn FnMut(&Progress<'_>),
     ) -> Result<Report, Error> {
-        let omega = T::from(self.omega).ok_or(Error::InvalidSetting {
-            name: "relaxation factor omega",
-            value: self.omega,
-            allowed: "a value representable in the scalar type",
+        let omega = T::from(self.omega).ok_or_else(|| {
+            Error::setting(
+                "relaxation factor omega",
+                self.omega,
+                "a value representable in the scalar type",
+            )
         })?;
-        let (kernels, [r, scratch, ..], history) = ws.parts(op.grid(), 2);
-        let (bb, rr) = begin(op, rhs, x, kernels, r, scratch)?;
-        let method = self.method();
-        let mut monitor = Monitor::start(self.options.stop_rule(), history, observer, bb, rr);
-        if let Some(reason) = monitor.check() {
-            return conclude(monitor.finish(method, reason));
-        }
-        loop {
-            let change = match self.order {
-                SweepOrder::Lexicographic => sweep(op, rhs, x, omega, None),
-                SweepOrder::RedBlack => {
-                    let red = sweep(op, rhs, x, omega, Some(0));
-                    red.max(sweep(op, rhs, x, omega, Some(1)))
-                }
-            };
-            let rr = kernels.residual_free(op, rhs, x, r);
-            if let Some(reason) = monitor.record(rr, Some(change)) {
-                return conclude(monitor.finish(method, reason));
-            }
-        }
+        let stencil = op.as_stencil().ok_or_else(|| Error::needs_stencil("SOR"))?;
+        let (w, order) = (self.omega, self.order);
+        let name = self.name.get("", || sor_name(w, order));
+        let mut step = SorStep {
+            stencil,
+            omega,
+            order: self.order,
+        };
+        run(
+            &mut step,
+            &name,
+            Task {
+                op,
+                rhs,
+                x,
+                ws,
+                options: &self.options,
+                observer,
+            },
+        )
+    }
+
+    fn options(&self) -> &SolveOptions {
+        &self.options
+    }
+
+    fn options_mut(&mut self) -> &mut SolveOptions {
+        &mut self.options
     }
 }
 
@@ -201,7 +250,7 @@ pub(crate) fn sweep<T: Scalar, S: Stencil5<T> + ?Sized>(
 ) -> T {
     let grid = op.grid();
     let (nx, ny) = (grid.nx(), grid.ny());
-    let fixed = op.fixed_cells();
+    let fixed = op.fixed();
     let step = if colour.is_some() { 2 } else { 1 };
     let mut change = T::zero();
     for j in 0..ny {

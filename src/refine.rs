@@ -1,11 +1,13 @@
 //! Mixed-precision iterative refinement: `f32` inner solves, `f64` residuals and updates.
 
-use super::cg::pcg_name;
-use super::{begin, conclude, IterativeSolver, Pcg, Report, SolveOptions, Workspace};
+use crate::blocks::slice;
+use crate::iterate::{run, Breakdown, Context, Method, Residual, Step, Task};
+use crate::iterate::{IterativeSolver, NameCache, SolveOptions, Workspace};
+use crate::krylov::{pcg_name, Pcg};
+use crate::operator::{check_shape, shape_of};
 use crate::precond::Preconditioner;
-use crate::stencil::{check_grid, Stencil5};
-use crate::stop::{AnyOf, IterationLimit, Progress, ResidualReduction, Stagnation};
-use crate::{Error, Monitor};
+use crate::stop::{AnyOf, IterationLimit, ResidualReduction, Stagnation};
+use crate::{Error, LinearOperator, Progress, Report};
 
 /// Iterative refinement with a single-precision inner solver: each outer step computes the
 /// residual `r = b − A·x` in `f64`, solves `A·d ≈ r` with PCG on an `f32` copy of the operator
@@ -51,9 +53,10 @@ pub struct MixedRefinement<S, P> {
     residual: Vec<f32>,
     correction: Vec<f32>,
     inner_iterations: usize,
+    name: NameCache,
 }
 
-impl<S: Stencil5<f32>, P: Preconditioner<f32>> MixedRefinement<S, P> {
+impl<S: LinearOperator<f32>, P: Preconditioner<f32>> MixedRefinement<S, P> {
     /// Refinement with `low`, the operator in `f32` (see
     /// [`Banded5::cast`](crate::Banded5::cast)), and `inner`, the `f32` PCG solver for the
     /// corrections.
@@ -79,6 +82,7 @@ impl<S: Stencil5<f32>, P: Preconditioner<f32>> MixedRefinement<S, P> {
             residual: Vec::new(),
             correction: Vec::new(),
             inner_iterations: 0,
+            name: NameCache::default(),
         })
     }
 
@@ -137,63 +141,111 @@ impl<S: Stencil5<f32>, P: Preconditioner<f32>> MixedRefinement<S, P> {
     }
 }
 
-impl<S: Stencil5<f32>, P: Preconditioner<f32>> IterativeSolver<f64> for MixedRefinement<S, P> {
-    fn solve_observed<A: Stencil5<f64> + ?Sized>(
+/// One refinement step: `d ≈ A⁻¹r` in `f32`, `x += d` in `f64`, then the true `f64` residual.
+struct RefineStep<'a, S, P> {
+    low: &'a S,
+    inner: &'a mut Pcg<P>,
+    workspace: &'a mut Workspace<f32>,
+    residual: &'a mut [f32],
+    correction: &'a mut [f32],
+    inner_iterations: &'a mut usize,
+}
+
+impl<S: LinearOperator<f32>, P: Preconditioner<f32>> Method<f64> for RefineStep<'_, S, P> {
+    fn work_vectors(&self) -> usize {
+        1
+    }
+
+    fn step(&mut self, cx: &mut Context<'_, f64>, _rr: f64) -> Result<Step<f64>, Breakdown<f64>> {
+        for (low, &high) in self.residual.iter_mut().zip(cx.r.iter()) {
+            *low = high as f32;
+        }
+        self.correction.fill(0.0);
+        let inner =
+            self.inner
+                .solve_to_end(self.low, self.residual, self.correction, self.workspace);
+        match inner {
+            // An inner solve that stops short still contributes its iterate.
+            Ok(report) => *self.inner_iterations += report.iterations,
+            Err(e) => return Err(Breakdown::Failed(e.while_doing("the f32 inner solve"))),
+        }
+        if let Some(fixed) = cx.op.fixed_cells() {
+            for &k in fixed.cells() {
+                self.correction[k] = 0.0;
+            }
+        }
+        let d: &[f32] = self.correction;
+        let (_, change) = cx.blocks.map(cx.space, cx.x, |cells, x| {
+            let mut largest = 0.0f64;
+            for (xk, &dk) in x.iter_mut().zip(slice(d, &cells)) {
+                let d = f64::from(dk);
+                *xk += d;
+                largest = largest.max(d.abs());
+            }
+            (0.0, largest)
+        });
+        let rr = cx.blocks.residual_free(cx.space, cx.op, cx.rhs, cx.x, cx.r);
+        Ok(Step {
+            rr,
+            change,
+            residual: Residual::Recomputed,
+        })
+    }
+}
+
+impl<S: LinearOperator<f32>, P: Preconditioner<f32>> IterativeSolver<f64>
+    for MixedRefinement<S, P>
+{
+    /// # Errors
+    ///
+    /// [`ErrorKind::GridMismatch`](crate::ErrorKind::GridMismatch) if `op` does not have the shape of the `f32` operator, an
+    /// error of the inner solve other than non-convergence, and otherwise as for every
+    /// [`IterativeSolver`].
+    fn solve_observed(
         &mut self,
-        op: &A,
+        op: &dyn LinearOperator<f64>,
         rhs: &[f64],
         x: &mut [f64],
         ws: &mut Workspace<f64>,
         observer: &mut dyn FnMut(&Progress<'_>),
     ) -> Result<Report, Error> {
-        let grid = op.grid();
-        check_grid(grid, self.low.grid())?;
-        let (kernels, [r, scratch, ..], history) = ws.parts(grid, 2);
-        let (bb, rr) = begin(op, rhs, x, kernels, r, scratch)?;
-        let n = grid.cells();
+        check_shape("the f32 operator", shape_of(op), shape_of(&self.low))?;
+        let n = op.len();
         self.residual.resize(n, 0.0);
         self.correction.resize(n, 0.0);
         self.inner_iterations = 0;
-        let method = format!(
-            "mixed-precision refinement (f32 {})",
-            pcg_name(&self.inner.preconditioner)
-        );
-        let fixed = op.fixed_cells();
-        let mut monitor = Monitor::start(self.options.stop_rule(), history, observer, bb, rr);
-        if let Some(reason) = monitor.check() {
-            return conclude(monitor.finish(method, reason));
-        }
-        loop {
-            for (low, &high) in self.residual.iter_mut().zip(r.iter()) {
-                *low = high as f32;
-            }
-            self.correction.fill(0.0);
-            let inner = self.inner.solve_with(
-                &self.low,
-                &self.residual,
-                &mut self.correction,
-                &mut self.workspace,
-            );
-            match inner {
-                Ok(report) => self.inner_iterations += report.iterations,
-                Err(Error::NotConverged { report }) => self.inner_iterations += report.iterations,
-                Err(other) => return Err(other),
-            }
-            if let Some(fixed) = fixed {
-                for &k in fixed.cells() {
-                    self.correction[k] = 0.0;
-                }
-            }
-            let mut change = 0.0f64;
-            for (xk, &dk) in x.iter_mut().zip(&self.correction) {
-                let d = f64::from(dk);
-                *xk += d;
-                change = change.max(d.abs());
-            }
-            let rr = kernels.residual_free(op, rhs, x, r);
-            if let Some(reason) = monitor.record(rr, Some(change)) {
-                return conclude(monitor.finish(method, reason));
-            }
-        }
+        self.workspace.space = ws.space.clone();
+        let inner = &self.inner.preconditioner;
+        let name = self.name.get(inner.name(), || {
+            format!("mixed-precision refinement (f32 {})", pcg_name(inner))
+        });
+        let mut step = RefineStep {
+            low: &self.low,
+            inner: &mut self.inner,
+            workspace: &mut self.workspace,
+            residual: &mut self.residual,
+            correction: &mut self.correction,
+            inner_iterations: &mut self.inner_iterations,
+        };
+        run(
+            &mut step,
+            &name,
+            Task {
+                op,
+                rhs,
+                x,
+                ws,
+                options: &self.options,
+                observer,
+            },
+        )
+    }
+
+    fn options(&self) -> &SolveOptions {
+        &self.options
+    }
+
+    fn options_mut(&mut self) -> &mut SolveOptions {
+        &mut self.options
     }
 }

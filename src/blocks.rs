@@ -1,0 +1,403 @@
+//! The block executor and the fused vector kernels built on it.
+//!
+//! Every vector is cut into fixed blocks of consecutive unknowns: whole grid rows for a grid
+//! operator (about [`BLOCK_CELLS`] cells and at least [`BLOCK_MIN_ROWS`] rows per block), runs
+//! of [`BLOCK_CELLS`] otherwise. The cut depends only on the vector's length and grid. A kernel
+//! runs one function per block — on the calling thread, or on rayon's pool when the
+//! [`Space`] allows threads and the vector is long enough — and a reducing kernel writes one
+//! partial per block, which the space combines in block order. Neither the blocks nor the
+//! combining order depend on the threads, so neither do the bits of any result.
+//!
+//! This is the only place in the crate that starts parallel work, and (with [`crate::space`])
+//! the only place block partials become global values.
+//!
+//! **Fixed cells.** The `*_free` kernels write zero at fixed cells of the output, so fixed cells
+//! carry an exactly zero residual and search direction.
+
+use std::ops::Range;
+
+#[cfg(feature = "parallel")]
+use rayon::prelude::*;
+
+use crate::grid::Grid;
+use crate::operator::{FixedCells, LinearOperator};
+#[cfg(feature = "parallel")]
+use crate::space::PARALLEL_MIN_CELLS;
+use crate::space::{Combine, Space, BLOCK_CELLS, BLOCK_MIN_ROWS};
+use crate::Scalar;
+
+/// The two partials every reducing kernel produces per block: a sum and a maximum.
+const WIDTH: usize = 2;
+const OPS: [Combine; WIDTH] = [Combine::Sum, Combine::Max];
+
+/// The block cut of one vector length (and grid), with the per-block partials buffer, so that
+/// no kernel allocates.
+#[derive(Clone, Debug)]
+pub(crate) struct Blocks<T> {
+    len: usize,
+    grid: Option<Grid>,
+    block: usize,
+    partials: Vec<T>,
+}
+
+impl<T: Scalar> Blocks<T> {
+    /// Blocks for vectors of `len` entries, the cells of `grid` if given.
+    pub(crate) fn new(len: usize, grid: Option<Grid>) -> Blocks<T> {
+        let block = match grid {
+            Some(g) => {
+                let rows = (BLOCK_CELLS / g.nx()).max(BLOCK_MIN_ROWS).min(g.ny());
+                rows * g.nx()
+            }
+            None => BLOCK_CELLS.min(len).max(1),
+        };
+        let count = len.div_ceil(block);
+        Blocks {
+            len,
+            grid,
+            block,
+            partials: vec![T::zero(); WIDTH * count],
+        }
+    }
+
+    /// Blocks for the vectors of `op`.
+    pub(crate) fn for_operator(op: &(impl LinearOperator<T> + ?Sized)) -> Blocks<T> {
+        Blocks::new(op.len(), op.on_grid())
+    }
+
+    /// Blocks for the cells of `grid`.
+    pub(crate) fn for_grid(grid: Grid) -> Blocks<T> {
+        Blocks::new(grid.cells(), Some(grid))
+    }
+
+    /// Whether these blocks cut vectors of `op`.
+    pub(crate) fn fits(&self, op: &(impl LinearOperator<T> + ?Sized)) -> bool {
+        self.len == op.len() && self.grid == op.on_grid()
+    }
+
+    /// `a·b`.
+    pub(crate) fn dot(&mut self, space: &dyn Space, a: &[T], b: &[T]) -> T {
+        let (a, b) = (self.clip(a), self.clip(b));
+        self.reduce(space, |cells| {
+            (block_dot(slice(a, &cells), slice(b, &cells)), T::zero())
+        })
+        .0
+    }
+
+    /// `y = A·x` with the rows as given (no fixed-cell treatment, no reduction).
+    pub(crate) fn apply(
+        &mut self,
+        space: &dyn Space,
+        op: &(impl LinearOperator<T> + ?Sized),
+        x: &[T],
+        y: &mut [T],
+    ) {
+        self.for_each(space, y, |cells, y| op.apply_block(cells, x, y));
+    }
+
+    /// `q = A·p` on the free cells (zero at fixed cells), returning `p·q`: the curvature of CG,
+    /// taken in the same pass over memory.
+    pub(crate) fn apply_dot_free(
+        &mut self,
+        space: &dyn Space,
+        op: &(impl LinearOperator<T> + ?Sized),
+        p: &[T],
+        q: &mut [T],
+    ) -> T {
+        let fixed = op.fixed_cells();
+        self.map(space, q, |cells, q| {
+            op.apply_block(cells.clone(), p, q);
+            zero_fixed(fixed, &cells, q);
+            (block_dot(slice(p, &cells), q), T::zero())
+        })
+        .0
+    }
+
+    /// `r = b − A·x` on the free cells (zero at fixed cells), returning `r·r`.
+    pub(crate) fn residual_free(
+        &mut self,
+        space: &dyn Space,
+        op: &(impl LinearOperator<T> + ?Sized),
+        b: &[T],
+        x: &[T],
+        r: &mut [T],
+    ) -> T {
+        let fixed = op.fixed_cells();
+        self.map(space, r, |cells, r| {
+            op.apply_block(cells.clone(), x, r);
+            for (ri, &bi) in r.iter_mut().zip(slice(b, &cells)) {
+                *ri = bi - *ri;
+            }
+            zero_fixed(fixed, &cells, r);
+            (block_dot(r, r), T::zero())
+        })
+        .0
+    }
+
+    /// The CG update in one pass: `x += α·p`, `r −= α·q`; returns the new `r·r` and the largest
+    /// change of the solution, `|α|·max|p|`.
+    pub(crate) fn cg_update(
+        &mut self,
+        space: &dyn Space,
+        alpha: T,
+        p: &[T],
+        q: &[T],
+        x: &mut [T],
+        r: &mut [T],
+    ) -> (T, T) {
+        let (rr, pmax) = self.map2(space, x, r, |cells, x, r| {
+            let (p, q) = (slice(p, &cells), slice(q, &cells));
+            let mut pmax = T::zero();
+            for (xi, &pi) in x.iter_mut().zip(p) {
+                *xi = *xi + alpha * pi;
+                pmax = pmax.max(pi.abs());
+            }
+            for (ri, &qi) in r.iter_mut().zip(q) {
+                *ri = *ri - alpha * qi;
+            }
+            (block_dot(r, r), pmax)
+        });
+        (rr, alpha.abs() * pmax)
+    }
+
+    /// The steepest-descent update in one pass: `x += α·r`, `r −= α·q`; returns the new `r·r`
+    /// and the largest change of the solution, `|α|·max|r_old|`.
+    pub(crate) fn descent_update(
+        &mut self,
+        space: &dyn Space,
+        alpha: T,
+        q: &[T],
+        x: &mut [T],
+        r: &mut [T],
+    ) -> (T, T) {
+        let (rr, rmax) = self.map2(space, x, r, |cells, x, r| {
+            let mut rmax = T::zero();
+            for ((xi, ri), &qi) in x.iter_mut().zip(r.iter_mut()).zip(slice(q, &cells)) {
+                *xi = *xi + alpha * *ri;
+                rmax = rmax.max(ri.abs());
+                *ri = *ri - alpha * qi;
+            }
+            (block_dot(r, r), rmax)
+        });
+        (rr, alpha.abs() * rmax)
+    }
+
+    /// `p = z + β·p` (the CG direction update; no reduction).
+    pub(crate) fn direction_update(&mut self, space: &dyn Space, z: &[T], beta: T, p: &mut [T]) {
+        self.for_each(space, p, |cells, p| {
+            for (pi, &zi) in p.iter_mut().zip(slice(z, &cells)) {
+                *pi = zi + beta * *pi;
+            }
+        });
+    }
+
+    /// `x += d` on every entry; returns the largest `|d|`.
+    pub(crate) fn add_largest(&mut self, space: &dyn Space, d: &[T], x: &mut [T]) -> T {
+        self.map(space, x, |cells, x| {
+            let mut largest = T::zero();
+            for (xi, &di) in x.iter_mut().zip(slice(d, &cells)) {
+                *xi = *xi + di;
+                largest = largest.max(di.abs());
+            }
+            (T::zero(), largest)
+        })
+        .1
+    }
+
+    /// Run `f(cells, out_block)` on every block of `out`, in parallel when `space` allows it.
+    /// No reduction.
+    pub(crate) fn for_each<F>(&mut self, space: &dyn Space, out: &mut [T], f: F)
+    where
+        F: Fn(Range<usize>, &mut [T]) + Sync,
+    {
+        let (bc, n) = (self.block, self.len);
+        let len = n.min(out.len());
+        let out = &mut out[..len];
+        let body = |(b, out): (usize, &mut [T])| f(b * bc..((b + 1) * bc).min(n), out);
+        #[cfg(feature = "parallel")]
+        if self.parallel(space) {
+            out.par_chunks_mut(bc).enumerate().for_each(body);
+            return;
+        }
+        #[cfg(not(feature = "parallel"))]
+        let _ = space;
+        out.chunks_mut(bc).enumerate().for_each(body);
+    }
+
+    /// Run `f(cells, out_block)` on every block of `out`, in parallel when `space` allows it,
+    /// and combine the `(sum, max)` partials through `space`.
+    pub(crate) fn map<F>(&mut self, space: &dyn Space, out: &mut [T], f: F) -> (T, T)
+    where
+        F: Fn(Range<usize>, &mut [T]) -> (T, T) + Sync,
+    {
+        let (bc, n) = (self.block, self.len);
+        let len = n.min(out.len());
+        let out = &mut out[..len];
+        let body = |(b, (out, part)): (usize, (&mut [T], &mut [T]))| {
+            let (s, m) = f(b * bc..((b + 1) * bc).min(n), out);
+            part[0] = s;
+            part[1] = m;
+        };
+        #[cfg(feature = "parallel")]
+        if self.parallel(space) {
+            out.par_chunks_mut(bc)
+                .zip(self.partials.par_chunks_mut(WIDTH))
+                .enumerate()
+                .for_each(body);
+            return self.finish(space);
+        }
+        out.chunks_mut(bc)
+            .zip(self.partials.chunks_mut(WIDTH))
+            .enumerate()
+            .for_each(body);
+        self.finish(space)
+    }
+
+    /// As [`Blocks::map`] with two outputs cut into the same blocks.
+    fn map2<F>(&mut self, space: &dyn Space, out1: &mut [T], out2: &mut [T], f: F) -> (T, T)
+    where
+        F: Fn(Range<usize>, &mut [T], &mut [T]) -> (T, T) + Sync,
+    {
+        let (bc, n) = (self.block, self.len);
+        let body = |(b, ((o1, o2), part)): (usize, (Pair<'_, T>, &mut [T]))| {
+            let (s, m) = f(b * bc..((b + 1) * bc).min(n), o1, o2);
+            part[0] = s;
+            part[1] = m;
+        };
+        let len = n.min(out1.len());
+        let out1 = &mut out1[..len];
+        let len = n.min(out2.len());
+        let out2 = &mut out2[..len];
+        #[cfg(feature = "parallel")]
+        if self.parallel(space) {
+            out1.par_chunks_mut(bc)
+                .zip(out2.par_chunks_mut(bc))
+                .zip(self.partials.par_chunks_mut(WIDTH))
+                .enumerate()
+                .for_each(body);
+            return self.finish(space);
+        }
+        out1.chunks_mut(bc)
+            .zip(out2.chunks_mut(bc))
+            .zip(self.partials.chunks_mut(WIDTH))
+            .enumerate()
+            .for_each(body);
+        self.finish(space)
+    }
+
+    /// As [`Blocks::map`] with no output.
+    fn reduce<F>(&mut self, space: &dyn Space, f: F) -> (T, T)
+    where
+        F: Fn(Range<usize>) -> (T, T) + Sync,
+    {
+        let (bc, n) = (self.block, self.len);
+        let body = |(b, part): (usize, &mut [T])| {
+            let (s, m) = f(b * bc..((b + 1) * bc).min(n));
+            part[0] = s;
+            part[1] = m;
+        };
+        #[cfg(feature = "parallel")]
+        if self.parallel(space) {
+            self.partials
+                .par_chunks_mut(WIDTH)
+                .enumerate()
+                .for_each(body);
+            return self.finish(space);
+        }
+        self.partials.chunks_mut(WIDTH).enumerate().for_each(body);
+        self.finish(space)
+    }
+
+    /// The reduction seam: block partials become the global `(sum, max)` in `space`.
+    fn finish(&self, space: &dyn Space) -> (T, T) {
+        let mut out = [T::zero(); WIDTH];
+        T::combine(space, &self.partials, &OPS, &mut out);
+        (out[0], out[1])
+    }
+
+    #[cfg(feature = "parallel")]
+    fn parallel(&self, space: &dyn Space) -> bool {
+        self.len >= PARALLEL_MIN_CELLS && space.threaded()
+    }
+
+    fn clip<'a>(&self, v: &'a [T]) -> &'a [T] {
+        &v[..self.len.min(v.len())]
+    }
+}
+
+/// Two output blocks cut alike.
+type Pair<'a, T> = (&'a mut [T], &'a mut [T]);
+
+/// `v[cells]`, clipped to what `v` holds.
+#[inline]
+pub(crate) fn slice<'a, T>(v: &'a [T], cells: &Range<usize>) -> &'a [T] {
+    let end = cells.end.min(v.len());
+    &v[cells.start.min(end)..end]
+}
+
+/// Zero the entries of `out` (which covers `cells`) at fixed cells.
+#[inline]
+pub(crate) fn zero_fixed<T: Scalar>(
+    fixed: Option<&FixedCells>,
+    cells: &Range<usize>,
+    out: &mut [T],
+) {
+    if let Some(fixed) = fixed {
+        for &k in fixed.in_range(cells.clone()) {
+            if let Some(v) = out.get_mut(k - cells.start) {
+                *v = T::zero();
+            }
+        }
+    }
+}
+
+/// Dot product of one block with four running sums, combined in a fixed order.
+#[inline]
+pub(crate) fn block_dot<T: Scalar>(a: &[T], b: &[T]) -> T {
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
+    let mut acc = [T::zero(); 4];
+    let (a4, b4) = (a.chunks_exact(4), b.chunks_exact(4));
+    let (ra, rb) = (a4.remainder(), b4.remainder());
+    for (x, y) in a4.zip(b4) {
+        for l in 0..4 {
+            acc[l] = acc[l] + x[l] * y[l];
+        }
+    }
+    let mut tail = T::zero();
+    for (&x, &y) in ra.iter().zip(rb) {
+        tail = tail + x * y;
+    }
+    ((acc[0] + acc[1]) + (acc[2] + acc[3])) + tail
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::space::Threaded;
+
+    #[test]
+    fn block_dot_matches_naive_sum_on_integers() {
+        let a: Vec<f64> = (0..1003).map(|v| v as f64).collect();
+        let naive: f64 = a.iter().map(|v| v * v).sum();
+        assert_eq!(block_dot(&a, &a), naive);
+    }
+
+    #[test]
+    fn blocks_cover_every_cell_once() {
+        for (nx, ny) in [(1, 1), (1, 9000), (9000, 1), (333, 77), (64, 64)] {
+            let grid = Grid::new(nx, ny).unwrap();
+            let mut k = Blocks::<f64>::for_grid(grid);
+            let ones = vec![1.0; grid.cells()];
+            assert_eq!(
+                k.dot(&Threaded, &ones, &ones),
+                grid.cells() as f64,
+                "{nx} x {ny}"
+            );
+        }
+        for len in [1, 5, 16384, 16385, 100_000] {
+            let mut k = Blocks::<f64>::new(len, None);
+            let ones = vec![1.0; len];
+            assert_eq!(k.dot(&Threaded, &ones, &ones), len as f64, "{len}");
+        }
+    }
+}

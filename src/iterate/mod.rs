@@ -1,0 +1,595 @@
+//! The one iteration loop, and the solving interface every driver shares: [`IterativeSolver`],
+//! [`SolveOptions`] and the caller-owned [`Workspace`].
+//!
+//! A method (CG, steepest descent, SOR, a residual-correction iteration, refinement) supplies
+//! only its set-up and one step, and declares how many work vectors it needs. The loop owns
+//! everything else: the input checks, the right-hand-side norm and the initial residual, the
+//! [`Monitor`] and the stopping rule, the periodic and the final true-residual refresh,
+//! breakdown and non-finite handling, the rounding-floor stop, and the conclusion into a
+//! [`Report`] or an error that carries it.
+
+mod refresh;
+mod workspace;
+
+use std::fmt;
+use std::sync::Arc;
+
+pub use workspace::Workspace;
+
+use refresh::Refresh;
+
+use crate::blocks::Blocks;
+use crate::error::Error;
+use crate::monitor::{Monitor, Summary};
+use crate::operator::{check_len, locate, require_positive_diagonal, LinearOperator};
+use crate::report::{History, MethodName, Progress, Report, StopReason};
+use crate::scalar::{to_f64, Scalar};
+use crate::space::{first_flagged, Space};
+use crate::stop::{StopRule, Tolerances};
+
+/// Settings shared by every driver.
+///
+/// By default the solve stops by [`Tolerances::default`]: relative residual `10⁻⁸`, at most
+/// 10 000 iterations. [`stop_when`](SolveOptions::stop_when) replaces those tolerances with any
+/// rule; put a [`Tolerances`] inside an [`AnyOf`](crate::stop::AnyOf) to keep them as well.
+///
+/// # Example
+///
+/// ```
+/// use quintet::prelude::*;
+///
+/// let opts = SolveOptions::default().tolerance(1e-10).max_iterations(500);
+/// assert_eq!(opts.tolerances.relative, 1e-10);
+/// assert_eq!(opts.tolerances.max_iterations, 500);
+/// ```
+#[derive(Clone)]
+#[non_exhaustive]
+pub struct SolveOptions {
+    /// The default rule set, used unless [`SolveOptions::rule`] is set.
+    pub tolerances: Tolerances,
+    /// A rule that replaces [`SolveOptions::tolerances`] when set.
+    pub rule: Option<Arc<dyn StopRule>>,
+    /// Recompute the true residual `b − A·x` every this many iterations in methods that update
+    /// it recursively (CG, steepest descent, the energy-minimising correction step), to stop
+    /// round-off drift; 0 turns the periodic refresh off. Methods that recompute the residual
+    /// from `x` every iteration (SOR, stationary corrections, refinement) need no refresh. The
+    /// true residual is always recomputed before a solve is declared converged. Default 50.
+    pub residual_refresh: usize,
+}
+
+impl Default for SolveOptions {
+    fn default() -> SolveOptions {
+        SolveOptions {
+            tolerances: Tolerances::default(),
+            rule: None,
+            residual_refresh: 50,
+        }
+    }
+}
+
+impl SolveOptions {
+    /// Set the relative tolerance on `‖r‖₂ / ‖b‖₂`.
+    ///
+    /// ```
+    /// let opts = quintet::SolveOptions::default().tolerance(1e-6);
+    /// assert_eq!(opts.tolerances.relative, 1e-6);
+    /// ```
+    pub fn tolerance(mut self, relative: f64) -> SolveOptions {
+        self.tolerances.relative = relative;
+        self
+    }
+
+    /// Set the absolute tolerance on `‖r‖₂`.
+    ///
+    /// ```
+    /// let opts = quintet::SolveOptions::default().absolute_tolerance(1e-12);
+    /// assert_eq!(opts.tolerances.absolute, 1e-12);
+    /// ```
+    pub fn absolute_tolerance(mut self, absolute: f64) -> SolveOptions {
+        self.tolerances.absolute = absolute;
+        self
+    }
+
+    /// Set the iteration limit.
+    ///
+    /// ```
+    /// let opts = quintet::SolveOptions::default().max_iterations(42);
+    /// assert_eq!(opts.tolerances.max_iterations, 42);
+    /// ```
+    pub fn max_iterations(mut self, limit: usize) -> SolveOptions {
+        self.tolerances.max_iterations = limit;
+        self
+    }
+
+    /// Stop by `rule` instead of the tolerances.
+    ///
+    /// ```
+    /// use quintet::stop::{AnyOf, SolutionChange, IterationLimit};
+    /// let opts = quintet::SolveOptions::default()
+    ///     .stop_when(AnyOf::new().or(SolutionChange(1e-5)).or(IterationLimit(300)));
+    /// assert!(opts.rule.is_some());
+    /// ```
+    pub fn stop_when(mut self, rule: impl StopRule + 'static) -> SolveOptions {
+        self.rule = Some(Arc::new(rule));
+        self
+    }
+
+    /// Set the true-residual refresh period (0 = only before declaring convergence).
+    ///
+    /// ```
+    /// let opts = quintet::SolveOptions::default().residual_refresh(10);
+    /// assert_eq!(opts.residual_refresh, 10);
+    /// ```
+    pub fn residual_refresh(mut self, every: usize) -> SolveOptions {
+        self.residual_refresh = every;
+        self
+    }
+
+    /// The rule in force.
+    pub(crate) fn stop_rule(&self) -> &dyn StopRule {
+        match &self.rule {
+            Some(rule) => rule.as_ref(),
+            None => &self.tolerances,
+        }
+    }
+}
+
+impl fmt::Debug for SolveOptions {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.debug_struct("SolveOptions")
+            .field("tolerances", &self.tolerances)
+            .field("rule", &self.rule.as_ref().map(|_| "custom"))
+            .field("residual_refresh", &self.residual_refresh)
+            .finish()
+    }
+}
+
+/// A driver that solves `A·x = b` in place.
+///
+/// Implemented by every driver: [`SteepestDescent`](crate::SteepestDescent),
+/// [`Pcg`](crate::Pcg) (and so [`Cg`](crate::Cg)), [`Sor`](crate::Sor),
+/// [`MixedRefinement`](crate::MixedRefinement), and the standalone [`Sip`](crate::Sip) and
+/// [`Multigrid`](crate::Multigrid) iterations. The trait is object-safe: a
+/// `Box<dyn IterativeSolver<f64>>` holds any of them. The operator is any
+/// [`LinearOperator`] (every [`Stencil5`](crate::Stencil5) is one); SOR walks the rows of a
+/// stencil and refuses other operators with
+/// [`ErrorKind::NeedsStencil`](crate::ErrorKind::NeedsStencil).
+///
+/// **Outcome.** `Ok(report)` means converged by the stopping rule, checked on the true
+/// residual. Every other end is an `Err` that still leaves the last iterate in `x` and carries
+/// the full [`Report`] ([`Error::report`]): [`ErrorKind::NotConverged`](crate::ErrorKind::NotConverged)
+/// (iteration limit, stagnation, divergence, non-finite values, a non-converged custom stop),
+/// [`ErrorKind::NotPositiveDefinite`](crate::ErrorKind::NotPositiveDefinite) and
+/// [`ErrorKind::PreconditionerNotPositive`](crate::ErrorKind::PreconditionerNotPositive) (CG
+/// breakdowns). Input errors (lengths, non-finite input, a non-positive center, a
+/// preconditioner built for another grid) are reported before any iteration and leave `x`
+/// unchanged.
+///
+/// # Example
+///
+/// Any driver behind one type:
+///
+/// ```
+/// use quintet::prelude::*;
+///
+/// let grid = Grid::new(24, 24)?;
+/// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+/// let rhs = vec![1.0; grid.cells()];
+/// let mut drivers: Vec<Box<dyn IterativeSolver<f64>>> = vec![
+///     Box::new(Cg::default()),
+///     Box::new(Pcg::new(Jacobi::new(&op)?)),
+///     Box::new(Sor::new(1.8)?),
+/// ];
+/// for driver in &mut drivers {
+///     let mut x = vec![0.0; grid.cells()];
+///     assert!(driver.solve(&op, &rhs, &mut x)?.converged());
+/// }
+/// # Ok::<(), quintet::Error>(())
+/// ```
+pub trait IterativeSolver<T: Scalar> {
+    /// Solve with `ws` as scratch, calling `observer` with the [`Progress`] before the first
+    /// iteration and after every iteration (for logging or a progress bar).
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(16, 16)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let (rhs, mut x) = (vec![1.0; grid.cells()], vec![0.0; grid.cells()]);
+    /// let mut seen = 0;
+    /// let report = Cg::default().solve_observed(&op, &rhs, &mut x, &mut Workspace::new(), &mut |p| {
+    ///     seen = p.iteration; // called before the first iteration and after each one
+    /// })?;
+    /// assert_eq!(seen, report.iterations);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    ///
+    /// # Errors
+    ///
+    /// See the trait documentation.
+    fn solve_observed(
+        &mut self,
+        op: &dyn LinearOperator<T>,
+        rhs: &[T],
+        x: &mut [T],
+        ws: &mut Workspace<T>,
+        observer: &mut dyn FnMut(&Progress<'_>),
+    ) -> Result<Report, Error>;
+
+    /// The driver's options (stopping rule, residual refresh).
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let cg: Box<dyn IterativeSolver<f64>> = Box::new(Cg::default());
+    /// assert_eq!(cg.options().tolerances.relative, 1e-8);
+    /// ```
+    fn options(&self) -> &SolveOptions;
+
+    /// Mutable access to the driver's options.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let mut sor: Box<dyn IterativeSolver<f64>> = Box::new(Sor::new(1.5)?);
+    /// sor.options_mut().tolerances.max_iterations = 100;
+    /// assert_eq!(sor.options().tolerances.max_iterations, 100);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    fn options_mut(&mut self) -> &mut SolveOptions;
+
+    /// Solve with `ws` as scratch.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(16, 16)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mut ws = Workspace::for_grid(grid); // reused by every solve below
+    /// let mut x = vec![0.0; grid.cells()];
+    /// for load in [1.0, 2.0] {
+    ///     Cg::default().solve_with(&op, &vec![load; grid.cells()], &mut x, &mut ws)?;
+    /// }
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    ///
+    /// # Errors
+    ///
+    /// See the trait documentation.
+    fn solve_with(
+        &mut self,
+        op: &dyn LinearOperator<T>,
+        rhs: &[T],
+        x: &mut [T],
+        ws: &mut Workspace<T>,
+    ) -> Result<Report, Error> {
+        self.solve_observed(op, rhs, x, ws, &mut |_| {})
+    }
+
+    /// Solve with a fresh workspace (allocates; use
+    /// [`solve_with`](IterativeSolver::solve_with) in loops).
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(16, 16)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let mut x = vec![0.0; grid.cells()];
+    /// assert!(Sor::new(1.7)?.solve(&op, &vec![1.0; grid.cells()], &mut x)?.converged());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    ///
+    /// # Errors
+    ///
+    /// See the trait documentation.
+    fn solve(
+        &mut self,
+        op: &dyn LinearOperator<T>,
+        rhs: &[T],
+        x: &mut [T],
+    ) -> Result<Report, Error> {
+        let mut ws = Workspace::new();
+        self.solve_with(op, rhs, x, &mut ws)
+    }
+}
+
+impl<T: Scalar, S: IterativeSolver<T> + ?Sized> IterativeSolver<T> for Box<S> {
+    fn solve_observed(
+        &mut self,
+        op: &dyn LinearOperator<T>,
+        rhs: &[T],
+        x: &mut [T],
+        ws: &mut Workspace<T>,
+        observer: &mut dyn FnMut(&Progress<'_>),
+    ) -> Result<Report, Error> {
+        (**self).solve_observed(op, rhs, x, ws, observer)
+    }
+    fn options(&self) -> &SolveOptions {
+        (**self).options()
+    }
+    fn options_mut(&mut self) -> &mut SolveOptions {
+        (**self).options_mut()
+    }
+}
+
+// ---------------------------------------------------------------------------------------------
+// The loop.
+
+/// What a method's step works on: the operator, the right-hand side, the iterate, the
+/// residual (owned by the loop: it refreshes it), the method's work vectors, and the blocks and
+/// space every kernel runs in.
+pub(crate) struct Context<'a, T> {
+    pub(crate) op: &'a dyn LinearOperator<T>,
+    pub(crate) rhs: &'a [T],
+    pub(crate) x: &'a mut [T],
+    pub(crate) r: &'a mut [T],
+    pub(crate) work: &'a mut [Vec<T>],
+    pub(crate) blocks: &'a mut Blocks<T>,
+    pub(crate) space: &'a dyn Space,
+}
+
+/// How a step obtained the residual it hands back.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) enum Residual {
+    /// Updated recursively (`r −= α·A·p`): the loop refreshes it periodically and before
+    /// declaring convergence.
+    Updated,
+    /// Recomputed from `x` (`r = b − A·x`): a true residual already.
+    Recomputed,
+}
+
+/// The result of one step: `r·r` of the new residual (now in `r`), the largest change of the
+/// solution, and how the residual was obtained.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct Step<T> {
+    pub(crate) rr: T,
+    pub(crate) change: T,
+    pub(crate) residual: Residual,
+}
+
+/// Why a step could not be completed.
+#[derive(Clone, Debug)]
+pub(crate) enum Breakdown<T> {
+    /// `p·Ap ≤ 0` (or not finite) in the iteration being computed.
+    Curvature(T),
+    /// `r·z ≤ 0` (or not finite) for the residual of the last completed iteration.
+    Preconditioner(T),
+    /// Something the step called failed (an inner solve): the solve ends with that error.
+    Failed(Error),
+}
+
+/// One iterative method: its set-up and its step. The loop ([`run`]) does the rest.
+pub(crate) trait Method<T: Scalar> {
+    /// Work vectors the method needs besides the residual (at least 1: the loop borrows the
+    /// first as scratch for the right-hand-side norm).
+    fn work_vectors(&self) -> usize;
+
+    /// Whether the method refuses to start on an operator with a non-positive diagonal entry
+    /// at a free cell (every method of an SPD operator, and those that divide by the center).
+    fn needs_positive_diagonal(&self) -> bool {
+        true
+    }
+
+    /// Set-up before the first step, with the initial residual in `cx.r`.
+    fn setup(&mut self, _cx: &mut Context<'_, T>) -> Result<(), Error> {
+        Ok(())
+    }
+
+    /// One iteration. `rr` is `r·r` of the residual now in `cx.r`.
+    fn step(&mut self, cx: &mut Context<'_, T>, rr: T) -> Result<Step<T>, Breakdown<T>>;
+
+    /// The loop replaced a recursively updated residual by a true one far from it: forget
+    /// anything built from the old recursion (CG's previous direction).
+    fn restart(&mut self) {}
+}
+
+/// How the loop ended, before the report is assembled.
+enum Ending<T> {
+    Stopped(StopReason),
+    Broke(Breakdown<T>, usize),
+}
+
+/// One solve as a driver hands it to the loop: the system, the caller's scratch, the rule
+/// and the observer.
+pub(crate) struct Task<'a, T> {
+    pub(crate) op: &'a dyn LinearOperator<T>,
+    pub(crate) rhs: &'a [T],
+    pub(crate) x: &'a mut [T],
+    pub(crate) ws: &'a mut Workspace<T>,
+    pub(crate) options: &'a SolveOptions,
+    pub(crate) observer: &'a mut dyn FnMut(&Progress<'_>),
+}
+
+/// Run `method` on the task until its rule stops it; the one loop of the crate. `Ok` means
+/// converged; a solve that stopped for another reason is an error carrying its report.
+pub(crate) fn run<T: Scalar, M: Method<T> + ?Sized>(
+    method: &mut M,
+    name: &MethodName,
+    task: Task<'_, T>,
+) -> Result<Report, Error> {
+    run_to_end(method, name, task).and_then(conclude)
+}
+
+/// As [`run`], with the report of a solve that stopped without converging returned as `Ok`
+/// (for inner solves, whose non-convergence is expected and must not allocate an error).
+pub(crate) fn run_to_end<T: Scalar, M: Method<T> + ?Sized>(
+    method: &mut M,
+    name: &MethodName,
+    task: Task<'_, T>,
+) -> Result<Report, Error> {
+    let Task {
+        op,
+        rhs,
+        x,
+        ws,
+        options,
+        observer,
+    } = task;
+    let n = op.len();
+    check_len("rhs", n, rhs.len())?;
+    check_len("x", n, x.len())?;
+    if method.needs_positive_diagonal() {
+        require_positive_diagonal(op)?;
+    }
+    ws.blocks_for(op);
+    ws.size_vectors(n, 1 + method.work_vectors().max(1));
+    let Workspace {
+        space,
+        blocks,
+        vectors,
+        history,
+    } = ws;
+    let space: &dyn Space = &**space;
+    for (what, v) in [("rhs", rhs), ("initial guess", &*x)] {
+        if let Some(k) = first_flagged(space, n, |k| !v[k].is_finite()) {
+            return Err(Error::non_finite(what, locate(op, k)));
+        }
+    }
+    let blocks = blocks.get_or_insert_with(|| Blocks::for_operator(op));
+    let (r, work) = vectors.split_first_mut().expect("sized above");
+    let mut cx = Context {
+        op,
+        rhs,
+        x,
+        r,
+        work,
+        blocks,
+        space,
+    };
+    let (bb, rr) = initial_residual(&mut cx);
+    if Arc::get_mut(history).is_none() {
+        *history = Arc::new(Vec::new());
+    }
+    let buffer = Arc::get_mut(history).expect("a fresh or unshared history");
+    let mut monitor = Monitor::start(options.stop_rule(), buffer, observer, bb, rr);
+    let (ending, summary) = match iterate(method, &mut cx, &mut monitor, options, rr) {
+        Ok(ending) => (ending, monitor.close()),
+        Err(e) => return Err(e),
+    };
+    let history = History(Arc::clone(history));
+    finish(ending, summary, name, history)
+}
+
+/// The checks are done and the monitor is running: iterate until a verdict.
+fn iterate<T: Scalar, M: Method<T> + ?Sized>(
+    method: &mut M,
+    cx: &mut Context<'_, T>,
+    monitor: &mut Monitor<'_>,
+    options: &SolveOptions,
+    mut rr: T,
+) -> Result<Ending<T>, Error> {
+    if let Some(reason) = monitor.check() {
+        return Ok(Ending::Stopped(reason));
+    }
+    method.setup(cx)?;
+    let mut refresh = Refresh::new(options.residual_refresh);
+    loop {
+        let step = match method.step(cx, rr) {
+            Ok(step) => step,
+            Err(breakdown) => {
+                let (value, iteration) = match breakdown {
+                    Breakdown::Curvature(v) => (v, monitor.iteration() + 1),
+                    Breakdown::Preconditioner(v) => (v, monitor.iteration()),
+                    Breakdown::Failed(e) => return Err(e),
+                };
+                if !value.is_finite() {
+                    return Ok(Ending::Stopped(StopReason::NonFinite));
+                }
+                return Ok(Ending::Broke(breakdown, iteration));
+            }
+        };
+        let verdict = match step.residual {
+            Residual::Recomputed => {
+                rr = step.rr;
+                monitor.record(step.rr, Some(step.change))
+            }
+            Residual::Updated => {
+                let recorded = refresh.record(monitor, cx, step.rr, step.change);
+                rr = recorded.rr;
+                if recorded.restart && recorded.verdict.is_none() {
+                    method.restart();
+                }
+                recorded.verdict
+            }
+        };
+        if let Some(reason) = verdict {
+            return Ok(Ending::Stopped(reason));
+        }
+    }
+}
+
+/// `(b·b, r·r)`: `b` is the right-hand side of the system on the free cells (`rhs` minus the
+/// contributions of the fixed neighbours, computed through the first work vector), and
+/// `r = b − A·x` (zero at fixed cells) is left in `cx.r`.
+fn initial_residual<T: Scalar>(cx: &mut Context<'_, T>) -> (T, T) {
+    let Context {
+        op,
+        rhs,
+        x,
+        r,
+        work,
+        blocks,
+        space,
+    } = cx;
+    let bb = match op.fixed_cells() {
+        Some(fixed) if !fixed.is_empty() => {
+            let scratch = &mut work[0];
+            scratch.fill(T::zero());
+            for &k in fixed.cells() {
+                scratch[k] = x[k];
+            }
+            blocks.residual_free(*space, *op, rhs, scratch, r)
+        }
+        _ => blocks.dot(*space, rhs, rhs),
+    };
+    let rr = blocks.residual_free(*space, *op, rhs, x, r);
+    (bb, rr)
+}
+
+/// The report, and the error that carries it unless the solve converged.
+fn finish<T: Scalar>(
+    ending: Ending<T>,
+    summary: Summary,
+    name: &MethodName,
+    history: History,
+) -> Result<Report, Error> {
+    match ending {
+        Ending::Stopped(reason) => Ok(summary.report(name.clone(), reason, history)),
+        Ending::Broke(breakdown, iteration) => {
+            let report = summary.report(name.clone(), StopReason::Breakdown, history);
+            Err(match breakdown {
+                Breakdown::Curvature(v) => {
+                    Error::not_positive_definite(iteration, to_f64(v), report)
+                }
+                Breakdown::Preconditioner(v) => {
+                    Error::preconditioner_not_positive(iteration, to_f64(v), report)
+                }
+                Breakdown::Failed(e) => e,
+            })
+        }
+    }
+}
+
+/// `Ok` for a converged report, `Err(NotConverged)` otherwise.
+pub(crate) fn conclude(report: Report) -> Result<Report, Error> {
+    if report.converged() {
+        Ok(report)
+    } else {
+        Err(Error::not_converged(report))
+    }
+}
+
+/// A method name built once per driver and shared by its reports (no allocation per solve).
+#[derive(Clone, Debug, Default)]
+pub(crate) struct NameCache {
+    key: Option<(String, MethodName)>,
+}
+
+impl NameCache {
+    /// The name for `key`, built by `make` the first time (and again when `key` changes).
+    pub(crate) fn get(&mut self, key: &str, make: impl FnOnce() -> String) -> MethodName {
+        match &self.key {
+            Some((k, name)) if k == key => name.clone(),
+            _ => {
+                let name = MethodName::from(make());
+                self.key = Some((key.to_string(), name.clone()));
+                name
+            }
+        }
+    }
+}

@@ -1,0 +1,133 @@
+//! The one registry of engines: every driver (with every preconditioner PCG ships) and every
+//! preconditioner, as the cross-driver tests iterate them. A new driver or preconditioner is
+//! covered by reference agreement, determinism, stopping, allocation, lost-work and
+//! reduction-counting tests by adding one line here.
+
+use quintet::prelude::*;
+
+/// What an engine can be trusted to solve.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Reach {
+    /// Any symmetric positive definite system (a Krylov method with an SPD preconditioner).
+    Spd,
+    /// SPD systems whose couplings are all conductances (M-matrices): multigrid's coarse
+    /// operators and the symmetrised SIP factor assume them.
+    MMatrix,
+}
+
+/// A driver, boxed.
+pub type Driver = Box<dyn IterativeSolver<f64>>;
+
+/// One driver, built for an operator.
+pub struct Engine {
+    pub name: &'static str,
+    pub reach: Reach,
+    /// Needs many iterations (steepest descent, Gauss–Seidel, Stone's iteration): tests keep
+    /// its problems small or its tolerance loose.
+    pub slow: bool,
+    build: fn(&Banded5<f64>) -> Result<Driver, Error>,
+}
+
+impl Engine {
+    /// The driver for `op` (preconditioners set up from `op`), stopping by `options`.
+    pub fn solver(&self, op: &Banded5<f64>, options: SolveOptions) -> Driver {
+        let mut solver =
+            (self.build)(op).unwrap_or_else(|e| panic!("{}: set-up failed: {e}", self.name));
+        *solver.options_mut() = options;
+        solver
+    }
+
+    /// Whether the engine is meant for problems of this kind (`m_matrix`: every coupling
+    /// non-positive).
+    pub fn handles(&self, m_matrix: bool) -> bool {
+        self.reach == Reach::Spd || m_matrix
+    }
+}
+
+fn boxed(s: impl IterativeSolver<f64> + 'static) -> Result<Driver, Error> {
+    Ok(Box::new(s))
+}
+
+/// Every driver of the crate, one line each.
+pub fn engines() -> Vec<Engine> {
+    use Reach::*;
+    let e = |name, reach, slow, build| Engine {
+        name,
+        reach,
+        slow,
+        build,
+    };
+    vec![
+        e("steepest descent", Spd, true, |_| {
+            boxed(SteepestDescent::default())
+        }),
+        e("CG", Spd, false, |_| boxed(Cg::default())),
+        e("PCG + Jacobi", Spd, false, |op| {
+            boxed(Pcg::new(Jacobi::new(op)?))
+        }),
+        e("PCG + SSOR", Spd, false, |op| {
+            boxed(Pcg::new(Ssor::new(op, 1.5)?))
+        }),
+        e("PCG + IC(0)", Spd, false, |op| {
+            boxed(Pcg::new(IncompleteCholesky::ic0(op)?))
+        }),
+        e("PCG + MIC(0)", Spd, false, |op| {
+            boxed(Pcg::new(IncompleteCholesky::mic0(op)?))
+        }),
+        e("PCG + symmetrised SIP", MMatrix, false, |op| {
+            boxed(Pcg::new(Sip::new(op, SipSettings::default())?))
+        }),
+        e("PCG + multigrid", MMatrix, false, |op| {
+            boxed(Pcg::new(Multigrid::new(op, MultigridSettings::default())?))
+        }),
+        e("PCG + multigrid, lumped Galerkin", MMatrix, false, |op| {
+            let settings = MultigridSettings {
+                coarse_operator: CoarseOperator::LumpedGalerkin,
+                ..Default::default()
+            };
+            boxed(Pcg::new(Multigrid::new(op, settings)?))
+        }),
+        e("PCG + f32 multigrid", MMatrix, false, |op| {
+            let single = op.cast::<f32>()?;
+            let mg = Multigrid::new(&single, MultigridSettings::default())?;
+            boxed(Pcg::new(SinglePrecision::new(single, mg)))
+        }),
+        e("SOR", Spd, true, |_| boxed(Sor::new(1.5)?)),
+        e("SOR, red-black", Spd, true, |_| {
+            boxed(Sor::new(1.5)?.ordering(SweepOrder::RedBlack))
+        }),
+        e("Gauss-Seidel", Spd, true, |_| boxed(Sor::gauss_seidel())),
+        e("Stone's SIP", MMatrix, true, |op| {
+            boxed(Sip::new(op, SipSettings::default())?)
+        }),
+        e("multigrid", MMatrix, false, |op| {
+            boxed(Multigrid::new(op, MultigridSettings::default())?)
+        }),
+        e("mixed-precision refinement", Spd, false, |op| {
+            let single = op.cast::<f32>()?;
+            let jacobi = Jacobi::new(&single)?;
+            boxed(MixedRefinement::with_preconditioner(single, jacobi)?)
+        }),
+    ]
+}
+
+/// Every preconditioner of the crate, set up from `op`, one line each.
+pub fn preconditioners(op: &Banded5<f64>) -> Vec<Box<dyn Preconditioner<f64>>> {
+    let single = op.cast::<f32>().expect("finite coefficients");
+    let mg32 = Multigrid::new(&single, MultigridSettings::default()).expect("set-up");
+    let lumped = MultigridSettings {
+        coarse_operator: CoarseOperator::LumpedGalerkin,
+        ..Default::default()
+    };
+    vec![
+        Box::new(Identity),
+        Box::new(Jacobi::new(op).expect("set-up")),
+        Box::new(Ssor::new(op, 1.4).expect("set-up")),
+        Box::new(IncompleteCholesky::ic0(op).expect("set-up")),
+        Box::new(IncompleteCholesky::mic0(op).expect("set-up")),
+        Box::new(Sip::new(op, SipSettings::default()).expect("set-up")),
+        Box::new(Multigrid::new(op, MultigridSettings::default()).expect("set-up")),
+        Box::new(Multigrid::new(op, lumped).expect("set-up")),
+        Box::new(SinglePrecision::new(single, mg32)),
+    ]
+}
