@@ -22,8 +22,14 @@ use crate::report::Report;
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
 #[non_exhaustive]
 pub enum ErrorKind {
-    /// A grid with no cells, or more cells than fit in memory.
+    /// A grid with no cells, or a cell count that overflows.
     InvalidGrid,
+    /// An array or grid too large for the memory the operating system grants (reported
+    /// before anything is allocated), or above the crate's limit on cells.
+    TooLarge,
+    /// The system has nothing that fixes its level: no fixed cell and no row whose diagonal
+    /// exceeds the sum of its couplings, so it is singular.
+    Singular,
     /// An array does not have the length the operator or grid needs.
     LengthMismatch,
     /// Two objects that must share a grid (or a length) do not.
@@ -172,6 +178,22 @@ impl fmt::Display for Shape {
 enum Detail {
     #[error("a grid of {nx} x {ny} cells is not allowed: both sides must be at least 1")]
     InvalidGrid { nx: usize, ny: usize },
+    #[error(
+        "a grid of {nx} x {ny} cells is more than the {} cells quintet allows (MAX_CELLS)",
+        crate::MAX_CELLS
+    )]
+    GridTooLarge { nx: usize, ny: usize },
+    #[error("{what} of {cells} cells need {bytes} bytes, more than the memory available")]
+    TooLarge {
+        what: &'static str,
+        cells: usize,
+        bytes: u128,
+    },
+    #[error("{what}: {reason}")]
+    Singular {
+        what: &'static str,
+        reason: &'static str,
+    },
     #[error("{what}: {found} entries given, {expected} needed")]
     LengthMismatch {
         what: &'static str,
@@ -308,6 +330,8 @@ impl Error {
     pub fn kind(&self) -> ErrorKind {
         match &*self.detail {
             Detail::InvalidGrid { .. } => ErrorKind::InvalidGrid,
+            Detail::TooLarge { .. } | Detail::GridTooLarge { .. } => ErrorKind::TooLarge,
+            Detail::Singular { .. } => ErrorKind::Singular,
             Detail::LengthMismatch { .. } => ErrorKind::LengthMismatch,
             Detail::GridMismatch { .. } => ErrorKind::GridMismatch,
             Detail::CellOutOfRange { .. } => ErrorKind::CellOutOfRange,
@@ -453,6 +477,7 @@ impl Error {
             | Detail::InvalidProperty { what, .. } => Some(what),
             Detail::InvalidSetting { name, .. } => Some(name),
             Detail::NeedsStencil { method } => Some(method),
+            Detail::TooLarge { what, .. } | Detail::Singular { what, .. } => Some(what),
             Detail::InactiveCell { what, .. } | Detail::PrescribedCellConflict { what, .. } => {
                 Some(what)
             }
@@ -481,6 +506,18 @@ impl Error {
 
     pub(crate) fn invalid_grid(nx: usize, ny: usize) -> Error {
         Error::new(Detail::InvalidGrid { nx, ny })
+    }
+
+    pub(crate) fn too_large(what: &'static str, cells: usize, bytes: u128) -> Error {
+        Error::new(Detail::TooLarge { what, cells, bytes })
+    }
+
+    pub(crate) fn grid_too_large(nx: usize, ny: usize) -> Error {
+        Error::new(Detail::GridTooLarge { nx, ny })
+    }
+
+    pub(crate) fn singular(what: &'static str, reason: &'static str) -> Error {
+        Error::new(Detail::Singular { what, reason })
     }
 
     pub(crate) fn length(what: &'static str, expected: usize, found: usize) -> Error {

@@ -35,18 +35,28 @@ impl Grid {
     ///
     /// # Errors
     ///
-    /// [`ErrorKind::InvalidGrid`](crate::ErrorKind::InvalidGrid) if either side is zero or the cell count overflows `usize`.
+    /// [`ErrorKind::InvalidGrid`](crate::ErrorKind::InvalidGrid) if either side is zero;
+    /// [`ErrorKind::TooLarge`](crate::ErrorKind::TooLarge) for more than
+    /// [`MAX_CELLS`](crate::MAX_CELLS) cells.
     ///
     /// # Example
     ///
     /// ```
-    /// let grid = quintet::Grid::new(100, 50)?;
+    /// use quintet::{ErrorKind, Grid};
+    /// let grid = Grid::new(100, 50)?;
     /// assert_eq!(grid.nx(), 100);
+    /// assert_eq!(Grid::new(1 << 33, 1 << 30).unwrap_err().kind(), ErrorKind::TooLarge);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn new(nx: usize, ny: usize) -> Result<Grid, Error> {
-        if nx == 0 || ny == 0 || nx.checked_mul(ny).is_none() {
+        if nx == 0 || ny == 0 {
             return Err(Error::invalid_grid(nx, ny));
+        }
+        if !nx
+            .checked_mul(ny)
+            .is_some_and(|cells| cells <= crate::MAX_CELLS)
+        {
+            return Err(Error::grid_too_large(nx, ny));
         }
         Ok(Grid { nx, ny })
     }

@@ -175,6 +175,7 @@ mod iterate;
 #[cfg(feature = "bench-internals")]
 pub mod kernels;
 mod krylov;
+mod memory;
 pub mod model;
 mod monitor;
 mod operator;
@@ -191,6 +192,7 @@ pub use error::{Error, ErrorKind, Location};
 pub use grid::{Grid, Side};
 pub use iterate::{IterativeSolver, SolveOptions, Workspace};
 pub use krylov::{Cg, Pcg, SteepestDescent};
+pub use memory::MAX_CELLS;
 pub use monitor::Monitor;
 pub use operator::{Coeffs5, FixedCells, LinearOperator, Stencil5};
 pub use precond::{

@@ -427,7 +427,7 @@ pub(crate) fn run_to_end<T: Scalar, M: Method<T> + ?Sized>(
         require_positive_diagonal(op)?;
     }
     ws.blocks_for(op);
-    ws.size_vectors(n, 1 + method.work_vectors().max(1));
+    ws.size_vectors(n, 1 + method.work_vectors().max(1))?;
     let Workspace {
         space,
         blocks,

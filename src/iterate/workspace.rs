@@ -5,7 +5,7 @@ use std::sync::Arc;
 use crate::blocks::Blocks;
 use crate::operator::LinearOperator;
 use crate::space::{Serial, Space, Threaded};
-use crate::{Grid, Scalar};
+use crate::{memory, Error, Grid, Scalar};
 
 /// Work vectors the built-in drivers need at most, besides the residual
 /// ([`Workspace::for_grid`] sizes for them).
@@ -114,7 +114,8 @@ impl<T: Scalar> Workspace<T> {
     pub fn for_grid(grid: Grid) -> Workspace<T> {
         let mut ws = Workspace::new();
         ws.blocks = Some(Blocks::for_grid(grid));
-        ws.size_vectors(grid.cells(), DRIVER_VECTORS + 1);
+        // A grid too large for these vectors fails with a typed error at its first solve.
+        let _ = ws.size_vectors(grid.cells(), DRIVER_VECTORS + 1);
         ws
     }
 
@@ -126,16 +127,20 @@ impl<T: Scalar> Workspace<T> {
     }
 
     /// At least `count` vectors of `len` entries each.
-    pub(crate) fn size_vectors(&mut self, len: usize, count: usize) {
+    ///
+    /// # Errors
+    ///
+    /// `TooLarge` if the memory is not granted.
+    pub(crate) fn size_vectors(&mut self, len: usize, count: usize) -> Result<(), Error> {
         if self.vectors.len() < count {
             self.vectors.resize_with(count, Vec::new);
         }
         for v in self.vectors.iter_mut().take(count) {
             if v.len() != len {
-                v.clear();
-                v.resize(len, T::zero());
+                memory::refill("the workspace's vectors", v, len, T::zero())?;
             }
         }
+        Ok(())
     }
 }
 

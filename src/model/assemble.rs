@@ -16,7 +16,7 @@ use super::medium::ConductivityBasis;
 use super::spec::{Model, Spec, Target};
 use crate::error::Location;
 use crate::space::first_flagged;
-use crate::{Error, Grid, Side};
+use crate::{memory, Error, Grid, Side};
 
 /// A connected group of free cells with nothing that sets its level.
 #[derive(Clone, Debug, PartialEq)]
@@ -103,7 +103,7 @@ fn fill(
     check_medium(model, transient)?;
 
     // Prescribed values held at nodes: the last condition to reach a cell owns it.
-    let mut owner: Vec<Option<(usize, usize)>> = vec![None; n];
+    let mut owner: Vec<Option<(usize, usize)>> = memory::filled("the assembly", n, None)?;
     for (c, cond) in model.conditions.iter().enumerate() {
         if !matches!(cond.spec, Spec::Value(_)) {
             continue;
@@ -136,8 +136,8 @@ fn fill(
         .collect();
 
     // Face conductances towards the east and north neighbours.
-    let mut east_c = vec![0.0; n];
-    let mut north_c = vec![0.0; n];
+    let mut east_c = memory::filled("the face conductances", n, 0.0)?;
+    let mut north_c = memory::filled("the face conductances", n, 0.0)?;
     for k in 0..n {
         for (side, store) in [(Side::East, &mut east_c), (Side::North, &mut north_c)] {
             if let Some(nb) = grid.neighbour(k, side) {

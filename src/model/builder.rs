@@ -14,7 +14,7 @@ use super::spec::{Spec, Target, NEXT_MODEL_TAG};
 use super::steady::SteadySystem;
 use crate::error::Location;
 use crate::space::{Space, Threaded};
-use crate::{Error, Grid, Side};
+use crate::{memory, Error, Grid, Side};
 
 impl Model {
     /// A model with every cell active, no conditions (every edge no-flow / insulated) and no
@@ -35,7 +35,7 @@ impl Model {
         conductivity.check_len(geometry.grid())?;
         Ok(Model {
             tag: NEXT_MODEL_TAG.fetch_add(1, Ordering::Relaxed),
-            active: vec![true; geometry.grid().cells()],
+            active: memory::filled("the active-cell mask", geometry.grid().cells(), true)?,
             geometry,
             conductivity,
             inactive_value: 0.0,

@@ -71,7 +71,7 @@ impl FixedCells {
         }
         list.sort_unstable();
         list.dedup();
-        let mut mask = vec![0u64; n.div_ceil(64)];
+        let mut mask = crate::memory::filled("the fixed-cell mask", n.div_ceil(64), 0u64)?;
         for &k in &list {
             mask[k / 64] |= 1 << (k % 64);
         }

@@ -13,7 +13,7 @@ use std::ops::Range;
 
 pub use fixed::FixedCells;
 pub use rows::Coeffs5;
-pub(crate) use rows::{row_neighbourhood, row_product};
+pub(crate) use rows::{row_neighbourhood, row_product, row_sums_to_zero};
 
 use crate::error::{Error, Location, Shape};
 use crate::grid::Grid;
@@ -176,6 +176,29 @@ pub trait LinearOperator<T: Scalar>: Sync {
     /// ```
     fn first_nonpositive_diagonal(&self) -> Option<(usize, T)> {
         None
+    }
+
+    /// Whether the constant vector is in the null space of the system (`A·1 = 0` with no
+    /// fixed cell): a pure no-flow (Neumann) problem, whose solution is determined only up to
+    /// a constant. Methods for SPD systems refuse it with
+    /// [`ErrorKind::Singular`](crate::ErrorKind::Singular). Default: `false` (not known).
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(4, 4)?;
+    /// let insulated = Banded5::from_fn(grid, |i, j| {
+    ///     let mut c = Coeffs5::laplacian(grid, i, j);
+    ///     c.center = -(c.west + c.east + c.south + c.north); // no flow through the edges
+    ///     c
+    /// })?;
+    /// assert!(insulated.constant_in_null_space());
+    /// let mut x = vec![0.0; 16];
+    /// let err = Cg::default().solve(&insulated, &[0.0; 16], &mut x).unwrap_err();
+    /// assert_eq!(err.kind(), ErrorKind::Singular);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    fn constant_in_null_space(&self) -> bool {
+        false
     }
 
     /// The operator as a 5-point stencil, if it is one (relaxation methods walk its rows).
@@ -360,6 +383,26 @@ pub trait Stencil5<T: Scalar>: LinearOperator<T> {
             .find(|&(_, c)| !crate::scalar::is_positive(c))
     }
 
+    /// Whether no cell is fixed and every row sums to zero (to a relative 10⁻¹²), so that
+    /// `A·1 = 0`. Default: a scan over [`coeffs`](Stencil5::coeffs); implementations that
+    /// validated at construction return a cached answer.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(3, 1)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// assert!(!op.rows_sum_to_zero()); // the zero values outside the grid fix the level
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    fn rows_sum_to_zero(&self) -> bool {
+        let grid = self.grid();
+        self.fixed().is_none_or(|f| f.is_empty())
+            && (0..grid.cells()).all(|k| {
+                let (i, j) = grid.coords(k);
+                row_sums_to_zero(self.coeffs(i, j))
+            })
+    }
+
     /// Row `(i, j)` of the system the Krylov drivers and the preconditioners see: the identity
     /// row for a fixed cell, and for a free cell its coefficients with the couplings towards
     /// fixed neighbours removed (those terms are known values, not unknowns).
@@ -437,6 +480,10 @@ impl<T: Scalar, S: Stencil5<T>> LinearOperator<T> for S {
         self.first_nonpositive_center()
     }
 
+    fn constant_in_null_space(&self) -> bool {
+        self.rows_sum_to_zero()
+    }
+
     fn as_stencil(&self) -> Option<&dyn Stencil5<T>> {
         Some(self)
     }
@@ -457,6 +504,9 @@ impl<T: Scalar, S: Stencil5<T> + ?Sized> Stencil5<T> for &S {
     }
     fn first_nonpositive_center(&self) -> Option<(usize, T)> {
         (**self).first_nonpositive_center()
+    }
+    fn rows_sum_to_zero(&self) -> bool {
+        (**self).rows_sum_to_zero()
     }
     fn eliminated_coeffs(&self, i: usize, j: usize) -> Coeffs5<T> {
         (**self).eliminated_coeffs(i, j)
@@ -504,10 +554,17 @@ pub(crate) fn locate<T: Scalar>(op: &(impl LinearOperator<T> + ?Sized), k: usize
 }
 
 /// `Err(NonPositiveCenter)` for the first free unknown with a diagonal entry that is not
-/// positive, as far as the operator knows.
+/// positive, and `Err(Singular)` for a pure no-flow system, as far as the operator knows: the
+/// checks of every method that needs an SPD system.
 pub(crate) fn require_positive_diagonal<T: Scalar>(
     op: &(impl LinearOperator<T> + ?Sized),
 ) -> Result<(), Error> {
+    if op.constant_in_null_space() {
+        return Err(Error::singular(
+            "the system",
+            "every row sums to zero and no cell is fixed, so its level is undetermined (any constant can be added to a solution); fix a cell, add a storage or exchange term, or ask the model for the compatible problem (SingularPolicy::FixMean)",
+        ));
+    }
     match op.first_nonpositive_diagonal() {
         Some((k, value)) if !is_positive(value) => Err(Error::non_positive_center(
             locate(op, k),

@@ -1,7 +1,7 @@
 //! One row of a 5-point operator: the coefficient record [`Coeffs5`] and the row product every
 //! operator shares.
 
-use crate::scalar::Scalar;
+use crate::scalar::{to_f64, Scalar};
 use crate::{Grid, Side};
 
 /// The five coefficients of one row of a 5-point operator.
@@ -186,4 +186,19 @@ fn cell_product<T: Scalar>(
         s = s + c.north * xn[i];
     }
     s
+}
+
+/// A row sums to zero when `|Σ coefficients| ≤ ROW_SUM_ROUNDING·Σ|coefficients|`: a center
+/// assembled as the sum of its conductances differs from it by rounding only.
+const ROW_SUM_ROUNDING: f64 = 1e-12;
+
+/// Whether the row `c` sums to zero, to rounding.
+pub(crate) fn row_sums_to_zero<T: Scalar>(c: Coeffs5<T>) -> bool {
+    let sum =
+        to_f64(c.center) + to_f64(c.west) + to_f64(c.east) + to_f64(c.south) + to_f64(c.north);
+    let size = [c.center, c.west, c.east, c.south, c.north]
+        .iter()
+        .map(|&v| to_f64(v).abs())
+        .fold(0.0, |a, b| a + b); // local: one row
+    sum.abs() <= ROW_SUM_ROUNDING * size
 }

@@ -4,7 +4,7 @@ use std::ops::Range;
 
 use super::{cast_scalar, check_fixed, survey};
 use crate::operator::{check_len, row_neighbourhood, row_product, Coeffs5, FixedCells, Stencil5};
-use crate::{Error, Grid, Scalar};
+use crate::{memory, Error, Grid, Scalar};
 
 /// A 5-point operator stored as five coefficient arrays (center, west, east, south, north), one
 /// entry per cell in grid order. Validated on construction: every coefficient finite and every
@@ -32,6 +32,7 @@ pub struct Banded5<T> {
     north: Vec<T>,
     fixed: Option<FixedCells>,
     first_nonpositive: Option<(usize, T)>,
+    rows_sum_to_zero: bool,
 }
 
 impl<T: Scalar> Banded5<T> {
@@ -74,6 +75,7 @@ impl<T: Scalar> Banded5<T> {
             north,
             fixed: None,
             first_nonpositive: None,
+            rows_sum_to_zero: false,
         };
         op.resurvey()?;
         Ok(op)
@@ -97,7 +99,10 @@ impl<T: Scalar> Banded5<T> {
         mut f: impl FnMut(usize, usize) -> Coeffs5<T>,
     ) -> Result<Banded5<T>, Error> {
         let n = grid.cells();
-        let mut bands: [Vec<T>; 5] = std::array::from_fn(|_| Vec::with_capacity(n));
+        let mut bands: [Vec<T>; 5] = Default::default();
+        for band in &mut bands {
+            *band = memory::with_capacity("the coefficient bands", n)?;
+        }
         for k in 0..n {
             let (i, j) = grid.coords(k);
             let c = f(i, j);
@@ -181,14 +186,18 @@ impl<T: Scalar> Banded5<T> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn cast<U: Scalar>(&self) -> Result<Banded5<U>, Error> {
-        let convert = |v: &[T]| -> Vec<U> { v.iter().map(|&e| cast_scalar(e)).collect() };
+        let convert = |v: &[T]| -> Result<Vec<U>, Error> {
+            let mut out = memory::with_capacity("the converted bands", v.len())?;
+            out.extend(v.iter().map(|&e| cast_scalar::<T, U>(e)));
+            Ok(out)
+        };
         let op = Banded5::new(
             self.grid,
-            convert(&self.center),
-            convert(&self.west),
-            convert(&self.east),
-            convert(&self.south),
-            convert(&self.north),
+            convert(&self.center)?,
+            convert(&self.west)?,
+            convert(&self.east)?,
+            convert(&self.south)?,
+            convert(&self.north)?,
         )?;
         match &self.fixed {
             Some(fixed) => op.with_fixed(fixed.clone()),
@@ -311,6 +320,7 @@ impl<T: Scalar> Banded5<T> {
 
     fn resurvey(&mut self) -> Result<(), Error> {
         let found = survey(self.grid, self.fixed.as_ref(), |i, j| self.coeffs(i, j))?;
+        self.rows_sum_to_zero = found.rows_sum_to_zero;
         self.first_nonpositive = found.first_nonpositive.map(|(k, _)| (k, self.center[k]));
         Ok(())
     }
@@ -367,5 +377,9 @@ impl<T: Scalar> Stencil5<T> for Banded5<T> {
 
     fn first_nonpositive_center(&self) -> Option<(usize, T)> {
         self.first_nonpositive
+    }
+
+    fn rows_sum_to_zero(&self) -> bool {
+        self.rows_sum_to_zero
     }
 }

@@ -37,6 +37,7 @@ pub struct ClosureStencil<T, F> {
     coeffs: F,
     fixed: Option<FixedCells>,
     first_nonpositive: Option<(usize, T)>,
+    rows_sum_to_zero: bool,
 }
 
 impl<T, F> ClosureStencil<T, F>
@@ -66,6 +67,7 @@ where
             coeffs,
             fixed: None,
             first_nonpositive: None,
+            rows_sum_to_zero: false,
         };
         op.resurvey()?;
         Ok(op)
@@ -94,6 +96,7 @@ where
 
     fn resurvey(&mut self) -> Result<(), Error> {
         let found = survey(self.grid, self.fixed.as_ref(), &self.coeffs)?;
+        self.rows_sum_to_zero = found.rows_sum_to_zero;
         self.first_nonpositive = found.first_nonpositive.map(|(k, _)| {
             let (i, j) = self.grid.coords(k);
             (k, (self.coeffs)(i, j).center)
@@ -122,6 +125,10 @@ where
 
     fn first_nonpositive_center(&self) -> Option<(usize, T)> {
         self.first_nonpositive
+    }
+
+    fn rows_sum_to_zero(&self) -> bool {
+        self.rows_sum_to_zero
     }
 }
 

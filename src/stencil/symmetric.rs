@@ -4,7 +4,7 @@ use std::ops::Range;
 
 use super::{cast_scalar, check_fixed, check_symmetry, survey, Banded5};
 use crate::operator::{check_len, row_neighbourhood, row_product, Coeffs5, FixedCells, Stencil5};
-use crate::{Error, Grid, Scalar};
+use crate::{memory, Error, Grid, Scalar};
 
 /// A symmetric 5-point operator that stores only the center, east and north coefficients; the
 /// west coupling of a cell is the east coupling of its west neighbour, and the south coupling
@@ -40,6 +40,7 @@ pub struct Symmetric5<T> {
     north: Vec<T>,
     fixed: Option<FixedCells>,
     first_nonpositive: Option<(usize, T)>,
+    rows_sum_to_zero: bool,
 }
 
 impl<T: Scalar> Symmetric5<T> {
@@ -75,6 +76,7 @@ impl<T: Scalar> Symmetric5<T> {
             north,
             fixed: None,
             first_nonpositive: None,
+            rows_sum_to_zero: false,
         };
         op.resurvey()?;
         Ok(op)
@@ -145,12 +147,16 @@ impl<T: Scalar> Symmetric5<T> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn cast<U: Scalar>(&self) -> Result<Symmetric5<U>, Error> {
-        let convert = |v: &[T]| -> Vec<U> { v.iter().map(|&e| cast_scalar(e)).collect() };
+        let convert = |v: &[T]| -> Result<Vec<U>, Error> {
+            let mut out = memory::with_capacity("the converted bands", v.len())?;
+            out.extend(v.iter().map(|&e| cast_scalar::<T, U>(e)));
+            Ok(out)
+        };
         let op = Symmetric5::new(
             self.grid,
-            convert(&self.center),
-            convert(&self.east),
-            convert(&self.north),
+            convert(&self.center)?,
+            convert(&self.east)?,
+            convert(&self.north)?,
         )?;
         match &self.fixed {
             Some(fixed) => op.with_fixed(fixed.clone()),
@@ -196,6 +202,7 @@ impl<T: Scalar> Symmetric5<T> {
 
     fn resurvey(&mut self) -> Result<(), Error> {
         let found = survey(self.grid, self.fixed.as_ref(), |i, j| self.coeffs(i, j))?;
+        self.rows_sum_to_zero = found.rows_sum_to_zero;
         self.first_nonpositive = found.first_nonpositive.map(|(k, _)| (k, self.center[k]));
         Ok(())
     }
@@ -258,5 +265,9 @@ impl<T: Scalar> Stencil5<T> for Symmetric5<T> {
 
     fn first_nonpositive_center(&self) -> Option<(usize, T)> {
         self.first_nonpositive
+    }
+
+    fn rows_sum_to_zero(&self) -> bool {
+        self.rows_sum_to_zero
     }
 }

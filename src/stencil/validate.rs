@@ -2,7 +2,7 @@
 
 use crate::error::Location;
 use crate::operator::FixedCells;
-use crate::operator::{Coeffs5, Stencil5};
+use crate::operator::{row_sums_to_zero, Coeffs5, Stencil5};
 use crate::scalar::{is_positive, to_f64};
 use crate::{Error, Grid, Scalar, Side};
 
@@ -11,6 +11,8 @@ use crate::{Error, Grid, Scalar, Side};
 pub(crate) struct Survey {
     /// First free cell whose center is not positive, with its value.
     pub first_nonpositive: Option<(usize, f64)>,
+    /// No cell is fixed and every row sums to zero (to rounding): `A·1 = 0`.
+    pub rows_sum_to_zero: bool,
 }
 
 /// One pass over every cell: every coefficient finite, no coupling off the grid, and the first
@@ -22,6 +24,7 @@ pub(crate) fn survey<T: Scalar>(
     coeffs: impl Fn(usize, usize) -> Coeffs5<T>,
 ) -> Result<Survey, Error> {
     let mut first_nonpositive = None;
+    let mut rows_sum_to_zero = fixed.is_none_or(|f| f.is_empty());
     for k in 0..grid.cells() {
         let (i, j) = grid.coords(k);
         let c = coeffs(i, j);
@@ -49,8 +52,12 @@ pub(crate) fn survey<T: Scalar>(
         if free && first_nonpositive.is_none() && !is_positive(c.center) {
             first_nonpositive = Some((k, to_f64(c.center)));
         }
+        rows_sum_to_zero = rows_sum_to_zero && row_sums_to_zero(c);
     }
-    Ok(Survey { first_nonpositive })
+    Ok(Survey {
+        first_nonpositive,
+        rows_sum_to_zero,
+    })
 }
 
 /// Check that the system the Krylov drivers see (free cells, couplings to fixed cells

@@ -1,0 +1,49 @@
+//! Fallible allocation of the per-cell arrays, so a grid too large for memory is a typed error
+//! before anything is allocated, never an abort.
+
+use crate::error::Error;
+
+/// The most cells a [`Grid`](crate::Grid) may have: 2⁴⁰ (about 1.1·10¹²). Far beyond one
+/// machine's memory (a `Banded5<f64>` alone takes 40 bytes per cell), it keeps every byte
+/// count of the crate's arrays representable; arrays that would not fit in memory fail
+/// earlier, when they are reserved ([`ErrorKind::TooLarge`](crate::ErrorKind::TooLarge)).
+///
+/// ```
+/// assert_eq!(quintet::MAX_CELLS, 1 << 40);
+/// ```
+pub const MAX_CELLS: usize = 1 << 40;
+
+/// An empty vector with room for `n` entries, or `TooLarge` naming `what` if the memory is
+/// not granted.
+pub(crate) fn with_capacity<T>(what: &'static str, n: usize) -> Result<Vec<T>, Error> {
+    let mut v = Vec::new();
+    v.try_reserve_exact(n)
+        .map_err(|_| too_large::<T>(what, n))?;
+    Ok(v)
+}
+
+/// `n` copies of `value`, or `TooLarge` naming `what` if the memory is not granted.
+pub(crate) fn filled<T: Clone>(what: &'static str, n: usize, value: T) -> Result<Vec<T>, Error> {
+    let mut v = with_capacity(what, n)?;
+    v.resize(n, value);
+    Ok(v)
+}
+
+/// Grow `v` to `n` copies of `value` (keeping nothing), allocating only if it is too small.
+pub(crate) fn refill<T: Clone>(
+    what: &'static str,
+    v: &mut Vec<T>,
+    n: usize,
+    value: T,
+) -> Result<(), Error> {
+    v.clear();
+    v.try_reserve_exact(n)
+        .map_err(|_| too_large::<T>(what, n))?;
+    v.resize(n, value);
+    Ok(())
+}
+
+fn too_large<T>(what: &'static str, n: usize) -> Error {
+    let bytes = n as u128 * std::mem::size_of::<T>() as u128;
+    Error::too_large(what, n, bytes)
+}
