@@ -150,7 +150,7 @@ fn heat() -> Result<(), Error> {
     println!("warm-up, Crank–Nicolson with a damped start, 30 s steps:");
     println!(
         "{:>8} {:>12} {:>14} {:>16}",
-        "time [s]", "module [°C]", "stored [W]", "discrepancy [%]"
+        "time [s]", "module [°C]", "stored [W]", "imbalance [%]"
     );
     for step in 1..=40 {
         run.step_with(|_, f| f.set(power, 12.0))?;
@@ -162,7 +162,7 @@ fn heat() -> Result<(), Error> {
                 run.time(),
                 run.solution()[module],
                 stored,
-                b.discrepancy_percent()
+                b.imbalance_percent()
             );
         }
     }

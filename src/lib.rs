@@ -170,6 +170,7 @@
 
 mod blocks;
 mod error;
+mod format;
 mod grid;
 mod iterate;
 #[cfg(feature = "bench-internals")]

@@ -2,7 +2,7 @@
 //! control volume and enters its neighbour), so summing the balance rows of the solved system
 //! shows that `in − out = Σ_k r_k` over the free cells, the driver's residual (common
 //! practice; the identity follows from the symmetry of the face conductances). Hence
-//! `|in − out| ≤ √n·‖r‖₂ = √n·ρ·‖b‖₂`, and the percent discrepancy is bounded by
+//! `|in − out| ≤ √n·‖r‖₂ = √n·ρ·‖b‖₂`, and the percent imbalance is bounded by
 //! `100·(√n·ρ·‖b‖₂ + n_slots·ε·(in + out)) / ((in + out)/2)`, the last term for rounding in
 //! the sums. Problems are chosen (heads and temperatures near their datum) so that this bound
 //! is below the 1e-8 % the issue asks for after a solve to ρ = 1e-12.
@@ -15,7 +15,7 @@ use quintet::prelude::*;
 const EPS: f64 = f64::EPSILON;
 
 /// The bound described above, in percent.
-fn discrepancy_bound(budget: &Budget, free_cells: usize, report: &Report, slots: usize) -> f64 {
+fn imbalance_bound(budget: &Budget, free_cells: usize, report: &Report, slots: usize) -> f64 {
     let mean = 0.5 * (budget.total_in + budget.total_out);
     let residual_sum = (free_cells as f64).sqrt() * report.residual_norm;
     let rounding = slots as f64 * EPS * (budget.total_in + budget.total_out);
@@ -137,10 +137,10 @@ fn check_steady(name: &str, model: &Model, n_slots: usize) {
     ] {
         assert!(kinds.contains(&kind), "{name}: no {kind} flow");
     }
-    let d = budget.discrepancy_percent();
-    let bound = discrepancy_bound(&budget, free_cells(system.operator()), &report, n_slots);
+    let d = budget.imbalance_percent();
+    let bound = imbalance_bound(&budget, free_cells(system.operator()), &report, n_slots);
     println!(
-        "{name}: discrepancy {d:.3e} % (bound {bound:.3e} %), relative residual {:.2e}\n{}",
+        "{name}: imbalance {d:.3e} % (bound {bound:.3e} %), relative residual {:.2e}\n{}",
         report.relative_residual(),
         budget.table("model units")
     );
@@ -226,10 +226,10 @@ fn transient_budgets_close_every_step() {
             let budget = stepper.budget().unwrap();
             let storage = budget.lines.last().unwrap();
             assert_eq!(storage.kind, FlowKind::Storage);
-            let d = budget.discrepancy_percent();
+            let d = budget.imbalance_percent();
             let bound =
-                discrepancy_bound(&budget, free_cells(stepper.operator()), &report, 3 * cells);
-            println!("{scheme:?} (damped {damped}) step {step}: discrepancy {d:.3e} % (bound {bound:.3e} %), storage in {:.4e} out {:.4e}", storage.inflow, storage.outflow);
+                imbalance_bound(&budget, free_cells(stepper.operator()), &report, 3 * cells);
+            println!("{scheme:?} (damped {damped}) step {step}: imbalance {d:.3e} % (bound {bound:.3e} %), storage in {:.4e} out {:.4e}", storage.inflow, storage.outflow);
             assert!(
                 d.abs() <= bound,
                 "{scheme:?} step {step}: {d:e} % > {bound:e} %"
@@ -238,13 +238,13 @@ fn transient_budgets_close_every_step() {
     }
 }
 
-/// The indicator: a loosely converged solve leaves a visible discrepancy; the warning fires
+/// The indicator: a loosely converged solve leaves a visible imbalance; the warning fires
 /// above the caller's threshold and not below it.
 #[test]
 fn loose_solves_show_in_the_budget() {
     let (model, _) = aquifer();
     let system = model.assemble().unwrap();
-    let discrepancy = |tol: f64| {
+    let imbalance = |tol: f64| {
         let mut x = system.initial_solution(0.0);
         let mut cg = Cg::default().with_options(
             SolveOptions::default()
@@ -256,14 +256,14 @@ fn loose_solves_show_in_the_budget() {
             .unwrap();
         system.budget(&x).unwrap()
     };
-    let loose = discrepancy(1e-3);
-    let tight = discrepancy(1e-12);
-    let d = loose.discrepancy_percent().abs();
+    let loose = imbalance(1e-3);
+    let tight = imbalance(1e-12);
+    let d = loose.imbalance_percent().abs();
     println!(
-        "discrepancy after a solve to 1e-3: {d:.3e} %, to 1e-12: {:.3e} %",
-        tight.discrepancy_percent()
+        "imbalance after a solve to 1e-3: {d:.3e} %, to 1e-12: {:.3e} %",
+        tight.imbalance_percent()
     );
-    assert!(d > 1e3 * tight.discrepancy_percent().abs());
+    assert!(d > 1e3 * tight.imbalance_percent().abs());
     let warning = loose.warning(0.5 * d).expect("above the threshold");
     assert_eq!(warning.threshold_percent, 0.5 * d);
     assert!(loose.warning(2.0 * d).is_none());

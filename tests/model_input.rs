@@ -196,7 +196,7 @@ fn balanced_pure_flux_problem_is_solved_with_the_mean_fixed() {
     println!("insulated bar, mean fixed: max error {err:.3e} K, mean {mean}");
     assert!((mean - 20.0).abs() < 1e-12);
     assert!(err < 1e-9, "{err}");
-    assert!(system.budget(&t).unwrap().discrepancy_percent().abs() < 1e-10);
+    assert!(system.budget(&t).unwrap().imbalance_percent().abs() < 1e-10);
 
     // Unbalanced: no steady state exists.
     let mut model = Model::new(geometry, Conductivity::isotropic(k)).unwrap();

@@ -4,6 +4,7 @@
 use std::fmt;
 
 use super::spec::ConditionId;
+use crate::format::Sig4;
 use crate::Error;
 
 /// The kind of a budget term.
@@ -79,18 +80,18 @@ impl BudgetLine {
     }
 }
 
-/// A flow budget has a discrepancy larger than the caller's threshold: the run should not be
+/// A flow budget has an imbalance larger than the caller's threshold: the run should not be
 /// trusted until the cause is found (a loose stopping tolerance, most often).
 ///
 /// ```
 /// use quintet::model::BudgetWarning;
-/// let w = BudgetWarning { discrepancy_percent: 2.5, threshold_percent: 1.0 };
+/// let w = BudgetWarning { imbalance_percent: 2.5, threshold_percent: 1.0 };
 /// assert!(w.to_string().contains("2.5"));
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct BudgetWarning {
-    /// The discrepancy found, `100·(in − out)/((in + out)/2)`.
-    pub discrepancy_percent: f64,
+    /// The imbalance found, `100·(in − out)/((in + out)/2)`.
+    pub imbalance_percent: f64,
     /// The threshold it exceeds, in percent.
     pub threshold_percent: f64,
 }
@@ -99,8 +100,9 @@ impl fmt::Display for BudgetWarning {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         write!(
             f,
-            "flow budget discrepancy {} % exceeds the {} % allowed",
-            self.discrepancy_percent, self.threshold_percent
+            "flow budget imbalance {} % exceeds the {} % allowed",
+            Sig4(self.imbalance_percent),
+            Sig4(self.threshold_percent)
         )
     }
 }
@@ -108,7 +110,7 @@ impl fmt::Display for BudgetWarning {
 /// What entered and left the model, term by term, after a steady solve or over one time step.
 ///
 /// Line `n` belongs to the condition whose [`ConditionId`] has index `n`; a transient budget
-/// has one more line, for storage, at the end. The percent discrepancy is
+/// has one more line, for storage, at the end. The percent imbalance is
 /// `100·(in − out)/((in + out)/2)`; after a converged solve it measures the algebraic error
 /// left by the stopping tolerance (the discrete equations conserve exactly). A common practice
 /// in groundwater modelling is to distrust runs above about 1 %.
@@ -123,7 +125,7 @@ impl fmt::Display for BudgetWarning {
 ///     BudgetLine { label: "sea".into(), kind: FlowKind::PrescribedValue, inflow: 0.0, outflow: 9.0 },
 /// ]);
 /// assert_eq!((budget.total_in, budget.total_out), (10.0, 9.0));
-/// assert!((budget.discrepancy_percent() - 100.0 / 9.5).abs() < 1e-12);
+/// assert!((budget.imbalance_percent() - 100.0 / 9.5).abs() < 1e-12);
 /// assert!(budget.warning(1.0).is_some());
 /// println!("{}", budget.table("m³/s"));
 /// ```
@@ -143,7 +145,7 @@ impl Budget {
     ///
     /// ```
     /// let b = quintet::model::Budget::from_lines(Vec::new());
-    /// assert_eq!(b.discrepancy_percent(), 0.0);
+    /// assert_eq!(b.imbalance_percent(), 0.0);
     /// ```
     pub fn from_lines(lines: Vec<BudgetLine>) -> Budget {
         let total_in = lines.iter().map(|l| l.inflow).sum(); // local: lines are totals
@@ -171,9 +173,9 @@ impl Budget {
     /// ```
     /// # use quintet::model::{Budget, BudgetLine, FlowKind};
     /// let b = Budget::from_lines(vec![BudgetLine { label: "a".into(), kind: FlowKind::PointSource, inflow: 3.0, outflow: 1.0 }]);
-    /// assert_eq!(b.discrepancy_percent(), 100.0);
+    /// assert_eq!(b.imbalance_percent(), 100.0);
     /// ```
-    pub fn discrepancy_percent(&self) -> f64 {
+    pub fn imbalance_percent(&self) -> f64 {
         let mean = 0.5 * (self.total_in + self.total_out);
         if mean > 0.0 {
             100.0 * self.net() / mean
@@ -233,7 +235,7 @@ impl Budget {
         out
     }
 
-    /// A warning if `|discrepancy| > threshold_percent` (or the discrepancy is not a number).
+    /// A warning if `|imbalance| > threshold_percent` (or the imbalance is not a number).
     ///
     /// ```
     /// # use quintet::model::{Budget, BudgetLine, FlowKind};
@@ -241,9 +243,9 @@ impl Budget {
     /// assert!(b.warning(1.0).is_none());
     /// ```
     pub fn warning(&self, threshold_percent: f64) -> Option<BudgetWarning> {
-        let d = self.discrepancy_percent();
+        let d = self.imbalance_percent();
         (d.is_nan() || d.abs() > threshold_percent).then_some(BudgetWarning {
-            discrepancy_percent: d,
+            imbalance_percent: d,
             threshold_percent,
         })
     }
@@ -263,7 +265,7 @@ impl Budget {
         match self.warning(threshold_percent) {
             None => Ok(()),
             Some(w) => Err(Error::budget_imbalance(
-                w.discrepancy_percent,
+                w.imbalance_percent,
                 threshold_percent,
             )),
         }
@@ -314,40 +316,40 @@ impl fmt::Display for BudgetTable<'_> {
         for line in &b.lines {
             writeln!(
                 f,
-                "{:<26} {:<18} {:>13.6e} {:>13.6e} {:>14.6e}",
+                "{:<26} {:<18} {:>13} {:>13} {:>14}",
                 clip(&line.label, 26),
                 line.kind.to_string(),
-                line.inflow,
-                line.outflow,
-                line.net()
+                Sig4(line.inflow),
+                Sig4(line.outflow),
+                Sig4(line.net())
             )?;
         }
         writeln!(f, "{rule}")?;
         for line in b.by_kind() {
             writeln!(
                 f,
-                "{:<26} {:<18} {:>13.6e} {:>13.6e} {:>14.6e}",
+                "{:<26} {:<18} {:>13} {:>13} {:>14}",
                 "  all of kind",
                 line.label,
-                line.inflow,
-                line.outflow,
-                line.net()
+                Sig4(line.inflow),
+                Sig4(line.outflow),
+                Sig4(line.net())
             )?;
         }
         writeln!(f, "{rule}")?;
         writeln!(
             f,
-            "{:<26} {:<18} {:>13.6e} {:>13.6e} {:>14.6e}",
+            "{:<26} {:<18} {:>13} {:>13} {:>14}",
             "whole model",
             "",
-            b.total_in,
-            b.total_out,
-            b.net()
+            Sig4(b.total_in),
+            Sig4(b.total_out),
+            Sig4(b.net())
         )?;
         write!(
             f,
-            "balance: net is {:.3e} % of the mean of entering and leaving",
-            b.discrepancy_percent()
+            "imbalance: net is {} % of the mean of entering and leaving",
+            Sig4(b.imbalance_percent())
         )
     }
 }

@@ -100,7 +100,7 @@ pub enum SingularPolicy {
 ///     .with_options(SolveOptions::default().tolerance(1e-10));
 /// system.solve(&mut pcg, &mut heads, &mut Workspace::new())?;
 /// let budget = system.budget(&heads)?;
-/// assert!(budget.discrepancy_percent().abs() < 1e-6);
+/// assert!(budget.imbalance_percent().abs() < 1e-6);
 /// assert_eq!(budget.line(well).map(|l| l.outflow), Some(4e-3));
 /// # Ok::<(), quintet::Error>(())
 /// ```

@@ -231,7 +231,7 @@ impl SteadySystem {
     /// system.solve(&mut cg, &mut x, &mut Workspace::new())?;
     /// let budget = system.budget(&x)?;
     /// assert_eq!(budget.total_in, 64.0);
-    /// assert!(budget.discrepancy_percent().abs() < 1e-8);
+    /// assert!(budget.imbalance_percent().abs() < 1e-8);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn budget(&self, x: &[f64]) -> Result<Budget, Error> {

@@ -108,7 +108,7 @@ pub(crate) enum LastStep {
 ///     stepper.step()?; // two hours in ten-minute steps
 /// }
 /// let budget = stepper.budget().expect("a step was taken");
-/// assert!(budget.discrepancy_percent().abs() < 1e-4);
+/// assert!(budget.imbalance_percent().abs() < 1e-4);
 /// assert!(stepper.solution()[40] > 10.0 && stepper.solution()[40] < 60.0);
 /// # Ok::<(), quintet::Error>(())
 /// ```
