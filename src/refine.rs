@@ -68,7 +68,7 @@ impl<S: LinearOperator<f32>, P: Preconditioner<f32>> MixedRefinement<S, P> {
     /// ```
     /// use quintet::prelude::*;
     /// let grid = Grid::new(8, 8)?;
-    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j).cast())?;
     /// let solver = MixedRefinement::new(single, Cg::default())?;
     /// assert_eq!(solver.options.tolerances.relative, 1e-12);
     /// # Ok::<(), quintet::Error>(())
@@ -96,7 +96,7 @@ impl<S: LinearOperator<f32>, P: Preconditioner<f32>> MixedRefinement<S, P> {
     /// ```
     /// use quintet::prelude::*;
     /// let grid = Grid::new(8, 8)?;
-    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j).cast())?;
     /// let solver = MixedRefinement::with_preconditioner(single, Identity)?;
     /// # let _ = solver;
     /// # Ok::<(), quintet::Error>(())
@@ -131,7 +131,7 @@ impl<S: LinearOperator<f32>, P: Preconditioner<f32>> MixedRefinement<S, P> {
     /// ```
     /// # use quintet::prelude::*;
     /// # let grid = Grid::new(8, 8)?;
-    /// # let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// # let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j).cast())?;
     /// let solver = MixedRefinement::new(single, Cg::default())?;
     /// assert_eq!(solver.inner_iterations(), 0); // nothing solved yet
     /// # Ok::<(), quintet::Error>(())

@@ -43,7 +43,7 @@ fn refinement_rejects_an_operator_on_another_grid() {
     let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j)).unwrap();
     let other = Grid::new(5, 6).unwrap();
     let single: Banded5<f32> =
-        Banded5::from_fn(other, |i, j| Coeffs5::laplacian(other, i, j)).unwrap();
+        Banded5::from_fn(other, |i, j| Coeffs5::laplacian(other, i, j).cast()).unwrap();
     let mut solver = MixedRefinement::new(single, Cg::default()).unwrap();
     let mut x = vec![0.0; 25];
     assert!(

@@ -375,7 +375,8 @@ fn short_slices_do_not_panic() {
 #[test]
 fn single_precision_works() {
     let grid = Grid::new(40, 30).unwrap();
-    let op: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j)).unwrap();
+    let op: Banded5<f32> =
+        Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j).cast()).unwrap();
     let rhs = vec![1.0f32; grid.cells()];
     let opts = SolveOptions::default().tolerance(1e-4);
     let mut x = vec![0.0f32; grid.cells()];

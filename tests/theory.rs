@@ -188,7 +188,7 @@ fn cg_in_f32_reaches_the_accuracy_single_precision_allows() {
     let tol = 10.0 * floor;
     assert!(tol < 1e-3, "the floor itself is {floor:e}");
 
-    let op = Banded5::from_fn(grid, |i, j| Coeffs5::<f32>::laplacian(grid, i, j)).unwrap();
+    let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j).cast()).unwrap();
     let rhs = vec![1.0f32; grid.cells()];
     let mut x = vec![0.0f32; grid.cells()];
     let mut cg = Cg::default().with_options(SolveOptions::default().tolerance(tol));

@@ -49,26 +49,23 @@ impl<T: Scalar> Coeffs5<T> {
         }
     }
 
-    /// Row `(i, j)` of the standard 5-point Laplacian `4φ_k − Σ φ_nb` (unit spacing) with zero
-    /// (Dirichlet) values just outside the grid: couplings that would point off the grid are
-    /// left out. The model problem of the iterative-methods literature.
+    /// The same row in another scalar type (NaN where a value does not fit).
     ///
     /// ```
     /// use quintet::{Coeffs5, Grid};
-    /// let grid = Grid::new(5, 5)?;
-    /// let c = Coeffs5::<f64>::laplacian(grid, 2, 2);
-    /// assert_eq!((c.center, c.west, c.north), (4.0, -1.0, -1.0));
+    /// let grid = Grid::new(3, 3)?;
+    /// let single: Coeffs5<f32> = Coeffs5::laplacian(grid, 1, 1).cast();
+    /// assert_eq!(single.center, 4.0f32);
     /// # Ok::<(), quintet::Error>(())
     /// ```
-    pub fn laplacian(grid: Grid, i: usize, j: usize) -> Coeffs5<T> {
-        let m1 = -T::one();
-        let edge = |present: bool| if present { m1 } else { T::zero() };
+    pub fn cast<U: Scalar>(self) -> Coeffs5<U> {
+        let c = |v: T| U::from(v).unwrap_or_else(U::nan);
         Coeffs5 {
-            center: T::from(4.0).unwrap_or_else(T::one),
-            west: edge(i > 0),
-            east: edge(i + 1 < grid.nx()),
-            south: edge(j > 0),
-            north: edge(j + 1 < grid.ny()),
+            center: c(self.center),
+            west: c(self.west),
+            east: c(self.east),
+            south: c(self.south),
+            north: c(self.north),
         }
     }
 
@@ -102,6 +99,41 @@ impl<T: Scalar> Coeffs5<T> {
             Side::East => &mut self.east,
             Side::South => &mut self.south,
             Side::North => &mut self.north,
+        }
+    }
+}
+
+impl Coeffs5<f64> {
+    /// Row `(i, j)` of the standard 5-point Laplacian `4φ_k − Σ φ_nb` (unit spacing) with zero
+    /// (Dirichlet) values just outside the grid: couplings that would point off the grid are
+    /// left out. The model problem of the iterative-methods literature.
+    ///
+    /// An `f64` row, so that a closure building on it needs no type annotation (`c.center +=
+    /// k[i]` works as written); for `f32` write `Coeffs5::laplacian(grid, i, j).cast()`.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(5, 5)?;
+    /// let c = Coeffs5::laplacian(grid, 2, 2);
+    /// assert_eq!((c.center, c.west, c.north), (4.0, -1.0, -1.0));
+    /// // Inside a closure, with the row changed before it is returned:
+    /// let k = vec![0.5; grid.cells()];
+    /// let op = ClosureStencil::new(grid, move |i, j| {
+    ///     let mut c = Coeffs5::laplacian(grid, i, j);
+    ///     c.center = c.center.max(4.0 + k[i + 5 * j]);
+    ///     c
+    /// })?;
+    /// assert_eq!(op.coeffs(2, 2).center, 4.5);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn laplacian(grid: Grid, i: usize, j: usize) -> Coeffs5<f64> {
+        let edge = |present: bool| if present { -1.0 } else { 0.0 };
+        Coeffs5 {
+            center: 4.0,
+            west: edge(i > 0),
+            east: edge(i + 1 < grid.nx()),
+            south: edge(j > 0),
+            north: edge(j + 1 < grid.ny()),
         }
     }
 }

@@ -289,7 +289,7 @@ impl<T: Scalar> IncompleteCholesky<T> {
     /// ```
     /// use quintet::prelude::*;
     /// let grid = Grid::new(10, 10)?;
-    /// let op: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let op: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j).cast())?;
     /// assert_eq!(IncompleteCholesky::ic0(&op)?.storage_bytes(), 3 * 100 * 4);
     /// # Ok::<(), quintet::Error>(())
     /// ```

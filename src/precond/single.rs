@@ -49,7 +49,7 @@ impl<S: LinearOperator<f32>, P: Preconditioner<f32>> SinglePrecision<S, P> {
     /// ```
     /// use quintet::prelude::*;
     /// let grid = Grid::new(16, 16)?;
-    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j).cast())?;
     /// let jacobi = Jacobi::new(&single)?;
     /// let wrapped = SinglePrecision::new(single, jacobi);
     /// assert_eq!(wrapped.inner().name(), "Jacobi");
@@ -72,7 +72,7 @@ impl<S: LinearOperator<f32>, P: Preconditioner<f32>> SinglePrecision<S, P> {
     /// ```
     /// use quintet::prelude::*;
     /// let grid = Grid::new(4, 4)?;
-    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j).cast())?;
     /// let wrapped = SinglePrecision::new(single, Identity);
     /// assert!(<Identity as Preconditioner<f32>>::is_identity(wrapped.inner()));
     /// # Ok::<(), quintet::Error>(())
@@ -86,7 +86,7 @@ impl<S: LinearOperator<f32>, P: Preconditioner<f32>> SinglePrecision<S, P> {
     /// ```
     /// use quintet::prelude::*;
     /// let grid = Grid::new(4, 4)?;
-    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let single: Banded5<f32> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j).cast())?;
     /// assert_eq!(SinglePrecision::new(single, Identity).operator().len(), 16);
     /// # Ok::<(), quintet::Error>(())
     /// ```
