@@ -68,7 +68,7 @@ impl StopRule for SettledTemperature {
         }
         (p.iteration >= self.limit).then_some(StopReason::IterationLimit)
     }
-    fn iteration_bound(&self) -> Option<usize> {
+    fn iteration_bound(&self, _unknowns: usize) -> Option<usize> {
         Some(self.limit)
     }
 }

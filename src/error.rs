@@ -7,8 +7,10 @@
 //! without converging still hands back everything it computed: the last iterate is left in the
 //! caller's `x`, and the error carries the full [`Report`] ([`Error::report`]).
 
+use std::borrow::Cow;
 use std::fmt;
 
+use crate::format::Sig4;
 use crate::report::Report;
 
 /// What went wrong, without the details (those are on the [`Error`]).
@@ -196,9 +198,14 @@ enum Detail {
     },
     #[error("{what}: {found} entries given, {expected} needed")]
     LengthMismatch {
-        what: &'static str,
+        what: Cow<'static, str>,
         expected: usize,
         found: usize,
+    },
+    #[error("{what} is not set: {how}")]
+    Missing {
+        what: &'static str,
+        how: &'static str,
     },
     #[error("{what} was built for {found}, but the operator has {expected}")]
     GridMismatch {
@@ -208,6 +215,13 @@ enum Detail {
     },
     #[error("cell {cell} is outside the grid of {cells} cells")]
     CellOutOfRange { cell: usize, cells: usize },
+    #[error("cell (i = {i}, j = {j}) is outside the grid of {nx} x {ny} cells")]
+    CoordsOutOfRange {
+        i: usize,
+        j: usize,
+        nx: usize,
+        ny: usize,
+    },
     #[error("{what} at {at} is not finite")]
     NonFinite { what: &'static str, at: Location },
     #[error("center coefficient at {at} is {value}; this method needs it positive")]
@@ -270,9 +284,9 @@ enum Detail {
     PrescribedCellConflict { what: String, at: Location },
     #[error("condition handle {id} does not belong to this model (it has {count} conditions); handles work only with the model that issued them")]
     UnknownCondition { id: usize, count: usize },
-    #[error("the {cells} connected active cells around {at} have no prescribed value, no exchange boundary and no storage, so their level is undetermined; add one of these, or ask for the compatible problem with a fixed mean")]
+    #[error("{}", floating_message(*cells, at))]
     FloatingRegion { at: Location, cells: usize },
-    #[error("the region around {at} has no prescribed value or exchange, and its sources do not balance: net inflow {net_inflow:e} against total source magnitude {total:e}; no steady state exists")]
+    #[error("the region around {at} has no prescribed value or exchange, and its sources do not balance: net inflow {} against a total source magnitude of {} (W for heat, m³/s for groundwater); no steady state exists", Sig4(*net_inflow), Sig4(*total))]
     UnbalancedSources {
         at: Location,
         net_inflow: f64,
@@ -311,6 +325,7 @@ enum Detail {
 pub struct Error {
     detail: Box<Detail>,
     context: Vec<String>,
+    hint: Option<&'static str>,
 }
 
 impl Error {
@@ -318,6 +333,7 @@ impl Error {
         Error {
             detail: Box::new(detail),
             context: Vec::new(),
+            hint: None,
         }
     }
 
@@ -334,12 +350,14 @@ impl Error {
             Detail::Singular { .. } => ErrorKind::Singular,
             Detail::LengthMismatch { .. } => ErrorKind::LengthMismatch,
             Detail::GridMismatch { .. } => ErrorKind::GridMismatch,
-            Detail::CellOutOfRange { .. } => ErrorKind::CellOutOfRange,
+            Detail::CellOutOfRange { .. } | Detail::CoordsOutOfRange { .. } => {
+                ErrorKind::CellOutOfRange
+            }
             Detail::NonFinite { .. } => ErrorKind::NonFinite,
             Detail::NonPositiveCenter { .. } => ErrorKind::NonPositiveCenter,
             Detail::OffGridCoupling { .. } => ErrorKind::OffGridCoupling,
             Detail::Asymmetric { .. } => ErrorKind::Asymmetric,
-            Detail::InvalidSetting { .. } => ErrorKind::InvalidSetting,
+            Detail::InvalidSetting { .. } | Detail::Missing { .. } => ErrorKind::InvalidSetting,
             Detail::NeedsStencil { .. } => ErrorKind::NeedsStencil,
             Detail::NotPositiveDefinite { .. } => ErrorKind::NotPositiveDefinite,
             Detail::PreconditionerNotPositive { .. } => ErrorKind::PreconditionerNotPositive,
@@ -470,7 +488,8 @@ impl Error {
     /// ```
     pub fn subject(&self) -> Option<&str> {
         match &*self.detail {
-            Detail::LengthMismatch { what, .. }
+            Detail::LengthMismatch { what, .. } => Some(what),
+            Detail::Missing { what, .. }
             | Detail::GridMismatch { what, .. }
             | Detail::NonFinite { what, .. }
             | Detail::InvalidSpacing { what, .. }
@@ -494,6 +513,28 @@ impl Error {
     /// ```
     pub fn context(&self) -> &[String] {
         &self.context
+    }
+
+    /// What to check or try, where the crate can tell (for example the symmetry check after a
+    /// CG breakdown).
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(2, 1)?;
+    /// // Positive centers, but indefinite: eigenvalues −1 and 3.
+    /// let op = Banded5::new(grid, vec![1.0, 1.0], vec![0.0, -2.0], vec![-2.0, 0.0], vec![0.0; 2], vec![0.0; 2])?;
+    /// let err = Cg::default().solve(&op, &[1.0, 0.0], &mut [0.0; 2]).unwrap_err();
+    /// assert!(err.hint().is_some_and(|h| h.contains("check_symmetry")));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn hint(&self) -> Option<&str> {
+        self.hint
+    }
+
+    /// The same error with a hint of what to check.
+    pub(crate) fn with_hint(mut self, hint: &'static str) -> Error {
+        self.hint = Some(hint);
+        self
     }
 
     /// The same error, with `what` added to its context.
@@ -520,12 +561,20 @@ impl Error {
         Error::new(Detail::Singular { what, reason })
     }
 
-    pub(crate) fn length(what: &'static str, expected: usize, found: usize) -> Error {
+    pub(crate) fn length(
+        what: impl Into<Cow<'static, str>>,
+        expected: usize,
+        found: usize,
+    ) -> Error {
         Error::new(Detail::LengthMismatch {
-            what,
+            what: what.into(),
             expected,
             found,
         })
+    }
+
+    pub(crate) fn missing(what: &'static str, how: &'static str) -> Error {
+        Error::new(Detail::Missing { what, how })
     }
 
     pub(crate) fn shape_mismatch(what: &'static str, expected: Shape, found: Shape) -> Error {
@@ -538,6 +587,10 @@ impl Error {
 
     pub(crate) fn cell_out_of_range(cell: usize, cells: usize) -> Error {
         Error::new(Detail::CellOutOfRange { cell, cells })
+    }
+
+    pub(crate) fn coords_out_of_range(i: usize, j: usize, nx: usize, ny: usize) -> Error {
+        Error::new(Detail::CoordsOutOfRange { i, j, nx, ny })
     }
 
     pub(crate) fn non_finite(what: &'static str, at: Location) -> Error {
@@ -653,11 +706,24 @@ impl Error {
     }
 }
 
+/// The message of a floating region: an isolated cell is most often a cell whose conductivity
+/// is zero, which is better deactivated.
+fn floating_message(cells: usize, at: &Location) -> String {
+    if cells == 1 {
+        format!("{at} is cut off from its neighbours (no conductance through any face) and has no prescribed value, exchange or storage, so its value is undetermined; if it is outside the conducting body, deactivate it (Model::deactivate), else give it a conductivity")
+    } else {
+        format!("the {cells} connected active cells around {at} have no prescribed value, no exchange boundary and no storage, so their level is undetermined; add one of these, or ask for the compatible problem with a fixed mean (SingularPolicy::FixMean)")
+    }
+}
+
 impl fmt::Display for Error {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
         write!(f, "{}", self.detail)?;
         for what in &self.context {
             write!(f, "; in {what}")?;
+        }
+        if let Some(hint) = self.hint {
+            write!(f, ". {hint}")?;
         }
         Ok(())
     }
@@ -669,6 +735,7 @@ impl fmt::Debug for Error {
             .field("kind", &self.kind())
             .field("detail", &self.detail)
             .field("context", &self.context)
+            .field("hint", &self.hint)
             .finish()
     }
 }

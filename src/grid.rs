@@ -91,8 +91,8 @@ impl Grid {
         self.nx * self.ny
     }
 
-    /// Linear index `i + nx·j` of cell `(i, j)`. The caller keeps `i < nx`, `j < ny`; use
-    /// [`Grid::checked_index`] for untrusted coordinates.
+    /// Linear index `i + nx·j` of cell `(i, j)`. The caller keeps `i < nx`, `j < ny` (checked
+    /// in debug builds); use [`Grid::try_index`] for untrusted coordinates.
     ///
     /// ```
     /// assert_eq!(quintet::Grid::new(10, 10)?.index(3, 2), 23);
@@ -100,7 +100,31 @@ impl Grid {
     /// ```
     #[inline]
     pub fn index(&self, i: usize, j: usize) -> usize {
+        debug_assert!(
+            i < self.nx && j < self.ny,
+            "cell ({i}, {j}) is outside the {} x {} grid",
+            self.nx,
+            self.ny
+        );
         i + self.nx * j
+    }
+
+    /// Linear index of `(i, j)`, or an error naming the cell and the grid.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::CellOutOfRange`](crate::ErrorKind::CellOutOfRange) if `i ≥ nx` or `j ≥ ny`.
+    ///
+    /// ```
+    /// let grid = quintet::Grid::new(10, 5)?;
+    /// assert_eq!(grid.try_index(9, 4)?, 49);
+    /// let err = grid.try_index(10, 0).unwrap_err();
+    /// assert_eq!(err.to_string(), "cell (i = 10, j = 0) is outside the grid of 10 x 5 cells");
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn try_index(&self, i: usize, j: usize) -> Result<usize, Error> {
+        self.checked_index(i, j)
+            .ok_or_else(|| Error::coords_out_of_range(i, j, self.nx, self.ny))
     }
 
     /// Linear index of `(i, j)`, or `None` if the cell is not on the grid.

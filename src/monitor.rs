@@ -8,7 +8,7 @@ use std::time::Instant;
 
 use crate::report::{History, MethodName, Progress, Report, StopReason};
 use crate::scalar::{to_f64, Scalar};
-use crate::stop::StopRule;
+use crate::stop::{iteration_cap, StopRule};
 
 /// Most history entries reserved up front (more are still recorded, with a reallocation).
 const HISTORY_RESERVE_CAP: usize = 1 << 20;
@@ -31,7 +31,7 @@ const HISTORY_RESERVE_CAP: usize = 1 << 20;
 /// let rule = Tolerances::default();
 /// let mut observer = |_: &quintet::Progress<'_>| {};
 /// let r0 = b - a * x;
-/// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, b * b, r0 * r0);
+/// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1, b * b, r0 * r0);
 /// let reason = loop {
 ///     let r = b - a * x;
 ///     x += tau * r;
@@ -53,6 +53,9 @@ pub struct Monitor<'a> {
     iteration: usize,
     change: Option<f64>,
     start: Instant,
+    unknowns: usize,
+    /// The iteration cap behind a rule that has no bound of its own.
+    backstop: Option<usize>,
 }
 
 impl<'a> Monitor<'a> {
@@ -64,7 +67,7 @@ impl<'a> Monitor<'a> {
     /// # use quintet::{Monitor, Progress, Tolerances};
     /// # let rule = Tolerances::default();
     /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
-    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 4.0, 1.0);
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1, 4.0, 1.0);
     /// assert_eq!(monitor.iteration(), 0);
     /// assert_eq!(monitor.residual_norm(), 1.0); // sqrt of r·r
     /// ```
@@ -72,12 +75,15 @@ impl<'a> Monitor<'a> {
         rule: &'a dyn StopRule,
         history: &'a mut Vec<f64>,
         observer: &'a mut dyn FnMut(&Progress<'_>),
+        unknowns: usize,
         rhs_sq: T,
         rr: T,
     ) -> Monitor<'a> {
         history.clear();
-        let want = rule
-            .iteration_bound()
+        let bound = rule.iteration_bound(unknowns);
+        let backstop = bound.is_none().then(|| iteration_cap(unknowns));
+        let want = bound
+            .or(backstop)
             .map_or(1024, |b| b.saturating_add(1))
             .min(HISTORY_RESERVE_CAP);
         history.reserve(want);
@@ -92,6 +98,8 @@ impl<'a> Monitor<'a> {
             iteration: 0,
             change: None,
             start: Instant::now(),
+            unknowns,
+            backstop,
         };
         monitor.notify();
         monitor
@@ -104,7 +112,7 @@ impl<'a> Monitor<'a> {
     /// # use quintet::{Monitor, Progress, Tolerances};
     /// # let rule = Tolerances::default();
     /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
-    /// let done = Monitor::start(&rule, &mut history, &mut observer, 1.0, 0.0);
+    /// let done = Monitor::start(&rule, &mut history, &mut observer, 1, 1.0, 0.0);
     /// assert_eq!(done.check(), Some(quintet::StopReason::ExactSolution));
     /// ```
     pub fn check(&self) -> Option<StopReason> {
@@ -115,7 +123,11 @@ impl<'a> Monitor<'a> {
         if progress.residual_norm == 0.0 {
             return Some(StopReason::ExactSolution);
         }
-        self.rule.check(&progress)
+        self.rule.check(&progress).or_else(|| {
+            self.backstop
+                .is_some_and(|cap| self.iteration >= cap)
+                .then_some(StopReason::IterationLimit)
+        })
     }
 
     /// Record one more iteration with its `r·r` and largest solution change, call the
@@ -125,7 +137,7 @@ impl<'a> Monitor<'a> {
     /// # use quintet::{Monitor, Progress, Tolerances};
     /// # let rule = Tolerances::default();
     /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
-    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1, 1.0, 1.0);
     /// assert_eq!(monitor.record(1e-20, Some(0.5)), Some(quintet::StopReason::RelativeResidualMet));
     /// assert_eq!(monitor.iteration(), 1);
     /// ```
@@ -144,7 +156,7 @@ impl<'a> Monitor<'a> {
     /// # use quintet::{Monitor, Progress, Tolerances};
     /// # let rule = Tolerances::default();
     /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
-    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1, 1.0, 1.0);
     /// monitor.record(1e-20, None); // a recursively updated residual said "converged"
     /// assert_eq!(monitor.revise(0.25), None); // the true residual says otherwise
     /// ```
@@ -159,7 +171,7 @@ impl<'a> Monitor<'a> {
     /// # use quintet::{Monitor, Progress, Tolerances};
     /// # let rule = Tolerances::default();
     /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
-    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1, 1.0, 1.0);
     /// monitor.set_residual(0.25);
     /// assert_eq!(monitor.residual_norm(), 0.5);
     /// ```
@@ -175,7 +187,7 @@ impl<'a> Monitor<'a> {
     /// # use quintet::{Monitor, Progress, Tolerances};
     /// # let rule = Tolerances::default();
     /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
-    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1, 1.0, 1.0);
     /// monitor.record(0.5, None);
     /// assert_eq!(monitor.iteration(), 1);
     /// ```
@@ -189,7 +201,7 @@ impl<'a> Monitor<'a> {
     /// # use quintet::{Monitor, Progress, Tolerances};
     /// # let rule = Tolerances::default();
     /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
-    /// let monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 9.0);
+    /// let monitor = Monitor::start(&rule, &mut history, &mut observer, 1, 1.0, 9.0);
     /// assert_eq!(monitor.residual_norm(), 3.0);
     /// ```
     pub fn residual_norm(&self) -> f64 {
@@ -202,7 +214,7 @@ impl<'a> Monitor<'a> {
     /// # use quintet::{Monitor, Progress, Tolerances};
     /// # let rule = Tolerances::default();
     /// # let (mut history, mut observer) = (Vec::new(), |_: &Progress<'_>| {});
-    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1.0, 1.0);
+    /// let mut monitor = Monitor::start(&rule, &mut history, &mut observer, 1, 1.0, 1.0);
     /// let reason = monitor.record(1e-20, None).expect("converged");
     /// let report = monitor.finish("my iteration", reason);
     /// assert!(report.converged() && report.history.len() == 2);
@@ -225,25 +237,29 @@ impl<'a> Monitor<'a> {
     }
 
     fn progress(&self) -> Progress<'_> {
-        progress(
-            self.iteration,
-            self.history,
-            self.initial,
-            self.rhs_norm,
-            self.change,
-            self.start,
-        )
+        Progress {
+            iteration: self.iteration,
+            residual_norm: self.history.last().copied().unwrap_or(f64::NAN),
+            initial_residual_norm: self.initial,
+            rhs_norm: self.rhs_norm,
+            solution_change: self.change,
+            history: self.history,
+            elapsed: self.start.elapsed(),
+            unknowns: self.unknowns,
+        }
     }
 
     fn notify(&mut self) {
-        let now = progress(
-            self.iteration,
-            self.history,
-            self.initial,
-            self.rhs_norm,
-            self.change,
-            self.start,
-        );
+        let now = Progress {
+            iteration: self.iteration,
+            residual_norm: self.history.last().copied().unwrap_or(f64::NAN),
+            initial_residual_norm: self.initial,
+            rhs_norm: self.rhs_norm,
+            solution_change: self.change,
+            history: self.history,
+            elapsed: self.start.elapsed(),
+            unknowns: self.unknowns,
+        };
         (self.observer)(&now);
     }
 }
@@ -270,25 +286,6 @@ impl Summary {
             history,
             elapsed: self.elapsed,
         }
-    }
-}
-
-fn progress(
-    iteration: usize,
-    history: &[f64],
-    initial: f64,
-    rhs_norm: f64,
-    change: Option<f64>,
-    start: Instant,
-) -> Progress<'_> {
-    Progress {
-        iteration,
-        residual_norm: history.last().copied().unwrap_or(f64::NAN),
-        initial_residual_norm: initial,
-        rhs_norm,
-        solution_change: change,
-        history,
-        elapsed: start.elapsed(),
     }
 }
 

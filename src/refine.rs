@@ -114,7 +114,7 @@ impl<S: LinearOperator<f32>, P: Preconditioner<f32>> MixedRefinement<S, P> {
     /// ```
     /// use quintet::{prelude::*, MixedRefinement};
     /// let rule = MixedRefinement::<Banded5<f32>, Identity>::inner_rule();
-    /// assert_eq!(rule.iteration_bound(), Some(2000));
+    /// assert_eq!(rule.iteration_bound(100), Some(2000));
     /// ```
     pub fn inner_rule() -> AnyOf {
         AnyOf::new()

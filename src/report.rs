@@ -309,8 +309,9 @@ pub enum StopReason {
     /// The true residual stopped falling while the recursively updated one kept going: rounding
     /// limits the attainable accuracy (about `ε·‖A‖·‖x‖`) above the requested tolerance.
     RoundingFloor,
-    /// The residual grew past the divergence factor.
-    Diverged,
+    /// The residual grew past the allowed factor of its initial value
+    /// ([`Growth`](crate::stop::Growth)).
+    ResidualGrew,
     /// The residual (or a quantity of the iteration) became NaN or infinite.
     NonFinite,
     /// The iteration could not continue (for CG: `p·Ap ≤ 0` or `r·z ≤ 0`).
@@ -330,7 +331,7 @@ impl StopReason {
     /// ```
     /// use quintet::StopReason;
     /// assert!(StopReason::Custom { converged: true, label: "budget closed" }.converged());
-    /// assert!(!StopReason::Diverged.converged());
+    /// assert!(!StopReason::ResidualGrew.converged());
     /// ```
     pub fn converged(&self) -> bool {
         match self {
@@ -360,7 +361,7 @@ impl fmt::Display for StopReason {
             StopReason::RoundingFloor => {
                 "true residual stopped falling: rounding limits the accuracy above the tolerance"
             }
-            StopReason::Diverged => "residual diverged",
+            StopReason::ResidualGrew => "residual grew past the allowed factor",
             StopReason::NonFinite => "non-finite value in the iteration",
             StopReason::Breakdown => "breakdown of the iteration",
             StopReason::Custom { label, .. } => label,
@@ -383,6 +384,7 @@ impl fmt::Display for StopReason {
 ///     solution_change: Some(0.5),
 ///     history: &history,
 ///     elapsed: Duration::ZERO,
+///     unknowns: 3,
 /// };
 /// assert_eq!(p.relative_residual(), 0.001);
 /// assert_eq!(p.reduction(), 0.01);
@@ -404,6 +406,8 @@ pub struct Progress<'a> {
     pub history: &'a [f64],
     /// Wall-clock time since the solve started.
     pub elapsed: Duration,
+    /// Number of unknowns of the system (cells, fixed ones included).
+    pub unknowns: usize,
 }
 
 impl Progress<'_> {
@@ -412,7 +416,7 @@ impl Progress<'_> {
     /// ```
     /// # use quintet::Progress;
     /// # let p = Progress { iteration: 0, residual_norm: 2.0, initial_residual_norm: 4.0,
-    /// #     rhs_norm: 0.0, solution_change: None, history: &[], elapsed: Default::default() };
+    /// #     rhs_norm: 0.0, solution_change: None, history: &[], elapsed: Default::default(), unknowns: 100 };
     /// assert_eq!(p.relative_residual(), 0.5); // rhs is zero: relative to the initial residual
     /// ```
     pub fn relative_residual(&self) -> f64 {
@@ -428,7 +432,7 @@ impl Progress<'_> {
     /// ```
     /// # use quintet::Progress;
     /// # let p = Progress { iteration: 0, residual_norm: 2.0, initial_residual_norm: 4.0,
-    /// #     rhs_norm: 1.0, solution_change: None, history: &[], elapsed: Default::default() };
+    /// #     rhs_norm: 1.0, solution_change: None, history: &[], elapsed: Default::default(), unknowns: 100 };
     /// assert_eq!(p.reduction(), 0.5);
     /// ```
     pub fn reduction(&self) -> f64 {

@@ -5,16 +5,56 @@
 //! iteration (a warm start may already be good enough) and after every iteration. A non-finite
 //! residual always stops the solve, whatever the rule.
 //!
-//! [`Tolerances`] is the default: relative residual `‖r‖₂ ≤ 10⁻⁸·‖b‖₂`, at most 10 000
-//! iterations, and divergence when `‖r‖₂` exceeds 10⁸ times its initial value. Build others
-//! from the rules in this module and the [`AnyOf`] / [`AllOf`] combinators, or write a closure
-//! ([`RuleFn`]).
+//! [`Tolerances`] is the default: converged at a relative residual `‖r‖₂ ≤ 10⁻⁸·‖b‖₂` (or an
+//! absolute one, off by default), and an iteration cap that grows with the problem,
+//! [`iteration_cap`]`(n)` for `n` unknowns, unless a fixed limit is set. Watching for a growing
+//! residual is opt-in ([`Growth`], or [`Tolerances::growth`]). Build other rules from the ones
+//! in this module and the [`AnyOf`] / [`AllOf`] combinators, or write a closure ([`RuleFn`]).
+//! A rule with no iteration bound of its own ([`StopRule::iteration_bound`]) is backed by the
+//! same cap, so no solve runs forever.
+//!
+//! Every rule checks its own settings before the first iteration
+//! ([`StopRule::validate`]): a tolerance that is not positive, a NaN, a limit of zero iterations
+//! are [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) at once, not a solve
+//! that runs to its limit.
 //!
 //! When a rule reports convergence on a residual the driver updated recursively, the driver
 //! recomputes the true residual `b − A·x` and asks again, so a converged report always rests on
 //! the true residual.
 
 pub use crate::report::{Progress, StopReason};
+
+use crate::error::Error;
+
+/// The iteration cap of the default rule set for a system of `unknowns` unknowns:
+/// `max(2000, ⌈40·√unknowns⌉)`.
+///
+/// Unpreconditioned CG needs a number of iterations that grows like the square root of the
+/// condition number, which for a diffusion operator on an `N × N` grid grows like `N`: 40
+/// iterations per √(cells) (5 120 at 128², 40 960 at 1024²) leaves room for plain CG on the
+/// crate's high-contrast test fields (3 960 iterations at 128², measured), while a
+/// preconditioned solve stops far below it. Steepest descent and Gauss–Seidel need more
+/// (their counts grow like `N²`): give them a fixed limit
+/// ([`SolveOptions::max_iterations`](crate::SolveOptions::max_iterations)).
+///
+/// ```
+/// use quintet::stop::iteration_cap;
+/// assert_eq!(iteration_cap(100), 2000);
+/// assert_eq!(iteration_cap(128 * 128), 5120);
+/// ```
+pub fn iteration_cap(unknowns: usize) -> usize {
+    let root = (unknowns as f64).sqrt();
+    ((40.0 * root).ceil() as usize).max(2000)
+}
+
+/// `Ok` if `value` is finite and positive, else `InvalidSetting` naming `name`.
+fn positive(name: &'static str, value: f64) -> Result<(), Error> {
+    if value.is_finite() && value > 0.0 {
+        Ok(())
+    } else {
+        Err(Error::setting(name, value, "a finite value > 0"))
+    }
+}
 
 /// A stopping rule.
 ///
@@ -37,20 +77,40 @@ pub trait StopRule: Send + Sync {
     /// ```
     /// use quintet::{Progress, StopRule, stop::RelativeResidual};
     /// let p = Progress { iteration: 3, residual_norm: 1e-9, initial_residual_norm: 1.0,
-    ///     rhs_norm: 1.0, solution_change: None, history: &[], elapsed: Default::default() };
+    ///     rhs_norm: 1.0, solution_change: None, history: &[], elapsed: Default::default(), unknowns: 100 };
     /// assert!(RelativeResidual(1e-8).check(&p).is_some());
     /// ```
     fn check(&self, progress: &Progress<'_>) -> Option<StopReason>;
 
-    /// An upper bound on the iterations this rule allows, if it has one. Drivers use it only to
-    /// size the residual history up front.
+    /// An upper bound on the iterations this rule allows on a system of `unknowns` unknowns,
+    /// if it has one. Drivers use it to size the residual history up front; a rule without
+    /// one is backed by [`iteration_cap`].
     ///
     /// ```
     /// use quintet::{StopRule, stop::IterationLimit};
-    /// assert_eq!(IterationLimit(40).iteration_bound(), Some(40));
+    /// assert_eq!(IterationLimit(40).iteration_bound(1000), Some(40));
     /// ```
-    fn iteration_bound(&self) -> Option<usize> {
+    fn iteration_bound(&self, unknowns: usize) -> Option<usize> {
+        let _ = unknowns;
         None
+    }
+
+    /// Check the rule's own settings, once per solve before the first iteration. Default:
+    /// accept.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for a setting the rule
+    /// cannot work with.
+    ///
+    /// ```
+    /// use quintet::{StopRule, stop::RelativeResidual};
+    /// assert!(RelativeResidual(1e-8).validate().is_ok());
+    /// assert!(RelativeResidual(0.0).validate().is_err());
+    /// assert!(RelativeResidual(f64::NAN).validate().is_err());
+    /// ```
+    fn validate(&self) -> Result<(), Error> {
+        Ok(())
     }
 }
 
@@ -68,6 +128,9 @@ impl StopRule for AbsoluteResidual {
     fn check(&self, p: &Progress<'_>) -> Option<StopReason> {
         (p.residual_norm <= self.0).then_some(StopReason::AbsoluteResidualMet)
     }
+    fn validate(&self) -> Result<(), Error> {
+        positive("absolute residual tolerance", self.0)
+    }
 }
 
 /// Converged when `‖r‖₂ ≤ tolerance·‖b‖₂` (see [`Progress::relative_residual`] for `b = 0`).
@@ -83,6 +146,9 @@ pub struct RelativeResidual(pub f64);
 impl StopRule for RelativeResidual {
     fn check(&self, p: &Progress<'_>) -> Option<StopReason> {
         (p.relative_residual() <= self.0).then_some(StopReason::RelativeResidualMet)
+    }
+    fn validate(&self) -> Result<(), Error> {
+        positive("relative residual tolerance", self.0)
     }
 }
 
@@ -100,6 +166,9 @@ pub struct ResidualReduction(pub f64);
 impl StopRule for ResidualReduction {
     fn check(&self, p: &Progress<'_>) -> Option<StopReason> {
         (p.reduction() <= self.0).then_some(StopReason::ResidualReductionMet)
+    }
+    fn validate(&self) -> Result<(), Error> {
+        positive("residual reduction factor", self.0)
     }
 }
 
@@ -123,6 +192,9 @@ impl StopRule for SolutionChange {
             .is_some_and(|c| c <= self.0)
             .then_some(StopReason::SolutionChangeMet)
     }
+    fn validate(&self) -> Result<(), Error> {
+        positive("solution change tolerance", self.0)
+    }
 }
 
 /// Gives up after this many iterations.
@@ -130,7 +202,7 @@ impl StopRule for SolutionChange {
 /// ```
 /// use quintet::{Progress, StopRule, stop::IterationLimit};
 /// let p = Progress { iteration: 5, residual_norm: 1.0, initial_residual_norm: 1.0,
-///     rhs_norm: 1.0, solution_change: None, history: &[], elapsed: Default::default() };
+///     rhs_norm: 1.0, solution_change: None, history: &[], elapsed: Default::default(), unknowns: 100 };
 /// assert!(IterationLimit(5).check(&p).is_some());
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -140,8 +212,18 @@ impl StopRule for IterationLimit {
     fn check(&self, p: &Progress<'_>) -> Option<StopReason> {
         (p.iteration >= self.0).then_some(StopReason::IterationLimit)
     }
-    fn iteration_bound(&self) -> Option<usize> {
+    fn iteration_bound(&self, _unknowns: usize) -> Option<usize> {
         Some(self.0)
+    }
+    fn validate(&self) -> Result<(), Error> {
+        match self.0 {
+            0 => Err(Error::setting(
+                "iteration limit",
+                0.0,
+                "at least 1 iteration",
+            )),
+            _ => Ok(()),
+        }
     }
 }
 
@@ -152,7 +234,7 @@ impl StopRule for IterationLimit {
 /// use quintet::{Progress, StopRule, stop::Stagnation};
 /// let h = [1.0, 0.9, 0.9, 0.9];
 /// let p = Progress { iteration: 3, residual_norm: 0.9, initial_residual_norm: 1.0,
-///     rhs_norm: 1.0, solution_change: None, history: &h, elapsed: Default::default() };
+///     rhs_norm: 1.0, solution_change: None, history: &h, elapsed: Default::default(), unknowns: 100 };
 /// assert!(Stagnation { window: 2, min_reduction: 0.01 }.check(&p).is_some());
 /// assert!(Stagnation { window: 3, min_reduction: 0.01 }.check(&p).is_none());
 /// ```
@@ -178,44 +260,73 @@ impl StopRule for Stagnation {
             .fold(f64::INFINITY, f64::min); // local: norms already global
         (best > (1.0 - self.min_reduction) * then).then_some(StopReason::Stagnated)
     }
-}
-
-/// Gives up when `‖r‖₂ > factor·‖r₀‖₂`.
-///
-/// ```
-/// use quintet::{Progress, StopRule, stop::Divergence};
-/// let p = Progress { iteration: 9, residual_norm: 1e9, initial_residual_norm: 1.0,
-///     rhs_norm: 1.0, solution_change: None, history: &[], elapsed: Default::default() };
-/// assert!(Divergence(1e8).check(&p).is_some());
-/// ```
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Divergence(pub f64);
-
-impl StopRule for Divergence {
-    fn check(&self, p: &Progress<'_>) -> Option<StopReason> {
-        (p.residual_norm > self.0 * p.initial_residual_norm).then_some(StopReason::Diverged)
+    fn validate(&self) -> Result<(), Error> {
+        if self.window == 0 {
+            return Err(Error::setting(
+                "stagnation window",
+                0.0,
+                "at least 1 iteration",
+            ));
+        }
+        match self.min_reduction {
+            r if (0.0..1.0).contains(&r) => Ok(()),
+            r => Err(Error::setting(
+                "stagnation min_reduction",
+                r,
+                "0 <= min_reduction < 1",
+            )),
+        }
     }
 }
 
-/// The default rule set: converged when `‖r‖₂ ≤ max(absolute, relative·‖b‖₂)`; gives up at
-/// `max_iterations` or when `‖r‖₂ > divergence·‖r₀‖₂`.
+/// Gives up when the residual has grown: `‖r‖₂ > factor·‖r₀‖₂`. Opt-in (the default rule set
+/// does not watch for growth unless [`Tolerances::growth`] is set): a Krylov residual may rise
+/// for a while before it falls, and a factor too small would stop a good solve.
+///
+/// ```
+/// use quintet::{Progress, StopReason, StopRule, stop::Growth};
+/// let p = Progress { iteration: 9, residual_norm: 1e9, initial_residual_norm: 1.0,
+///     rhs_norm: 1.0, solution_change: None, history: &[], elapsed: Default::default(), unknowns: 100 };
+/// assert_eq!(Growth(1e8).check(&p), Some(StopReason::ResidualGrew));
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct Growth(pub f64);
+
+impl StopRule for Growth {
+    fn check(&self, p: &Progress<'_>) -> Option<StopReason> {
+        (p.residual_norm > self.0 * p.initial_residual_norm).then_some(StopReason::ResidualGrew)
+    }
+    fn validate(&self) -> Result<(), Error> {
+        if self.0 > 1.0 && !self.0.is_nan() {
+            Ok(())
+        } else {
+            Err(Error::setting("growth factor", self.0, "a factor > 1"))
+        }
+    }
+}
+
+/// The default rule set: converged when `‖r‖₂ ≤ relative·‖b‖₂` or `‖r‖₂ ≤ absolute`; gives up
+/// at the iteration limit — `max_iterations` if set, else [`iteration_cap`] of the problem's
+/// size — and, only if `growth` is set, when `‖r‖₂ > growth·‖r₀‖₂`.
 ///
 /// ```
 /// use quintet::Tolerances;
 /// let t = Tolerances::default();
-/// assert_eq!((t.relative, t.absolute, t.max_iterations), (1e-8, 0.0, 10_000));
+/// assert_eq!((t.relative, t.absolute), (1e-8, 0.0));
+/// assert_eq!((t.max_iterations, t.growth), (None, None));
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[non_exhaustive]
 pub struct Tolerances {
-    /// Relative tolerance on `‖r‖₂ / ‖b‖₂`. Default `1e-8`.
+    /// Relative tolerance on `‖r‖₂ / ‖b‖₂`, > 0. Default `1e-8`.
     pub relative: f64,
-    /// Absolute tolerance on `‖r‖₂`, in rhs units. Default `0` (off).
+    /// Absolute tolerance on `‖r‖₂`, in rhs units, >= 0. Default `0` (off).
     pub absolute: f64,
-    /// Iteration limit. Default 10 000.
-    pub max_iterations: usize,
-    /// Divergence factor on `‖r‖₂ / ‖r₀‖₂`. Default `1e8`.
-    pub divergence: f64,
+    /// A fixed iteration limit (at least 1). Default `None`: [`iteration_cap`] of the number of
+    /// unknowns.
+    pub max_iterations: Option<usize>,
+    /// Stop when `‖r‖₂` grows past this factor of `‖r₀‖₂` (> 1). Default `None` (off).
+    pub growth: Option<f64>,
 }
 
 impl Default for Tolerances {
@@ -223,27 +334,57 @@ impl Default for Tolerances {
         Tolerances {
             relative: 1e-8,
             absolute: 0.0,
-            max_iterations: 10_000,
-            divergence: 1e8,
+            max_iterations: None,
+            growth: None,
         }
+    }
+}
+
+impl Tolerances {
+    /// The iteration limit on a system of `unknowns` unknowns.
+    ///
+    /// ```
+    /// use quintet::Tolerances;
+    /// assert_eq!(Tolerances::default().limit(10_000), 4000);
+    /// ```
+    pub fn limit(&self, unknowns: usize) -> usize {
+        self.max_iterations
+            .unwrap_or_else(|| iteration_cap(unknowns))
     }
 }
 
 impl StopRule for Tolerances {
     fn check(&self, p: &Progress<'_>) -> Option<StopReason> {
-        if p.residual_norm <= self.absolute {
-            return Some(StopReason::AbsoluteResidualMet);
-        }
         if p.relative_residual() <= self.relative {
             return Some(StopReason::RelativeResidualMet);
         }
-        if p.iteration >= self.max_iterations {
+        if p.residual_norm <= self.absolute {
+            return Some(StopReason::AbsoluteResidualMet);
+        }
+        if p.iteration >= self.limit(p.unknowns) {
             return Some(StopReason::IterationLimit);
         }
-        Divergence(self.divergence).check(p)
+        self.growth.and_then(|g| Growth(g).check(p))
     }
-    fn iteration_bound(&self) -> Option<usize> {
-        Some(self.max_iterations)
+    fn iteration_bound(&self, unknowns: usize) -> Option<usize> {
+        Some(self.limit(unknowns))
+    }
+    fn validate(&self) -> Result<(), Error> {
+        positive("relative tolerance", self.relative)?;
+        if !(self.absolute >= 0.0 && self.absolute.is_finite()) {
+            return Err(Error::setting(
+                "absolute tolerance",
+                self.absolute,
+                "a finite value >= 0 (0 turns it off)",
+            ));
+        }
+        if let Some(limit) = self.max_iterations {
+            IterationLimit(limit).validate()?;
+        }
+        match self.growth {
+            Some(g) => Growth(g).validate(),
+            None => Ok(()),
+        }
     }
 }
 
@@ -286,8 +427,14 @@ impl StopRule for AnyOf {
     fn check(&self, p: &Progress<'_>) -> Option<StopReason> {
         self.0.iter().find_map(|r| r.check(p))
     }
-    fn iteration_bound(&self) -> Option<usize> {
-        self.0.iter().filter_map(|r| r.iteration_bound()).min()
+    fn iteration_bound(&self, unknowns: usize) -> Option<usize> {
+        self.0
+            .iter()
+            .filter_map(|r| r.iteration_bound(unknowns))
+            .min()
+    }
+    fn validate(&self) -> Result<(), Error> {
+        self.0.iter().try_for_each(|r| r.validate())
     }
 }
 
@@ -332,8 +479,17 @@ impl StopRule for AllOf {
         }
         first
     }
-    fn iteration_bound(&self) -> Option<usize> {
-        self.0.iter().filter_map(|r| r.iteration_bound()).max()
+    fn iteration_bound(&self, unknowns: usize) -> Option<usize> {
+        if self.0.is_empty() {
+            return None;
+        }
+        self.0
+            .iter()
+            .map(|r| r.iteration_bound(unknowns))
+            .try_fold(0, |most, bound| bound.map(|b| most.max(b))) // local: member rules
+    }
+    fn validate(&self) -> Result<(), Error> {
+        self.0.iter().try_for_each(|r| r.validate())
     }
 }
 

@@ -10,7 +10,7 @@ mod common;
 
 use common::{laplacian, log_log_slope};
 use quintet::prelude::*;
-use quintet::stop::{IterationLimit, ResidualReduction};
+use quintet::stop::{AnyOf, IterationLimit, ResidualReduction};
 
 use std::f64::consts::PI;
 
@@ -23,10 +23,13 @@ fn sweeps(n: usize, omega: f64, order: SweepOrder, reduction: f64) -> usize {
     let p = laplacian(n, n);
     let op = p.banded();
     let mut x = p.x0.clone();
-    let mut sor = Sor::new(omega)
-        .unwrap()
-        .ordering(order)
-        .with_options(SolveOptions::default().stop_when(ResidualReduction(reduction)));
+    let mut sor = Sor::new(omega).unwrap().ordering(order).with_options(
+        SolveOptions::default().stop_when(
+            AnyOf::new()
+                .or(ResidualReduction(reduction))
+                .or(IterationLimit(1_000_000)),
+        ),
+    );
     sor.solve(&op, &p.rhs, &mut x).unwrap().iterations
 }
 

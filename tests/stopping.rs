@@ -5,7 +5,7 @@ mod common;
 use common::engines::engines;
 use common::{laplacian, random_sdd};
 use quintet::prelude::*;
-use quintet::stop::{AllOf, AnyOf, Divergence, IterationLimit, RuleFn, SolutionChange, Stagnation};
+use quintet::stop::{AllOf, AnyOf, Growth, IterationLimit, RuleFn, SolutionChange, Stagnation};
 
 #[test]
 fn observer_sees_every_iteration_and_the_history_in_every_engine() {
@@ -147,7 +147,7 @@ fn solution_change_rule_stops_sor_and_combines_with_all_of() {
 }
 
 #[test]
-fn divergence_is_reported() {
+fn growth_is_reported_when_asked_for() {
     // Gauss–Seidel on a matrix that is far from diagonally dominant (center 1, couplings −3)
     // diverges (its iteration matrix has spectral radius > 1; common practice).
     let grid = Grid::new(10, 1).unwrap();
@@ -158,13 +158,13 @@ fn divergence_is_reported() {
         ..Coeffs5::default()
     })
     .unwrap();
-    let rule = AnyOf::new().or(Divergence(1e3)).or(IterationLimit(10_000));
+    let rule = AnyOf::new().or(Growth(1e3)).or(IterationLimit(10_000));
     let mut x = vec![0.0; 10];
     let err = Sor::gauss_seidel()
         .with_options(SolveOptions::default().stop_when(rule))
         .solve(&op, &[1.0; 10], &mut x)
         .unwrap_err();
-    assert_eq!(err.report().unwrap().reason, StopReason::Diverged);
+    assert_eq!(err.report().unwrap().reason, StopReason::ResidualGrew);
 }
 
 #[test]

@@ -21,10 +21,12 @@ use refresh::Refresh;
 use crate::blocks::Blocks;
 use crate::error::Error;
 use crate::monitor::{Monitor, Summary};
-use crate::operator::{check_len, locate, require_positive_diagonal, LinearOperator};
+use crate::operator::LinearOperator;
+use crate::operator::{check_len, locate, require_determined_level, require_positive_diagonal};
 use crate::report::{History, MethodName, Progress, Report, StopReason};
 use crate::scalar::{to_f64, Scalar};
 use crate::space::{first_flagged, Space};
+use crate::stencil::check_symmetry;
 use crate::stop::{StopRule, Tolerances};
 
 /// Settings shared by every driver.
@@ -40,7 +42,7 @@ use crate::stop::{StopRule, Tolerances};
 ///
 /// let opts = SolveOptions::default().tolerance(1e-10).max_iterations(500);
 /// assert_eq!(opts.tolerances.relative, 1e-10);
-/// assert_eq!(opts.tolerances.max_iterations, 500);
+/// assert_eq!(opts.tolerances.max_iterations, Some(500));
 /// ```
 #[derive(Clone)]
 #[non_exhaustive]
@@ -55,6 +57,9 @@ pub struct SolveOptions {
     /// from `x` every iteration (SOR, stationary corrections, refinement) need no refresh. The
     /// true residual is always recomputed before a solve is declared converged. Default 50.
     pub residual_refresh: usize,
+    /// Check the operator's symmetry to this relative tolerance before the first iteration
+    /// (see [`SolveOptions::check_symmetry`]). Default `None` (off).
+    pub symmetry_check: Option<f64>,
 }
 
 impl Default for SolveOptions {
@@ -63,6 +68,7 @@ impl Default for SolveOptions {
             tolerances: Tolerances::default(),
             rule: None,
             residual_refresh: 50,
+            symmetry_check: None,
         }
     }
 }
@@ -94,10 +100,30 @@ impl SolveOptions {
     ///
     /// ```
     /// let opts = quintet::SolveOptions::default().max_iterations(42);
-    /// assert_eq!(opts.tolerances.max_iterations, 42);
+    /// assert_eq!(opts.tolerances.max_iterations, Some(42));
     /// ```
     pub fn max_iterations(mut self, limit: usize) -> SolveOptions {
-        self.tolerances.max_iterations = limit;
+        self.tolerances.max_iterations = Some(limit);
+        self
+    }
+
+    /// Check, before the first iteration, that the operator is symmetric to within `rel_tol`
+    /// ([`check_symmetry`](crate::check_symmetry)), in the methods that need a symmetric
+    /// positive definite operator (CG, PCG, steepest descent, multigrid, refinement). Costs one
+    /// pass over the coefficients per solve; applies to operators that are a
+    /// [`Stencil5`](crate::Stencil5). Default: off.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(3, 1)?;
+    /// let lopsided = Banded5::new(grid, vec![2.0; 3], vec![0.0, -1.0, -1.0], vec![-0.5, -1.0, 0.0], vec![0.0; 3], vec![0.0; 3])?;
+    /// let mut cg = Cg::default().with_options(SolveOptions::default().check_symmetry(1e-12));
+    /// let err = cg.solve(&lopsided, &[1.0; 3], &mut [0.0; 3]).unwrap_err();
+    /// assert_eq!(err.kind(), ErrorKind::Asymmetric);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn check_symmetry(mut self, rel_tol: f64) -> SolveOptions {
+        self.symmetry_check = Some(rel_tol);
         self
     }
 
@@ -140,6 +166,7 @@ impl fmt::Debug for SolveOptions {
             .field("tolerances", &self.tolerances)
             .field("rule", &self.rule.as_ref().map(|_| "custom"))
             .field("residual_refresh", &self.residual_refresh)
+            .field("symmetry_check", &self.symmetry_check)
             .finish()
     }
 }
@@ -229,8 +256,8 @@ pub trait IterativeSolver<T: Scalar> {
     /// ```
     /// use quintet::prelude::*;
     /// let mut sor: Box<dyn IterativeSolver<f64>> = Box::new(Sor::new(1.5)?);
-    /// sor.options_mut().tolerances.max_iterations = 100;
-    /// assert_eq!(sor.options().tolerances.max_iterations, 100);
+    /// sor.options_mut().tolerances.max_iterations = Some(100);
+    /// assert_eq!(sor.options().tolerances.max_iterations, Some(100));
     /// # Ok::<(), quintet::Error>(())
     /// ```
     fn options_mut(&mut self) -> &mut SolveOptions;
@@ -353,16 +380,25 @@ pub(crate) enum Breakdown<T> {
     Failed(Error),
 }
 
+/// What a method needs of the operator.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub(crate) enum Requires {
+    /// Positive centers at free cells (the method divides by them): SOR, Stone's iteration.
+    PositiveCenters,
+    /// A symmetric positive definite system: positive centers, not a pure no-flow system, and
+    /// (when [`SolveOptions::symmetry_check`] is set) symmetric couplings.
+    Spd,
+}
+
 /// One iterative method: its set-up and its step. The loop ([`run`]) does the rest.
 pub(crate) trait Method<T: Scalar> {
     /// Work vectors the method needs besides the residual (at least 1: the loop borrows the
     /// first as scratch for the right-hand-side norm).
     fn work_vectors(&self) -> usize;
 
-    /// Whether the method refuses to start on an operator with a non-positive diagonal entry
-    /// at a free cell (every method of an SPD operator, and those that divide by the center).
-    fn needs_positive_diagonal(&self) -> bool {
-        true
+    /// What the method needs of the operator (checked before the first iteration).
+    fn requires(&self) -> Requires {
+        Requires::Spd
     }
 
     /// Set-up before the first step, with the initial residual in `cx.r`.
@@ -421,10 +457,18 @@ pub(crate) fn run_to_end<T: Scalar, M: Method<T> + ?Sized>(
         observer,
     } = task;
     let n = op.len();
+    options.stop_rule().validate()?;
     check_len("rhs", n, rhs.len())?;
     check_len("x", n, x.len())?;
-    if method.needs_positive_diagonal() {
-        require_positive_diagonal(op)?;
+    match method.requires() {
+        Requires::PositiveCenters => require_positive_diagonal(op)?,
+        Requires::Spd => {
+            require_positive_diagonal(op)?;
+            require_determined_level(op)?;
+            if let (Some(tol), Some(stencil)) = (options.symmetry_check, op.as_stencil()) {
+                check_symmetry(stencil, tol)?;
+            }
+        }
     }
     ws.blocks_for(op);
     ws.size_vectors(n, 1 + method.work_vectors().max(1))?;
@@ -456,7 +500,7 @@ pub(crate) fn run_to_end<T: Scalar, M: Method<T> + ?Sized>(
         *history = Arc::new(Vec::new());
     }
     let buffer = Arc::get_mut(history).expect("a fresh or unshared history");
-    let mut monitor = Monitor::start(options.stop_rule(), buffer, observer, bb, rr);
+    let mut monitor = Monitor::start(options.stop_rule(), buffer, observer, n, bb, rr);
     let (ending, summary) = match iterate(method, &mut cx, &mut monitor, options, rr) {
         Ok(ending) => (ending, monitor.close()),
         Err(e) => return Err(e),

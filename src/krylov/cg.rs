@@ -5,7 +5,7 @@ use crate::iterate::{conclude, run_to_end, Breakdown, Context, Method, Residual,
 use crate::iterate::{IterativeSolver, NameCache, SolveOptions, Workspace};
 use crate::precond::{Identity, Preconditioner};
 use crate::scalar::is_positive;
-use crate::{Error, LinearOperator, Progress, Report, Scalar};
+use crate::{Error, ErrorKind, LinearOperator, Progress, Report, Scalar, StopReason};
 
 /// Preconditioned conjugate gradients (Hestenes & Stiefel 1952) for symmetric positive definite
 /// 5-point systems.
@@ -204,7 +204,9 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for Pcg<P> {
             options: &options,
             observer,
         };
-        self.iterate(task).and_then(conclude)
+        self.iterate(task)
+            .and_then(conclude)
+            .map_err(suggest_symmetry_check)
     }
 
     fn options(&self) -> &SolveOptions {
@@ -213,6 +215,29 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for Pcg<P> {
 
     fn options_mut(&mut self) -> &mut SolveOptions {
         &mut self.options
+    }
+}
+
+/// What a CG failure that points at a non-SPD system suggests.
+pub(crate) const SYMMETRY_HINT: &str = "CG needs a symmetric positive definite operator and preconditioner: check_symmetry(&op, 1e-12) names the first pair of cells whose couplings differ, and SolveOptions::check_symmetry makes the solve check it first";
+
+/// `e` with [`SYMMETRY_HINT`] if it is a failure a non-symmetric or indefinite system causes:
+/// a breakdown, a residual that grew, stagnated or became non-finite.
+pub(crate) fn suggest_symmetry_check(e: Error) -> Error {
+    let telling = match e.kind() {
+        ErrorKind::NotPositiveDefinite | ErrorKind::PreconditionerNotPositive => true,
+        ErrorKind::NotConverged => e.report().is_some_and(|r| {
+            matches!(
+                r.reason,
+                StopReason::Stagnated | StopReason::ResidualGrew | StopReason::NonFinite
+            )
+        }),
+        _ => false,
+    };
+    if telling {
+        e.with_hint(SYMMETRY_HINT)
+    } else {
+        e
     }
 }
 

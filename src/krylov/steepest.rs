@@ -1,5 +1,6 @@
 //! Steepest descent with the exact line search.
 
+use super::cg::suggest_symmetry_check;
 use crate::iterate::{run, Breakdown, Context, Method, Residual, Step, Task};
 use crate::iterate::{IterativeSolver, NameCache, SolveOptions, Workspace};
 use crate::scalar::is_positive;
@@ -37,7 +38,7 @@ impl SteepestDescent {
     ///
     /// ```
     /// let sd = quintet::SteepestDescent::new(quintet::SolveOptions::default().max_iterations(50));
-    /// assert_eq!(sd.options.tolerances.max_iterations, 50);
+    /// assert_eq!(sd.options.tolerances.max_iterations, Some(50));
     /// ```
     pub fn new(options: SolveOptions) -> SteepestDescent {
         SteepestDescent {
@@ -88,7 +89,7 @@ impl<T: Scalar> IterativeSolver<T> for SteepestDescent {
             options: &self.options,
             observer,
         };
-        run(&mut DescentStep, &name, task)
+        run(&mut DescentStep, &name, task).map_err(suggest_symmetry_check)
     }
 
     fn options(&self) -> &SolveOptions {

@@ -352,17 +352,22 @@ fn resistance(model: &Model, k: usize, side: Side) -> f64 {
 fn check_medium(model: &Model, transient: bool) -> Result<(), Error> {
     let grid = model.grid();
     if transient && model.storage.is_none() {
-        return Err(Error::setting(
-            "storage",
-            0.0,
-            "storage set with Model::set_storage before a transient run",
+        return Err(Error::missing(
+            "the model's storage",
+            "a transient run needs it; give it with Model::set_storage",
         ));
     }
     let storage = model.storage.as_ref().filter(|_| transient);
+    // An isotropic field is one field: name it so.
+    let x_name = if model.conductivity.is_isotropic() {
+        "conductivity"
+    } else {
+        "x conductivity"
+    };
     let bad = |k: usize| -> Option<Error> {
         let checks = [
             ("thickness", model.geometry.thickness(k), false),
-            ("x conductivity", model.conductivity.x().at(k), true),
+            (x_name, model.conductivity.x().at(k), true),
             ("y conductivity", model.conductivity.y().at(k), true),
             ("storage", storage.map_or(0.0, |s| s.values().at(k)), true),
         ];

@@ -262,7 +262,7 @@ impl Model {
     ) -> Result<ConditionId, Error> {
         let cells = self.checked_cells(cells)?;
         let values = values.into();
-        check_profile(self.grid(), "prescribed value", &cells, &values)?;
+        check_profile(self.grid(), "prescribed value", None, &cells, &values)?;
         Ok(self.push(label, Target::Cells(cells), Spec::Value(values)))
     }
 
@@ -288,12 +288,8 @@ impl Model {
         values: impl Into<Profile>,
     ) -> Result<ConditionId, Error> {
         let values = values.into();
-        check_profile(
-            self.grid(),
-            "prescribed value",
-            &self.geometry.edge(side),
-            &values,
-        )?;
+        let edge = self.geometry.edge(side);
+        check_profile(self.grid(), "prescribed value", Some(side), &edge, &values)?;
         Ok(self.push(label, Target::Edge(side), Spec::Value(values)))
     }
 
@@ -318,7 +314,8 @@ impl Model {
         flux: impl Into<Profile>,
     ) -> Result<ConditionId, Error> {
         let flux = flux.into();
-        check_profile(self.grid(), "edge flux", &self.geometry.edge(side), &flux)?;
+        let edge = self.geometry.edge(side);
+        check_profile(self.grid(), "edge flux", Some(side), &edge, &flux)?;
         Ok(self.push(label, Target::Edge(side), Spec::Flux(flux)))
     }
 
@@ -348,8 +345,15 @@ impl Model {
     ) -> Result<ConditionId, Error> {
         let (coefficient, external) = (coefficient.into(), outside.into());
         let cells = self.geometry.edge(side);
-        check_profile(self.grid(), "exchange coefficient", &cells, &coefficient)?;
-        check_profile(self.grid(), "outside value", &cells, &external)?;
+        let along = Some(side);
+        check_profile(
+            self.grid(),
+            "exchange coefficient",
+            along,
+            &cells,
+            &coefficient,
+        )?;
+        check_profile(self.grid(), "outside value", along, &cells, &external)?;
         check_nonnegative(self.grid(), "exchange coefficient", &cells, &coefficient)?;
         let spec = Spec::Exchange {
             coefficient,
@@ -386,8 +390,14 @@ impl Model {
     ) -> Result<ConditionId, Error> {
         let cells = self.checked_cells(cells)?;
         let (coefficient, external) = (conductance.into(), outside.into());
-        check_profile(self.grid(), "exchange conductance", &cells, &coefficient)?;
-        check_profile(self.grid(), "outside value", &cells, &external)?;
+        check_profile(
+            self.grid(),
+            "exchange conductance",
+            None,
+            &cells,
+            &coefficient,
+        )?;
+        check_profile(self.grid(), "outside value", None, &cells, &external)?;
         check_nonnegative(self.grid(), "exchange conductance", &cells, &coefficient)?;
         let spec = Spec::Exchange {
             coefficient,
@@ -426,6 +436,7 @@ impl Model {
         check_profile(
             self.grid(),
             "point source rate",
+            None,
             &cells,
             &Profile::Uniform(rate),
         )?;

@@ -120,14 +120,6 @@ impl Profile {
             Profile::PerTarget(values) => values.get(n).copied().unwrap_or(f64::NAN),
         }
     }
-
-    /// Check the length against the number of targets.
-    pub(crate) fn check_len(&self, what: &'static str, targets: usize) -> Result<(), Error> {
-        match self {
-            Profile::Uniform(_) => Ok(()),
-            Profile::PerTarget(values) => check_len(what, targets, values.len()),
-        }
-    }
 }
 
 impl From<f64> for Profile {

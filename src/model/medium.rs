@@ -136,7 +136,16 @@ impl Conductivity {
         self.basis
     }
 
+    /// Whether the two directions share one field (made by [`Conductivity::isotropic`] or
+    /// [`Conductivity::transmissivity`]).
+    pub(crate) fn is_isotropic(&self) -> bool {
+        self.x == self.y
+    }
+
     pub(crate) fn check_len(&self, grid: Grid) -> Result<(), Error> {
+        if self.is_isotropic() {
+            return self.x.check_len("conductivity", grid);
+        }
         self.x.check_len("x conductivity", grid)?;
         self.y.check_len("y conductivity", grid)
     }

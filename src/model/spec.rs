@@ -160,14 +160,24 @@ impl Condition {
     }
 }
 
-/// `values` has one entry per cell of `cells` (or is uniform) and every entry is finite.
+/// `values` has one entry per cell of `cells` — the cells along the edge `along`, or the
+/// listed cells — (or is uniform) and every entry is finite.
 pub(crate) fn check_profile(
     grid: Grid,
     what: &'static str,
+    along: Option<Side>,
     cells: &[usize],
     values: &Profile,
 ) -> Result<(), Error> {
-    values.check_len(what, cells.len())?;
+    if let Profile::PerTarget(v) = values {
+        if v.len() != cells.len() {
+            let place = match along {
+                Some(side) => format!("{what} along the {side} edge (one per edge cell)"),
+                None => format!("{what} for the listed cells (one per cell)"),
+            };
+            return Err(Error::length(place, cells.len(), v.len()));
+        }
+    }
     match (0..cells.len()).find(|&n| !values.at(n).is_finite()) {
         Some(n) => Err(Error::non_finite(what, Location::on(grid, cells[n]))),
         None => Ok(()),

@@ -11,7 +11,8 @@ use super::update::{Change, Reassemble};
 use crate::error::Location;
 use crate::operator::check_len;
 use crate::space::total;
-use crate::{Banded5, Error, FixedCells, Grid, IterativeSolver, Report, Stencil5, Workspace};
+use crate::Workspace;
+use crate::{Banded5, Error, FixedCells, Grid, IterativeSolver, Progress, Report, Stencil5};
 
 /// Sources of a floating region must balance to this fraction of their total magnitude.
 pub(crate) const BALANCE_TOLERANCE: f64 = 1e-6;
@@ -208,8 +209,41 @@ impl SteadySystem {
         x: &mut [f64],
         ws: &mut Workspace<f64>,
     ) -> Result<Report, Error> {
+        self.solve_observed(solver, x, ws, &mut |_| {})
+    }
+
+    /// [`solve`](SteadySystem::solve), calling `observer` with the [`Progress`] of the solve
+    /// before the first iteration and after each (a log line, a progress bar).
+    ///
+    /// # Errors
+    ///
+    /// As for [`solve`](SteadySystem::solve).
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Side};
+    /// use quintet::prelude::*;
+    /// # let mut model = Model::new(Geometry::cell_centered(20, 20, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.prescribe_edge("wall", Side::West, 0.0)?;
+    /// # model.volumetric_source("q", 1.0)?;
+    /// let system = model.assemble()?;
+    /// let mut x = system.initial_solution(0.0);
+    /// let mut pcg = Pcg::new(Multigrid::new(system.operator(), MultigridSettings::default())?);
+    /// let mut lines = Vec::new();
+    /// let report = system.solve_observed(&mut pcg, &mut x, &mut Workspace::new(), &mut |p| {
+    ///     lines.push(format!("iteration {}: |r|/|b| = {:.1e}", p.iteration, p.relative_residual()));
+    /// })?;
+    /// assert_eq!(lines.len(), report.iterations + 1);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn solve_observed<S: IterativeSolver<f64> + ?Sized>(
+        &self,
+        solver: &mut S,
+        x: &mut [f64],
+        ws: &mut Workspace<f64>,
+        observer: &mut dyn FnMut(&Progress<'_>),
+    ) -> Result<Report, Error> {
         self.prepare(x)?;
-        let report = solver.solve_with(&self.operator, &self.rhs, x, ws)?;
+        let report = solver.solve_observed(&self.operator, &self.rhs, x, ws, observer)?;
         self.shift_regions(x);
         Ok(report)
     }

@@ -5,7 +5,7 @@
 
 use super::field::Profile;
 use super::medium::{Conductivity, Storage};
-use super::spec::{check_nonnegative, check_profile, ConditionId, Model, Spec};
+use super::spec::{check_nonnegative, check_profile, ConditionId, Model, Spec, Target};
 use crate::Error;
 
 /// One change of a model record.
@@ -47,7 +47,11 @@ impl Change {
                 let condition = model.conditions.get(id.index).ok_or_else(unknown)?;
                 let what = "exchange coefficient";
                 let cells = condition.cells(&model.geometry);
-                check_profile(grid, what, &cells, &coefficient)?;
+                let along = match condition.target {
+                    Target::Edge(side) => Some(side),
+                    _ => None,
+                };
+                check_profile(grid, what, along, &cells, &coefficient)?;
                 check_nonnegative(grid, what, &cells, &coefficient)?;
                 match &mut model.conditions[id.index].spec {
                     Spec::Exchange { coefficient: c, .. } => {

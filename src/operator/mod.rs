@@ -553,10 +553,9 @@ pub(crate) fn locate<T: Scalar>(op: &(impl LinearOperator<T> + ?Sized), k: usize
     Location::of(op.on_grid(), k)
 }
 
-/// `Err(NonPositiveCenter)` for the first free unknown with a diagonal entry that is not
-/// positive, and `Err(Singular)` for a pure no-flow system, as far as the operator knows: the
-/// checks of every method that needs an SPD system.
-pub(crate) fn require_positive_diagonal<T: Scalar>(
+/// `Err(Singular)` for a pure no-flow system (the constant vector in the null space), as far
+/// as the operator knows.
+pub(crate) fn require_determined_level<T: Scalar>(
     op: &(impl LinearOperator<T> + ?Sized),
 ) -> Result<(), Error> {
     if op.constant_in_null_space() {
@@ -565,6 +564,14 @@ pub(crate) fn require_positive_diagonal<T: Scalar>(
             "every row sums to zero and no cell is fixed, so its level is undetermined (any constant can be added to a solution); fix a cell, add a storage or exchange term, or ask the model for the compatible problem (SingularPolicy::FixMean)",
         ));
     }
+    Ok(())
+}
+
+/// `Err(NonPositiveCenter)` for the first free unknown with a diagonal entry that is not
+/// positive, as far as the operator knows.
+pub(crate) fn require_positive_diagonal<T: Scalar>(
+    op: &(impl LinearOperator<T> + ?Sized),
+) -> Result<(), Error> {
     match op.first_nonpositive_diagonal() {
         Some((k, value)) if !is_positive(value) => Err(Error::non_positive_center(
             locate(op, k),

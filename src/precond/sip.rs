@@ -5,7 +5,7 @@
 use super::factor::for_each_eliminated;
 use super::{check_built_for, Preconditioner, WeakPivot};
 use crate::error::Location;
-use crate::iterate::{IterativeSolver, NameCache, SolveOptions, Task, Workspace};
+use crate::iterate::{IterativeSolver, NameCache, Requires, SolveOptions, Task, Workspace};
 use crate::operator::Stencil5;
 use crate::relax::correction_solve;
 use crate::scalar::{is_positive, lit, to_f64};
@@ -220,7 +220,7 @@ impl<T: Scalar> Sip<T> {
     /// let grid = Grid::new(8, 8)?;
     /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
     /// let sip = Sip::new(&op, SipSettings::default())?.with_options(SolveOptions::default().max_iterations(50));
-    /// assert_eq!(sip.options.tolerances.max_iterations, 50);
+    /// assert_eq!(sip.options.tolerances.max_iterations, Some(50));
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn with_options(mut self, options: SolveOptions) -> Sip<T> {
@@ -402,7 +402,13 @@ impl<T: Scalar> IterativeSolver<T> for Sip<T> {
             options: &options,
             observer,
         };
-        correction_solve(task, &name, false, |_, _, r, z| this.solve_lu(r, z))
+        correction_solve(
+            task,
+            &name,
+            false,
+            Requires::PositiveCenters,
+            |_, _, r, z| this.solve_lu(r, z),
+        )
     }
 
     fn options(&self) -> &SolveOptions {

@@ -9,7 +9,7 @@
 //! ([`SolveOptions::residual_refresh`](crate::SolveOptions::residual_refresh), and always before convergence is declared).
 
 use crate::blocks::zero_fixed;
-use crate::iterate::{run, Breakdown, Context, Method, Residual, Step, Task};
+use crate::iterate::{run, Breakdown, Context, Method, Requires, Residual, Step, Task};
 use crate::scalar::is_positive;
 use crate::space::Space;
 use crate::{Error, LinearOperator, MethodName, Report, Scalar};
@@ -17,6 +17,7 @@ use crate::{Error, LinearOperator, MethodName, Report, Scalar};
 /// One correction step; `correct(op, space, r, z)` writes `z = M⁻¹r`.
 struct CorrectionStep<F> {
     energy_step: bool,
+    requires: Requires,
     correct: F,
 }
 
@@ -27,6 +28,10 @@ where
 {
     fn work_vectors(&self) -> usize {
         2
+    }
+
+    fn requires(&self) -> Requires {
+        self.requires
     }
 
     fn step(&mut self, cx: &mut Context<'_, T>, _rr: T) -> Result<Step<T>, Breakdown<T>> {
@@ -67,10 +72,12 @@ pub(crate) fn correction_solve<T: Scalar>(
     task: Task<'_, T>,
     name: &MethodName,
     energy_step: bool,
+    requires: Requires,
     correct: impl FnMut(&dyn LinearOperator<T>, &dyn Space, &[T], &mut [T]),
 ) -> Result<Report, Error> {
     let mut step = CorrectionStep {
         energy_step,
+        requires,
         correct,
     };
     run(&mut step, name, task)

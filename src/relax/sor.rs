@@ -2,7 +2,7 @@
 
 use std::fmt;
 
-use crate::iterate::{run, Breakdown, Context, Method, Residual, Step, Task};
+use crate::iterate::{run, Breakdown, Context, Method, Requires, Residual, Step, Task};
 use crate::iterate::{IterativeSolver, NameCache, SolveOptions, Workspace};
 use crate::operator::Stencil5;
 use crate::{Error, LinearOperator, Progress, Report, Scalar};
@@ -168,6 +168,10 @@ struct SorStep<'a, T> {
 impl<T: Scalar> Method<T> for SorStep<'_, T> {
     fn work_vectors(&self) -> usize {
         1
+    }
+
+    fn requires(&self) -> Requires {
+        Requires::PositiveCenters
     }
 
     fn step(&mut self, cx: &mut Context<'_, T>, _rr: T) -> Result<Step<T>, Breakdown<T>> {

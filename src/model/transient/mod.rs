@@ -27,7 +27,8 @@ use crate::error::Location;
 use crate::operator::check_len;
 use crate::space::first_flagged;
 use crate::{
-    Banded5, Error, FixedCells, Grid, IterativeSolver, Jacobi, Pcg, Report, Stencil5, Workspace,
+    Banded5, Error, FixedCells, Grid, IterativeSolver, Jacobi, Pcg, Progress, Report, Stencil5,
+    Workspace,
 };
 
 /// Crank–Nicolson steps replaced by damped steps (two backward-Euler half steps each) unless
@@ -297,11 +298,39 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
     /// ```
     pub fn step_with(
         &mut self,
+        forcing: impl FnMut(f64, &mut Forcing<'_>) -> Result<(), Error>,
+    ) -> Result<Report, Error> {
+        self.step_observed(forcing, &mut |_| {})
+    }
+
+    /// [`step_with`](Stepper::step_with), calling `observer` with the [`Progress`] of each
+    /// solve of the step (one, or two for a damped Crank–Nicolson step) before its first
+    /// iteration and after each: a progress bar or a log line inside a long step.
+    ///
+    /// # Errors
+    ///
+    /// As for [`step_with`](Stepper::step_with); the error's context names the step and its
+    /// start time.
+    ///
+    /// ```
+    /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
+    /// # let mut model = Model::new(Geometry::cell_centered(16, 16, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.set_storage(Storage::per_area(1.0))?;
+    /// # model.point_source("heater", 100, 1.0)?;
+    /// let mut run = Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 10.0, 0.0, &[0.0; 256])?;
+    /// let mut iterations = 0;
+    /// let report = run.step_observed(|_, _| Ok(()), &mut |p| iterations = p.iteration)?;
+    /// assert_eq!(iterations, report.iterations);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn step_observed(
+        &mut self,
         mut forcing: impl FnMut(f64, &mut Forcing<'_>) -> Result<(), Error>,
+        observer: &mut dyn FnMut(&Progress<'_>),
     ) -> Result<Report, Error> {
         self.x_start.copy_from_slice(&self.x);
         self.levels_start.copy_from_slice(&self.book.levels);
-        let result = self.advance(&mut forcing);
+        let result = self.advance(&mut forcing, observer);
         match result {
             Ok((report, last)) => {
                 std::mem::swap(&mut self.b_prev, &mut self.b_new);
@@ -313,7 +342,8 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
             Err(e) => {
                 self.x.copy_from_slice(&self.x_start);
                 self.book.levels.copy_from_slice(&self.levels_start);
-                Err(e)
+                let (step, t) = (self.steps + 1, self.time);
+                Err(e.while_doing(format!("time step {step} (from t = {t} s)")))
             }
         }
     }

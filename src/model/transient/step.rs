@@ -2,7 +2,7 @@
 
 use super::{LastStep, Stepper, TimeScheme};
 use crate::model::book::Forcing;
-use crate::{Banded5, Coeffs5, Error, Grid, IterativeSolver, Report, Stencil5};
+use crate::{Banded5, Coeffs5, Error, Grid, IterativeSolver, Progress, Report, Stencil5};
 
 /// The conduction operator `A`, seen through the step operator `S/Δt + θ·A`: the couplings
 /// divided by θ (exact for θ = ½ and 1) and the stored center of `A`.
@@ -34,6 +34,7 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
     pub(super) fn advance(
         &mut self,
         forcing: &mut dyn FnMut(f64, &mut Forcing<'_>) -> Result<(), Error>,
+        observer: &mut dyn FnMut(&Progress<'_>),
     ) -> Result<(Report, LastStep), Error> {
         let (t0, dt) = (self.time, self.dt);
         match self.scheme {
@@ -42,7 +43,7 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
                 self.rhs.fill(0.0);
                 self.add_storage_term(false);
                 add_scaled(&mut self.rhs, 1.0, &self.b_new);
-                Ok((self.solve()?, LastStep::Implicit))
+                Ok((self.solve(observer)?, LastStep::Implicit))
             }
             TimeScheme::CrankNicolson if self.steps < self.damped_steps => {
                 // Two backward-Euler half steps: (S/Δt + A/2)·φ = S/Δt·φᵐ + b/2.
@@ -50,14 +51,14 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
                 self.rhs.fill(0.0);
                 self.add_storage_term(false);
                 add_scaled(&mut self.rhs, 0.5, &self.b_new);
-                self.solve()?;
+                self.solve(observer)?;
                 self.x_mid.copy_from_slice(&self.x);
                 self.levels_mid.copy_from_slice(&self.book.levels);
                 self.set_levels(forcing, t0 + dt)?;
                 self.rhs.fill(0.0);
                 self.add_storage_term(true);
                 add_scaled(&mut self.rhs, 0.5, &self.b_new);
-                Ok((self.solve()?, LastStep::HalfSteps))
+                Ok((self.solve(observer)?, LastStep::HalfSteps))
             }
             TimeScheme::CrankNicolson => {
                 // rhs = S/Δt·φⁿ − A·φⁿ/2 + (bⁿ + bⁿ⁺¹)/2, with A·φⁿ taken before the
@@ -74,7 +75,7 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
                 add_scaled(&mut self.rhs, 0.5, &self.b_prev);
                 self.set_levels(forcing, t0 + dt)?;
                 add_scaled(&mut self.rhs, 0.5, &self.b_new);
-                Ok((self.solve()?, LastStep::Trapezoid))
+                Ok((self.solve(observer)?, LastStep::Trapezoid))
             }
         }
     }
@@ -105,9 +106,17 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
         }
     }
 
-    pub(super) fn solve(&mut self) -> Result<Report, Error> {
-        self.solver
-            .solve_with(&self.step_op, &self.rhs, &mut self.x, &mut self.ws)
+    pub(super) fn solve(
+        &mut self,
+        observer: &mut dyn FnMut(&Progress<'_>),
+    ) -> Result<Report, Error> {
+        self.solver.solve_observed(
+            &self.step_op,
+            &self.rhs,
+            &mut self.x,
+            &mut self.ws,
+            observer,
+        )
     }
 
     pub(super) fn write_fixed(&mut self) {

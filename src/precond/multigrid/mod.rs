@@ -50,7 +50,7 @@ use smooth::{red_black_sweep, residual, smooth_from_zero};
 
 use super::{check_built_for, Preconditioner};
 use crate::blocks::Blocks;
-use crate::iterate::{IterativeSolver, NameCache, SolveOptions, Task, Workspace};
+use crate::iterate::{IterativeSolver, NameCache, Requires, SolveOptions, Task, Workspace};
 use crate::operator::Stencil5;
 use crate::relax::correction_solve;
 use crate::space::Space;
@@ -471,7 +471,7 @@ impl<T: Scalar> IterativeSolver<T> for Multigrid<T> {
             options: &options,
             observer,
         };
-        correction_solve(task, &name, energy_step, |_, space, r, z| {
+        correction_solve(task, &name, energy_step, Requires::Spd, |_, space, r, z| {
             self.cycle(fine, space, r, z)
         })
     }
