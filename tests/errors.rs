@@ -323,3 +323,204 @@ fn overflow_mid_solve_stops_as_non_finite() {
     let err = Cg::default().solve(&op, &[1.0; 16], &mut x).unwrap_err();
     assert_eq!(err.report().map(|r| r.reason), Some(StopReason::NonFinite));
 }
+
+// ---- Misuse a new user makes, caught before any work, with a message that helps ----------
+
+/// Settings that cannot work are refused at once: `x` untouched, no iteration run.
+#[test]
+fn impossible_settings_are_refused_before_the_first_iteration() {
+    let op = laplace(Grid::new(8, 8).unwrap());
+    for (options, message) in [
+        (
+            SolveOptions::default().tolerance(0.0),
+            "setting relative tolerance = 0 is not allowed: a finite value > 0",
+        ),
+        (
+            SolveOptions::default().tolerance(-1e-8),
+            "setting relative tolerance = -0.00000001 is not allowed: a finite value > 0",
+        ),
+        (
+            SolveOptions::default().tolerance(f64::NAN),
+            "setting relative tolerance = NaN is not allowed: a finite value > 0",
+        ),
+        (
+            SolveOptions::default().max_iterations(0),
+            "setting iteration limit = 0 is not allowed: at least 1 iteration",
+        ),
+        (
+            SolveOptions::default().absolute_tolerance(-1.0),
+            "setting absolute tolerance = -1 is not allowed: a finite value >= 0 (0 turns it off)",
+        ),
+    ] {
+        let mut x = vec![0.5; 64];
+        let err = Cg::default()
+            .with_options(options)
+            .solve(&op, &[1.0; 64], &mut x)
+            .unwrap_err();
+        assert_eq!(err.kind(), ErrorKind::InvalidSetting);
+        assert_eq!(err.to_string(), message);
+        assert!(err.report().is_none(), "no iteration was run");
+        assert!(x.iter().all(|&v| v == 0.5), "x is untouched");
+    }
+    // A rule of the user's own composition is checked too.
+    let rule = quintet::stop::AnyOf::new().or(quintet::stop::ResidualReduction(0.0));
+    let err = Sor::gauss_seidel()
+        .with_options(SolveOptions::default().stop_when(rule))
+        .solve(&op, &[1.0; 64], &mut [0.0; 64])
+        .unwrap_err();
+    assert_eq!(
+        err.to_string(),
+        "setting residual reduction factor = 0 is not allowed: a finite value > 0"
+    );
+}
+
+/// A grid too large for memory is a typed error before anything is allocated, never an
+/// abort or a capacity-overflow panic.
+#[test]
+fn grids_too_large_for_memory_are_typed_errors() {
+    let err = Grid::new(1 << 33, 1 << 30).unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::TooLarge);
+    assert_eq!(
+        err.to_string(),
+        "a grid of 8589934592 x 1073741824 cells is more than the 1099511627776 cells quintet allows (MAX_CELLS)"
+    );
+    // 10¹⁰ cells: five bands of 80 GB each, more than this machine (or any machine the tests
+    // run on) grants in one piece.
+    let grid = Grid::new(100_000, 100_000).unwrap();
+    let err = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j)).unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::TooLarge);
+    assert_eq!(
+        err.to_string(),
+        "the coefficient bands of 10000000000 cells need 80000000000 bytes, more than the memory available"
+    );
+}
+
+#[test]
+fn a_preconditioner_from_another_grid_is_refused() {
+    let (a, b) = (Grid::new(40, 10).unwrap(), Grid::new(20, 20).unwrap());
+    let jacobi = Jacobi::new(&laplace(a)).unwrap();
+    let mut x = vec![0.0; 400];
+    let err = Pcg::new(jacobi)
+        .solve(&laplace(b), &[1.0; 400], &mut x)
+        .unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::GridMismatch);
+    assert_eq!(
+        err.to_string(),
+        "the preconditioner was built for 40 x 10 cells, but the operator has 20 x 20 cells"
+    );
+    let mg = Multigrid::new(&laplace(a), MultigridSettings::default()).unwrap();
+    let err = Pcg::new(mg)
+        .solve(&laplace(b), &[1.0; 400], &mut x)
+        .unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::GridMismatch);
+}
+
+#[test]
+fn cell_coordinates_off_the_grid_are_named() {
+    let grid = Grid::new(10, 5).unwrap();
+    let err = grid.try_index(3, 5).unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::CellOutOfRange);
+    assert_eq!(
+        err.to_string(),
+        "cell (i = 3, j = 5) is outside the grid of 10 x 5 cells"
+    );
+}
+
+/// A CG breakdown suggests the symmetry check, and the check can run first.
+#[test]
+fn cg_failures_suggest_the_symmetry_check() {
+    let grid = Grid::new(2, 1).unwrap();
+    // Positive centers, symmetric but indefinite (eigenvalues −1 and 3).
+    let op = Banded5::new(
+        grid,
+        vec![1.0, 1.0],
+        vec![0.0, -2.0],
+        vec![-2.0, 0.0],
+        vec![0.0; 2],
+        vec![0.0; 2],
+    )
+    .unwrap();
+    let err = Cg::default()
+        .solve(&op, &[1.0, 0.0], &mut [0.0; 2])
+        .unwrap_err();
+    assert_eq!(
+        err.to_string(),
+        "p·Ap = -1.2e1 at iteration 2: the operator is not symmetric positive definite. CG needs a symmetric positive definite operator and preconditioner: check_symmetry(&op, 1e-12) names the first pair of cells whose couplings differ, and SolveOptions::check_symmetry makes the solve check it first"
+    );
+    // An upwinded (non-symmetric) operator, checked before the first iteration.
+    let grid = Grid::new(6, 1).unwrap();
+    let upwind = Banded5::from_fn(grid, |i, _| Coeffs5 {
+        center: 3.0,
+        west: if i > 0 { -2.0 } else { 0.0 },
+        east: if i < 5 { -0.5 } else { 0.0 },
+        ..Coeffs5::default()
+    })
+    .unwrap();
+    let err = Cg::default()
+        .with_options(SolveOptions::default().check_symmetry(1e-12))
+        .solve(&upwind, &[1.0; 6], &mut [0.0; 6])
+        .unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::Asymmetric);
+    assert_eq!(
+        err.to_string(),
+        "couplings between cell 0 (i = 0, j = 0) and cell 1 differ: -0.5 from the first, -2 from the second"
+    );
+}
+
+#[test]
+fn the_relaxation_estimate_refuses_a_non_symmetric_operator() {
+    let grid = Grid::new(6, 1).unwrap();
+    let upwind = Banded5::from_fn(grid, |i, _| Coeffs5 {
+        center: 3.0,
+        west: if i > 0 { -2.0 } else { 0.0 },
+        east: if i < 5 { -0.5 } else { 0.0 },
+        ..Coeffs5::default()
+    })
+    .unwrap();
+    let err = estimate_relaxation(&upwind, 20).unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::Asymmetric);
+    assert!(err.hint().is_some_and(|h| h.contains("Young's formula")));
+    assert!(err.to_string().ends_with(
+        "estimate_relaxation takes ω from the spectral radius of a symmetric Jacobi iteration (Young's formula), which a non-symmetric operator does not have; for one, run SOR at ω = 1 and a few larger values and compare the reports, or use Stone's SIP"
+    ));
+}
+
+/// A raw system with nothing that fixes its level (no fixed cell, every row sums to zero) is
+/// reported as singular, not as "not positive definite".
+#[test]
+fn a_pure_no_flow_system_is_reported_as_singular() {
+    let grid = Grid::new(6, 5).unwrap();
+    let insulated = Banded5::from_fn(grid, |i, j| {
+        let mut c = Coeffs5::laplacian(grid, i, j);
+        c.center = -(c.west + c.east + c.south + c.north);
+        c
+    })
+    .unwrap();
+    for engine in common::engines::engines() {
+        if engine.name.contains("SOR")
+            || engine.name.contains("Gauss")
+            || engine.name.contains("SIP")
+        {
+            continue; // relaxation needs positive centers only, not a determined level
+        }
+        let mut x = vec![0.0; 30];
+        let err = engine
+            .solver(&insulated, SolveOptions::default())
+            .solve(&insulated, &[0.0; 30], &mut x)
+            .map(|_| ())
+            .err();
+        let Some(err) = err else {
+            // Set-up of the preconditioner refused it first (factorisations and multigrid
+            // meet the zero pivot of a singular matrix).
+            continue;
+        };
+        assert_eq!(err.kind(), ErrorKind::Singular, "{}: {err}", engine.name);
+    }
+    let err = Cg::default()
+        .solve(&insulated, &[0.0; 30], &mut [0.0; 30])
+        .unwrap_err();
+    assert_eq!(
+        err.to_string(),
+        "the system: every row sums to zero and no cell is fixed, so its level is undetermined (any constant can be added to a solution); fix a cell, add a storage or exchange term, or ask the model for the compatible problem (SingularPolicy::FixMean)"
+    );
+}

@@ -260,3 +260,39 @@ fn face_conductance_is_the_harmonic_mean() {
             && e.to_string().contains("deactivate it (Model::deactivate)"))
     );
 }
+
+/// The messages of the mistakes a new model makes say what is wrong and where, in the model's
+/// own terms (the edge, the field, the condition), with numbers a person reads.
+#[test]
+fn model_messages_name_what_to_fix() {
+    // A profile of the wrong length names the edge, not the grid.
+    let mut model = unit_model(4, 6);
+    let err = model
+        .prescribe_edge("wall", Side::West, vec![1.0, 2.0, 3.0])
+        .unwrap_err();
+    assert_eq!(
+        err.to_string(),
+        "prescribed value along the west edge (one per edge cell): 3 entries given, 6 needed"
+    );
+    // An isotropic field is one field: "conductivity", not "x conductivity".
+    let grid = Grid::new(4, 6).unwrap();
+    let k = Field::from_fn(grid, |i, j| if (i, j) == (2, 3) { -1.0 } else { 1.0 });
+    let mut model = Model::new(
+        Geometry::cell_centered(4, 6, 1.0, 1.0, 1.0).unwrap(),
+        Conductivity::isotropic(k),
+    )
+    .unwrap();
+    model.prescribe_edge("wall", Side::West, 0.0).unwrap();
+    assert_eq!(
+        model.assemble().unwrap_err().to_string(),
+        "conductivity at cell 14 (i = 2, j = 3) is -1; it must be finite and >= 0"
+    );
+    // Sources that cannot balance, in four significant digits with units.
+    let mut model = unit_model(5, 1);
+    model.edge_flux("heat in", Side::West, 2.5).unwrap();
+    model.set_singular_policy(SingularPolicy::FixMean(20.0));
+    assert_eq!(
+        model.assemble().unwrap_err().to_string(),
+        "the region around cell 0 (i = 0, j = 0) has no prescribed value or exchange, and its sources do not balance: net inflow 2.500 against a total source magnitude of 2.500 (W for heat, m³/s for groundwater); no steady state exists"
+    );
+}
