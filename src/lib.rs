@@ -9,18 +9,30 @@
 //! You describe the operator; quintet never assembles a sparse matrix.
 //!
 //! * [`Grid`]: `nx × ny` cells, cell `k = i + nx·j`, `i` east, `j` north.
-//! * [`Stencil5`]: the operator trait (center, west, east, south, north coefficients of a
-//!   cell). Implemented by [`Banded5`] (your five coefficient arrays) and [`ClosureStencil`]
-//!   (a closure computing a cell's coefficients on the fly), or by your own type.
+//! * [`Stencil5`]: the 5-point operator (center, west, east, south, north coefficients of a
+//!   cell). Implemented by [`Banded5`] (your five coefficient arrays), [`Symmetric5`] (three
+//!   arrays of a symmetric operator) and [`ClosureStencil`] (a closure computing a cell's
+//!   coefficients on the fly), or by your own type.
+//! * [`LinearOperator`]: the dimension-free view the Krylov drivers need (`y = A·x`, the
+//!   fixed cells, the diagonal). Every `Stencil5` is one; implement it directly for an operator
+//!   that is not a 5-point stencil.
 //! * [`FixedCells`]: fixed-value (Dirichlet) cells kept in the grid, as finite-difference codes
 //!   do; their values stay as given and their residual is exactly zero.
-//! * Drivers behind one trait, [`IterativeSolver`]: [`SteepestDescent`], [`Pcg`] / [`Cg`],
-//!   [`Sor`] (lexicographic or red-black; Gauss–Seidel at ω = 1) and [`MixedRefinement`]
-//!   (`f32` inner solves, `f64` accuracy).
+//! * Drivers behind one object-safe trait, [`IterativeSolver`]: [`SteepestDescent`], [`Pcg`] /
+//!   [`Cg`], [`Sor`] (lexicographic or red-black; Gauss–Seidel at ω = 1),
+//!   [`MixedRefinement`] (`f32` inner solves, `f64` accuracy), and the standalone [`Sip`] and
+//!   [`Multigrid`] iterations. All of them run through one iteration loop, one [`Monitor`],
+//!   one set of stopping rules ([`stop`]) and end in one [`Report`].
 //! * [`Preconditioner`]s for PCG: [`Identity`], [`Jacobi`], [`Ssor`], [`IncompleteCholesky`]
-//!   (IC(0) and MIC(0)), Stone's [`Sip`] and the geometric [`Multigrid`] V-cycle; [`Sip`] and
-//!   [`Multigrid`] also run as standalone solvers.
-//! * One [`Monitor`], one set of stopping rules ([`stop`]), one [`Report`].
+//!   (IC(0) and MIC(0)), Stone's [`Sip`], the geometric [`Multigrid`] V-cycle, and
+//!   [`SinglePrecision`] to run any of them in `f32`.
+//! * [`space`]: where every global reduction happens and whether kernels use threads
+//!   ([`Workspace::with_threads`], [`Workspace::with_space`]); results are the same bits for
+//!   any thread count.
+//! * [`Error`]: one error type with a [`kind`](Error::kind), the cell as index and `(i, j)`,
+//!   and the [`Report`] of a solve that did not converge.
+//! * [`model`]: conduction and confined-groundwater models assembled into such systems, with
+//!   budgets and time stepping.
 //!
 //! ```
 //! use quintet::prelude::*;
@@ -43,46 +55,44 @@
 //!
 //! Three things decide: whether the operator is symmetric, how far the coefficients jump
 //! between neighbouring cells, and how many cells there are. A model assembled by
-//! [`model`] is always symmetric (harmonic-mean face conductances stored on both sides).
+//! [`model`] is always symmetric (harmonic-mean face conductances stored on both sides). The
+//! iteration counts behind this table are measured in the README's solver and
+//! iteration-count tables (`solver_comparison` and `iterations` examples).
 //!
 //! | symmetric? | coefficient contrast | cells | use | why |
 //! |---|---|---|---|---|
 //! | yes | any | up to 10⁴ | [`Pcg`] + [`Jacobi`], or [`Cg`] | a few hundred iterations at most; nothing to set up or tune |
-//! | yes | any | 10⁴–10⁶ | [`Pcg`] + [`IncompleteCholesky::mic0`] | about 55 iterations at 128² whether the coefficients jump or not; three arrays of storage; iterations grow like `h^{-1/2}` |
-//! | yes | large (10² and up: clay in sand, copper beside an air gap) | 10⁵–10⁷ | [`Pcg`] + [`Multigrid`] | 6–7 iterations at 128², and a count that does not grow with the grid (6 on Poisson at every size to 2048², 13–20 on a contrast-10⁴ field, see [`Multigrid`]) |
+//! | yes | any | 10⁴–10⁶ | [`Pcg`] + [`IncompleteCholesky::mic0`] | about the same count whether the coefficients jump or not; three arrays of storage; iterations grow like `h^{-1/2}` |
+//! | yes | large (10² and up: clay in sand, copper beside an air gap) | 10⁵–10⁷ | [`Pcg`] + [`Multigrid`] | a handful of iterations, and a count that does not grow with the grid (see [`Multigrid`]) |
 //! | yes | small (up to about 10) | 10⁴–10⁷ | [`Pcg`] + [`Ssor`] (ω from the Jacobi radius that [`estimate_relaxation`] finds) or [`IncompleteCholesky::ic0`] | cheap setup; SSOR's count grows like `h^{-1/2}`, IC(0)'s like `h⁻¹` at a third of CG's |
-//! | yes | any | any, memory very tight | [`Pcg`] + [`Jacobi`] | one extra array; the diagonal scaling absorbs much of the contrast (554 iterations against plain CG's 3 960 at contrast 10⁴) |
-//! | yes | any | 10⁶ and up, bandwidth-bound | [`Pcg`] + [`SinglePrecision`]`<`[`Multigrid`]`>` | the V-cycle on an `f32` copy moves half the bytes; Krylov vectors and residuals stay `f64` (1.3–1.4× faster to 10⁻⁸ at 1000²–2000² than the `f64` V-cycle, measured) |
-//! | yes | any | 10⁶ and up, to 10⁻¹² | [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy (1.4–1.6× faster than `f64`, measured at 1000²) |
-//! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`] with [`estimate_relaxation`], or [`Sip`] on its own | both need positive centers only; SOR converges for ω ≤ 1 on diagonally dominant rows (larger ω is usually faster: check the report); red-black SOR parallelises |
-//! | yes | small only | any | [`Pcg`] + [`Sip`] | the symmetrised Stone factor; at contrast 10⁴ it is not positive definite and PCG stops with [`ErrorKind::PreconditionerNotPositive`] |
+//! | yes | any | any, memory very tight | [`Pcg`] + [`Jacobi`] | one extra array; the diagonal scaling absorbs much of the contrast |
+//! | yes | any | 10⁶ and up, bandwidth-bound | [`Pcg`] + [`SinglePrecision`] with a [`Multigrid`] on an `f32` copy | the V-cycle moves half the bytes; Krylov vectors and residuals stay `f64` |
+//! | yes | any | 10⁶ and up, to 10⁻¹² | [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy |
+//! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`], or [`Sip`] on its own | both need positive centers only; SOR converges for ω ≤ 1 on diagonally dominant rows and larger ω is often faster: try a few and compare the reports ([`estimate_relaxation`] is for symmetric operators only, and refuses others) |
+//! | yes | small only | any | [`Pcg`] + [`Sip`] | the symmetrised Stone factor; at high contrast it is not positive definite and PCG stops with [`ErrorKind::PreconditionerNotPositive`] |
 //! | either | — | — | [`Sor::gauss_seidel`] | a smoother, not a solver: iterations grow like `1/h²` |
 //! | yes | — | small | [`SteepestDescent`] | teaching and baselines; iterations grow like `1/h²` |
 //!
-//! Measured with `cargo run --release --example solver_comparison` on 128 × 128 cells, to a
-//! relative residual of 10⁻⁸ from the same start (`--problem poisson` / the default
-//! `lenses`, an aquifer with clay blocks at contrast 10⁴): CG 237 / 3 960 iterations, PCG with
-//! Jacobi 237 / 554, SSOR 49 / 128, IC(0) 99 / 165, MIC(0) 54 / 56, multigrid 6 / 7, SOR with
-//! the estimated ω about 500 / 530, standalone SIP 1 643 / 1 525; Gauss–Seidel needs about
-//! 30 000 / 28 000 and steepest descent 61 442 / more than 200 000.
-//!
 //! ## Stopping rules
 //!
-//! By default a solve stops when `‖r‖₂ ≤ 10⁻⁸·‖b‖₂`, where `b` is the right-hand side of the
-//! free cells (fixed neighbours' contributions moved to it), and gives up after 10 000
-//! iterations or when the residual grows 10⁸-fold ([`Tolerances`]). Replace the rule with
-//! [`SolveOptions::stop_when`]; build rules from [`stop`]'s built-ins (absolute, relative,
-//! reduction from the initial residual, largest solution change, iteration limit, stagnation,
-//! divergence) and their [`AnyOf`](stop::AnyOf) / [`AllOf`](stop::AllOf) combinators, a
-//! closure ([`RuleFn`](stop::RuleFn)), or your own type implementing [`StopRule`].
+//! By default ([`Tolerances`]) a solve has converged when `‖r‖₂ ≤ 10⁻⁸·‖b‖₂`, where `b` is
+//! the right-hand side of the free cells (fixed neighbours' contributions moved to it), and
+//! gives up at an iteration cap that grows with the problem, [`stop::iteration_cap`] of the
+//! number of unknowns, unless [`SolveOptions::max_iterations`] sets a fixed one. An absolute
+//! tolerance and a watch for a growing residual ([`stop::Growth`]) are opt-in. Replace the
+//! rule with [`SolveOptions::stop_when`]; build rules from [`stop`]'s built-ins (absolute,
+//! relative, reduction from the initial residual, largest solution change, iteration limit,
+//! stagnation, growth) and their [`AnyOf`](stop::AnyOf) / [`AllOf`](stop::AllOf) combinators,
+//! a closure ([`RuleFn`](stop::RuleFn)), or your own type implementing [`StopRule`]. A rule
+//! with no limit of its own is backed by the same cap, and a tolerance that is not positive
+//! is refused before the first iteration.
+//!
 //! Convergence is always confirmed on the true residual `b − A·x`, never only on a
 //! recursively updated one. Rounding limits how small the true residual can get (about
-//! `ε·‖A‖·‖x‖`; at 1000² cells of the Poisson problem in `f64`, 1.5·10⁻¹¹ relative, measured): when
-//! the true residual stops falling while the recursive one goes on, the drivers stop with
-//! [`StopReason::RoundingFloor`] rather than iterate to the limit. A solve that does not
-//! converge returns an error carrying its [`Report`], with the last iterate left in `x`. To
-//! watch a solve as it runs (a log line, a
-//! progress bar), pass an observer to
+//! `ε·‖A‖·‖x‖`): when the true residual stops falling while the recursive one goes on, the
+//! drivers stop with [`StopReason::RoundingFloor`] rather than iterate to the limit. A solve
+//! that does not converge returns an error carrying its [`Report`], with the last iterate
+//! left in `x`. To watch a solve as it runs (a log line, a progress bar), pass an observer to
 //! [`IterativeSolver::solve_observed`]: it sees the same [`Progress`] the rule does.
 //!
 //! ```
@@ -104,25 +114,41 @@
 //! # Ok::<(), quintet::Error>(())
 //! ```
 //!
+//! ## Errors
+//!
+//! Every fallible function returns [`Error`]. Bad input is refused before any work with an
+//! error that names the array, the setting or the cell (index and `(i, j)`); a solve that
+//! stops without converging carries its [`Report`] and leaves its last iterate in `x`. Ask
+//! [`Error::kind`] to branch on what happened ([`ErrorKind::is_model`] tells model errors from
+//! solver errors) and [`Error::hint`] for what to check.
+//!
+//! ```
+//! use quintet::prelude::*;
+//!
+//! let grid = Grid::new(20, 20)?;
+//! let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+//! let mut x = vec![0.0; grid.cells()];
+//! let mut cg = Cg::default().with_options(SolveOptions::default().max_iterations(5));
+//! match cg.solve(&op, &vec![1.0; grid.cells()], &mut x) {
+//!     Ok(report) => println!("{report}"),
+//!     Err(e) if e.kind() == ErrorKind::NotConverged => {
+//!         let report = e.report().expect("a solve error carries its report");
+//!         assert_eq!(report.iterations, 5); // and x holds the fifth iterate
+//!     }
+//!     Err(e) => return Err(e),
+//! }
+//! # Ok::<(), quintet::Error>(())
+//! ```
+//!
 //! ## Performance
 //!
 //! The kernels are memory-bound: a banded matrix–vector product moves about 56 bytes per cell
 //! (`f64`), a CG iteration about 128. Products and updates are fused with the dot products the
-//! iteration needs, and reductions run over fixed blocks summed in a fixed order, so results
-//! are bit-identical for any number of threads. The performance report
-//! (`cargo run --release --example perf_report`) measures ratios inside one run; on a shared
-//! 2-core AMD EPYC virtual machine (2026-12-01, README for the full table):
-//!
-//! | figure | measured |
-//! |---|---|
-//! | banded matrix–vector product, model bytes ÷ triad bandwidth | 0.71–0.88 |
-//! | one CG iteration ÷ triad bandwidth | 1.01 |
-//! | CG over a general-purpose CSR matrix ÷ ours, one thread | 1.93 (2.25 with [`Symmetric5`]) |
-//! | sparse direct Cholesky (factor + solve) ÷ MG-PCG to 10⁻⁸, 1000² / 2000² | 8.7 / 11.7 |
-//! | peak memory, sparse direct ÷ MG-PCG, 1500² | 6.1 |
-//! | mixed precision ([`MixedRefinement`]) ÷ f64, to 10⁻¹², CG / MG-PCG | 1.56 / 1.37 |
-//!
-//! For speed on large grids put the multigrid V-cycle in `f32` inside the `f64` PCG
+//! iteration needs, and reductions run over fixed blocks combined in a fixed order, so results
+//! are bit-identical for any number of threads. A warm solve allocates nothing. The README's
+//! performance table gives the measured ratios (each kernel against a memory-bandwidth triad
+//! run beside it, ours against general-purpose alternatives) and the command that reproduces
+//! them. For speed on large grids put the multigrid V-cycle in `f32` inside the `f64` PCG
 //! ([`SinglePrecision`]); for least memory use [`Symmetric5`] storage.
 //!
 //! ## Feature flags
@@ -143,7 +169,9 @@
 //! values, edge fluxes, exchange with an outside value (convection, rivers), wells and
 //! heaters, recharge and heat generation, all in SI units with nothing converted;
 //! harmonic-mean face conductances (Patankar 1980); a flow budget after each solve; backward
-//! Euler or Crank–Nicolson stepping; singular (floating) models detected.
+//! Euler or Crank–Nicolson stepping; singular (floating) models detected. Conductivity,
+//! storage and exchange coefficients change in place after assembly, with the condition
+//! handles kept (calibration runs, nonlinear outer iterations).
 //!
 //! ## Examples
 //!
@@ -157,6 +185,7 @@
 //! * `own_stencil`: your own closure operator with two drivers, a custom stopping rule and an
 //!   observer.
 //! * `cooling`: transient cooling with the model's time stepper and warm starts.
+//! * `iterations`: iteration counts of every driver by grid size, as CSV.
 //! * `solver_comparison`: every driver on one problem, with a convergence plot.
 //!
 //! ## Caution
