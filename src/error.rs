@@ -74,6 +74,12 @@ pub enum ErrorKind {
     UnbalancedSources,
     /// A flow budget does not close to within the caller's threshold.
     BudgetImbalance,
+    /// A file could not be opened, read or written; the message carries the operating
+    /// system's, and the context names the file. Only the `npy` feature reads or writes files.
+    Io,
+    /// A file's contents are not what was asked for: not a `.npy` file, another element type,
+    /// an array that is not 2-D, or fewer values than its header promises.
+    FileFormat,
 }
 
 impl ErrorKind {
@@ -297,6 +303,22 @@ enum Detail {
         imbalance_percent: f64,
         threshold_percent: f64,
     },
+    #[cfg(feature = "npy")]
+    #[error("file access failed: {message}")]
+    Io { message: String },
+    #[cfg(feature = "npy")]
+    #[error("{reason}")]
+    FileFormat { reason: String },
+    #[cfg(feature = "npy")]
+    #[error("the file holds an array of shape ({}, {}), but a grid of {} x {} cells needs shape (ny, nx) = ({}, {}){}",
+        found.0, found.1, expected.0, expected.1, expected.1, expected.0,
+        if *found == (expected.0 as u64, expected.1 as u64) { "; the file looks transposed" } else { "" })]
+    FieldShape {
+        /// `(nx, ny)` of the grid.
+        expected: (usize, usize),
+        /// The file's shape, axis 0 first.
+        found: (u64, u64),
+    },
 }
 
 /// Everything that can go wrong in quintet: an opaque value with a [`kind`](Error::kind), the
@@ -371,6 +393,12 @@ impl Error {
             Detail::FloatingRegion { .. } => ErrorKind::FloatingRegion,
             Detail::UnbalancedSources { .. } => ErrorKind::UnbalancedSources,
             Detail::BudgetImbalance { .. } => ErrorKind::BudgetImbalance,
+            #[cfg(feature = "npy")]
+            Detail::Io { .. } => ErrorKind::Io,
+            #[cfg(feature = "npy")]
+            Detail::FileFormat { .. } => ErrorKind::FileFormat,
+            #[cfg(feature = "npy")]
+            Detail::FieldShape { .. } => ErrorKind::GridMismatch,
         }
     }
 
@@ -702,6 +730,31 @@ impl Error {
         Error::new(Detail::BudgetImbalance {
             imbalance_percent,
             threshold_percent,
+        })
+    }
+
+    /// A failed file operation, keeping the operating system's message.
+    #[cfg(feature = "npy")]
+    pub(crate) fn io(err: &std::io::Error) -> Error {
+        Error::new(Detail::Io {
+            message: err.to_string(),
+        })
+    }
+
+    /// A file whose contents are not what was asked for, saying why.
+    #[cfg(feature = "npy")]
+    pub(crate) fn file_format(reason: impl Into<String>) -> Error {
+        Error::new(Detail::FileFormat {
+            reason: reason.into(),
+        })
+    }
+
+    /// A 2-D array in a file whose shape `found` (axis 0 first) is not `(ny, nx)` of `grid`.
+    #[cfg(feature = "npy")]
+    pub(crate) fn field_shape(grid: crate::Grid, found: (u64, u64)) -> Error {
+        Error::new(Detail::FieldShape {
+            expected: (grid.nx(), grid.ny()),
+            found,
         })
     }
 }

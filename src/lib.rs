@@ -157,9 +157,22 @@
 //!   [`space::PARALLEL_MIN_CELLS`] cells. Set the thread count with `RAYON_NUM_THREADS` or a
 //!   rayon pool; results do not depend on it. Build with `--no-default-features` for a
 //!   serial library without rayon.
+//! * `npy` (off): `interop::read_npy`, `interop::read_npy_grid` and `interop::write_npy`
+//!   read and write per-cell `f64`/`f32` fields as NumPy `.npy` files of shape `(ny, nx)` in
+//!   C order (`a[j, i] == x[i + nx·j]`: row `j` north, column `i` east), through the `npyz`
+//!   crate. Reading checks the shape against a [`Grid`] (or returns the grid it found), the
+//!   element type and that every value is finite, each with a typed error
+//!   ([`ErrorKind::GridMismatch`], [`ErrorKind::FileFormat`], [`ErrorKind::NonFinite`] naming
+//!   the cell, [`ErrorKind::Io`] keeping the system's message).
+//! * `ndarray` (off): `interop::as_array` and `interop::as_array_mut` view a grid-ordered
+//!   slice as an `ndarray` array of shape `(ny, nx)` without copying (axis 0 = `j`, north;
+//!   axis 1 = `i`, east; `view[[j, i]] == x[i + nx·j]`); `interop::from_array` turns an
+//!   owned 2-D array into its grid and a grid-ordered `Vec`, without copying a
+//!   standard-layout array.
 //!
 //! The examples' plotting, progress-bar and option-parsing crates are dev-dependencies only:
-//! the library itself depends on `num-traits`, `thiserror` and (with `parallel`) `rayon`.
+//! the library itself depends on `num-traits`, `thiserror` and (with `parallel`) `rayon`;
+//! `npy` adds `npyz`, `ndarray` adds `ndarray`.
 //!
 //! ## Models
 //!
@@ -201,6 +214,8 @@ mod blocks;
 mod error;
 mod format;
 mod grid;
+#[cfg(any(feature = "npy", feature = "ndarray"))]
+pub mod interop;
 mod iterate;
 #[cfg(feature = "bench-internals")]
 pub mod kernels;

@@ -187,7 +187,7 @@ pub trait LinearOperator<T: Scalar>: Sync {
     /// use quintet::prelude::*;
     /// let grid = Grid::new(4, 4)?;
     /// let insulated = Banded5::from_fn(grid, |i, j| {
-    ///     let mut c = Coeffs5::laplacian(grid, i, j);
+    ///     let mut c = Coeffs5::<f64>::laplacian(grid, i, j);
     ///     c.center = -(c.west + c.east + c.south + c.north); // no flow through the edges
     ///     c
     /// })?;
@@ -390,7 +390,7 @@ pub trait Stencil5<T: Scalar>: LinearOperator<T> {
     /// ```
     /// use quintet::prelude::*;
     /// let grid = Grid::new(3, 1)?;
-    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::<f64>::laplacian(grid, i, j))?;
     /// assert!(!op.rows_sum_to_zero()); // the zero values outside the grid fix the level
     /// # Ok::<(), quintet::Error>(())
     /// ```
