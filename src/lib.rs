@@ -172,7 +172,10 @@
 //!
 //! The examples' plotting, progress-bar and option-parsing crates are dev-dependencies only:
 //! the library itself depends on `num-traits`, `thiserror` and (with `parallel`) `rayon`;
-//! `npy` adds `npyz`, `ndarray` adds `ndarray`.
+//! `npy` adds `npyz`, `ndarray` adds `ndarray`. The crate itself builds with Rust 1.86
+//! (`rust-version` in `Cargo.toml`); with `npy` on, the newest releases of two crates in
+//! `npyz`'s tree (`pest`, `psm`) ask for Rust 1.88, so on an older compiler let Cargo pick
+//! versions that fit (`CARGO_RESOLVER_INCOMPATIBLE_RUST_VERSIONS=fallback cargo update`).
 //!
 //! ## Models
 //!
