@@ -72,6 +72,9 @@ pub enum ErrorKind {
     UnbalancedSources,
     /// A flow budget does not close to within the caller's threshold.
     BudgetImbalance,
+    /// A group of cells given to a budget names a cell of the wrong sort (a free cell in a
+    /// group of fixed cells, or the reverse) or a cell that another group already holds.
+    BudgetGroup,
 }
 
 impl ErrorKind {
@@ -278,6 +281,12 @@ enum Detail {
         net_inflow: f64,
         total: f64,
     },
+    #[error("budget group \"{group}\" names {at}, {reason}")]
+    BudgetGroup {
+        group: String,
+        at: Location,
+        reason: String,
+    },
     #[error("the flow budget's imbalance is {imbalance_percent:e} %, more than the {threshold_percent} % allowed")]
     BudgetImbalance {
         imbalance_percent: f64,
@@ -353,6 +362,7 @@ impl Error {
             Detail::FloatingRegion { .. } => ErrorKind::FloatingRegion,
             Detail::UnbalancedSources { .. } => ErrorKind::UnbalancedSources,
             Detail::BudgetImbalance { .. } => ErrorKind::BudgetImbalance,
+            Detail::BudgetGroup { .. } => ErrorKind::BudgetGroup,
         }
     }
 
@@ -401,7 +411,8 @@ impl Error {
             | Detail::InactiveCell { at, .. }
             | Detail::PrescribedCellConflict { at, .. }
             | Detail::FloatingRegion { at, .. }
-            | Detail::UnbalancedSources { at, .. } => Some(*at),
+            | Detail::UnbalancedSources { at, .. }
+            | Detail::BudgetGroup { at, .. } => Some(*at),
             Detail::CellOutOfRange { cell, .. } => Some(Location::entry(*cell)),
             _ => None,
         }
@@ -481,6 +492,7 @@ impl Error {
             Detail::InactiveCell { what, .. } | Detail::PrescribedCellConflict { what, .. } => {
                 Some(what)
             }
+            Detail::BudgetGroup { group, .. } => Some(group),
             _ => None,
         }
     }
@@ -642,6 +654,14 @@ impl Error {
             at,
             net_inflow,
             total,
+        })
+    }
+
+    pub(crate) fn budget_group(group: &str, at: Location, reason: String) -> Error {
+        Error::new(Detail::BudgetGroup {
+            group: group.to_string(),
+            at,
+            reason,
         })
     }
 

@@ -52,7 +52,10 @@ impl Grid {
         if nx == 0 || ny == 0 {
             return Err(Error::invalid_grid(nx, ny));
         }
-        if nx.checked_mul(ny).is_none_or(|cells| cells > crate::MAX_CELLS) {
+        if nx
+            .checked_mul(ny)
+            .is_none_or(|cells| cells > crate::MAX_CELLS)
+        {
             return Err(Error::grid_too_large(nx, ny));
         }
         Ok(Grid { nx, ny })
