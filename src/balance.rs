@@ -30,7 +30,8 @@ struct Group {
 ///
 /// * for each **fixed cell**, what holds it at its value: conduction into the model through
 ///   its links to free neighbours, `Σ a_nb·(φ_fixed − φ_free)`, with the free rows'
-///   coefficients;
+///   coefficients (the rows of fixed cells are not part of the solved system and are never
+///   read, so conduction between two fixed cells held at different values is not booked);
 /// * for each **free cell**, its source `b_k − s_k·φ_k` (`s_k` taken as zero when the row sums
 ///   to zero to rounding, 10⁻¹² relative);
 /// * with [`storage`](SystemBudget::storage), each free cell's release from storage over the
