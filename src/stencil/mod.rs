@@ -12,7 +12,8 @@
 //! For diffusion (heat conduction, Darcy flow) the center is positive and the neighbour
 //! couplings are zero or negative. The finite-volume form `a_P·φ_P = Σ a_nb·φ_nb + b`, with
 //! positive neighbour coefficients, maps onto this by `center = a_P`, `west = −a_W`, …, `q = b`;
-//! [`Banded5::from_finite_volume`] does exactly that.
+//! [`Banded5::from_finite_volume`] does exactly that on arrays it takes over, and
+//! [`Banded5View::from_finite_volume`] on arrays you keep, flipping the signs as it reads.
 
 mod banded;
 mod closure;
