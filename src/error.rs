@@ -80,6 +80,9 @@ pub enum ErrorKind {
     /// A file's contents are not what was asked for: not a `.npy` file, another element type,
     /// an array that is not 2-D, or fewer values than its header promises.
     FileFormat,
+    /// A group of cells given to a budget names a cell of the wrong sort (a free cell in a
+    /// group of fixed cells, or the reverse) or a cell that another group already holds.
+    BudgetGroup,
 }
 
 impl ErrorKind {
@@ -298,6 +301,12 @@ enum Detail {
         net_inflow: f64,
         total: f64,
     },
+    #[error("budget group \"{group}\" names {at}, {reason}")]
+    BudgetGroup {
+        group: String,
+        at: Location,
+        reason: String,
+    },
     #[error("the flow budget's imbalance is {imbalance_percent:e} %, more than the {threshold_percent} % allowed")]
     BudgetImbalance {
         imbalance_percent: f64,
@@ -399,6 +408,7 @@ impl Error {
             Detail::FileFormat { .. } => ErrorKind::FileFormat,
             #[cfg(feature = "npy")]
             Detail::FieldShape { .. } => ErrorKind::GridMismatch,
+            Detail::BudgetGroup { .. } => ErrorKind::BudgetGroup,
         }
     }
 
@@ -447,7 +457,8 @@ impl Error {
             | Detail::InactiveCell { at, .. }
             | Detail::PrescribedCellConflict { at, .. }
             | Detail::FloatingRegion { at, .. }
-            | Detail::UnbalancedSources { at, .. } => Some(*at),
+            | Detail::UnbalancedSources { at, .. }
+            | Detail::BudgetGroup { at, .. } => Some(*at),
             Detail::CellOutOfRange { cell, .. } => Some(Location::entry(*cell)),
             _ => None,
         }
@@ -528,6 +539,7 @@ impl Error {
             Detail::InactiveCell { what, .. } | Detail::PrescribedCellConflict { what, .. } => {
                 Some(what)
             }
+            Detail::BudgetGroup { group, .. } => Some(group),
             _ => None,
         }
     }
@@ -723,6 +735,14 @@ impl Error {
             at,
             net_inflow,
             total,
+        })
+    }
+
+    pub(crate) fn budget_group(group: &str, at: Location, reason: String) -> Error {
+        Error::new(Detail::BudgetGroup {
+            group: group.to_string(),
+            at,
+            reason,
         })
     }
 

@@ -213,7 +213,9 @@
 #![deny(missing_docs)]
 #![forbid(unsafe_code)]
 
+mod balance;
 mod blocks;
+mod capacity;
 mod error;
 mod format;
 mod grid;
@@ -236,6 +238,8 @@ pub mod space;
 mod stencil;
 pub mod stop;
 
+pub use balance::SystemBudget;
+pub use capacity::CapacityTerm;
 pub use error::{Error, ErrorKind, Location};
 pub use grid::{Grid, Side};
 pub use iterate::{IterativeSolver, SolveOptions, Workspace};
@@ -251,6 +255,7 @@ pub use refine::MixedRefinement;
 pub use relax::{estimate_relaxation, RelaxationEstimate, Sor, SweepOrder};
 pub use report::{History, MethodName, Progress, Report, StopReason};
 pub use scalar::Scalar;
+pub use stencil::Banded5View;
 pub use stencil::{check_symmetry, Banded5, ClosureStencil, Symmetric5};
 pub use stop::{StopRule, Tolerances};
 
@@ -271,6 +276,7 @@ pub mod prelude {
         SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule, SweepOrder,
         Symmetric5, Tolerances, WeakPivot, Workspace,
     };
+    pub use crate::{Banded5View, CapacityTerm, SystemBudget};
 }
 
 /// The README's code blocks, compiled and run as doctests.

@@ -119,9 +119,26 @@ impl Map<'_> {
                 (level, lines)
             })
             .collect();
+        // On grids finer than the picture, consecutive vertices of an isoline lie less than a
+        // pixel apart, and the bitmap backend's one-pixel lines leave out the last pixel or
+        // two of a segment that falls gently (a shallow isoline comes out dotted or dashed):
+        // draw each line through vertices a few pixels apart, and once more through the
+        // midpoints of its segments, whose middles cover the first pass's joints.
+        let pixel = ((x1 - x0) / plot_w, (y1 - y0) / plot_h);
         for (_, polylines) in &lines {
             for line in polylines {
-                chart.draw_series(LineSeries::new(line.iter().copied(), BLACK.stroke_width(1)))?;
+                let thinned = thin(line, pixel, 4.0);
+                let mut shifted = Vec::with_capacity(thinned.len() + 1);
+                shifted.extend(thinned.first().copied());
+                shifted.extend(
+                    thinned
+                        .windows(2)
+                        .map(|w| (0.5 * (w[0].0 + w[1].0), 0.5 * (w[0].1 + w[1].1))),
+                );
+                shifted.extend(thinned.last().copied());
+                for path in [thinned, shifted] {
+                    chart.draw_series(LineSeries::new(path, BLACK.stroke_width(1)))?;
+                }
             }
         }
         // Label each isoline long enough to carry its value, at its middle.
@@ -224,6 +241,21 @@ pub fn finite_range(values: &[f64]) -> (f64, f64) {
     } else {
         (0.0, 1.0)
     }
+}
+
+/// The vertices of `line` at least `min_px` pixels apart (pixel size `pixel` in data units),
+/// its ends always kept.
+fn thin(line: &[(f64, f64)], pixel: (f64, f64), min_px: f64) -> Vec<(f64, f64)> {
+    let mut kept: Vec<(f64, f64)> = Vec::with_capacity(line.len());
+    for (n, &p) in line.iter().enumerate() {
+        let far = kept
+            .last()
+            .is_none_or(|&(x, y)| ((p.0 - x) / pixel.0).hypot((p.1 - y) / pixel.1) >= min_px);
+        if far || n + 1 == line.len() {
+            kept.push(p);
+        }
+    }
+    kept
 }
 
 /// The point halfway along `line`, if the line is at least `min_len` long.

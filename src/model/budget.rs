@@ -28,6 +28,10 @@ pub enum FlowKind {
     ArealSource,
     /// Sources per unit volume (heat generation).
     VolumetricSource,
+    /// Sources given cell by cell in the right-hand side of a system assembled outside the
+    /// model, net of any part of a row's center beyond the sum of its couplings (an exchange
+    /// folded into the center); see [`SystemBudget`](crate::SystemBudget).
+    CellSource,
     /// Release from (entering) or uptake into (leaving) storage during a time step.
     Storage,
 }
@@ -41,6 +45,7 @@ impl fmt::Display for FlowKind {
             FlowKind::PointSource => "point source",
             FlowKind::ArealSource => "areal source",
             FlowKind::VolumetricSource => "volumetric source",
+            FlowKind::CellSource => "cell source",
             FlowKind::Storage => "storage",
         })
     }

@@ -1,6 +1,7 @@
-//! The 5-point operators: [`Banded5`] (five owned arrays), [`Symmetric5`] (three arrays, for
-//! symmetric operators) and [`ClosureStencil`] (coefficients computed on the fly), all
-//! implementations of [`Stencil5`](crate::Stencil5), with the checks that name a bad cell.
+//! The 5-point operators: [`Banded5`] (five owned arrays), [`Banded5View`] (five borrowed
+//! arrays), [`Symmetric5`] (three arrays, for symmetric operators) and [`ClosureStencil`]
+//! (coefficients computed on the fly), all implementations of [`Stencil5`](crate::Stencil5),
+//! with the checks that name a bad cell.
 //!
 //! Row `k` of `A·φ = q` reads
 //!
@@ -11,18 +12,21 @@
 //! For diffusion (heat conduction, Darcy flow) the center is positive and the neighbour
 //! couplings are zero or negative. The finite-volume form `a_P·φ_P = Σ a_nb·φ_nb + b`, with
 //! positive neighbour coefficients, maps onto this by `center = a_P`, `west = −a_W`, …, `q = b`;
-//! [`Banded5::from_finite_volume`] does exactly that.
+//! [`Banded5::from_finite_volume`] does exactly that on arrays it takes over, and
+//! [`Banded5View::from_finite_volume`] on arrays you keep, flipping the signs as it reads.
 
 mod banded;
 mod closure;
 mod symmetric;
 mod validate;
+mod view;
 
 pub use banded::Banded5;
 pub use closure::ClosureStencil;
 pub use symmetric::Symmetric5;
 pub use validate::check_symmetry;
 pub(crate) use validate::survey;
+pub use view::Banded5View;
 
 use crate::operator::{check_shape, grid_shape, FixedCells};
 use crate::{Error, Grid, Scalar};
