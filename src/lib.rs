@@ -10,7 +10,8 @@
 //!
 //! * [`Grid`]: `nx × ny` cells, cell `k = i + nx·j`, `i` east, `j` north.
 //! * [`Stencil5`]: the 5-point operator (center, west, east, south, north coefficients of a
-//!   cell). Implemented by [`Banded5`] (your five coefficient arrays), [`Symmetric5`] (three
+//!   cell). Implemented by [`Banded5`] (five coefficient arrays it owns), [`Banded5View`]
+//!   (five arrays you keep, in either sign convention, read in place), [`Symmetric5`] (three
 //!   arrays of a symmetric operator) and [`ClosureStencil`] (a closure computing a cell's
 //!   coefficients on the fly), or by your own type.
 //! * [`LinearOperator`]: the dimension-free view the Krylov drivers need (`y = A·x`, the
