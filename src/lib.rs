@@ -110,8 +110,8 @@
 //! (`f64`), a CG iteration about 128. Products and updates are fused with the dot products the
 //! iteration needs, and reductions run over fixed blocks summed in a fixed order, so results
 //! are bit-identical for any number of threads. The performance report
-//! (`cargo run --release --example perf_report`) measures ratios inside one run; on a shared
-//! 2-core AMD EPYC virtual machine (2026-12-01, README for the full table):
+//! (`cargo run --release -p quintet-bench --example perf_report`) measures ratios inside one
+//! run; on a shared 2-core AMD EPYC virtual machine (2026-12-01, README for the full table):
 //!
 //! | figure | measured |
 //! |---|---|
