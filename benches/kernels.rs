@@ -2,7 +2,7 @@
 //! baseline, the vector kernels, and one CG iteration. Throughput is in model bytes
 //! (`support::BYTES_*`), so criterion prints GB/s; compare with the triad in the same run.
 //!
-//! `cargo bench --bench kernels`
+//! `cargo bench -p quintet-bench --bench kernels`
 
 #[path = "support/mod.rs"]
 mod support;

@@ -6,7 +6,7 @@
 //! CG and SOR take thousands of iterations at 2048² (minutes per sample), so they run at 256²
 //! and 1024² only; MIC(0), MG and the direct solver run at all three sizes.
 //!
-//! `cargo bench --bench solves`
+//! `cargo bench -p quintet-bench --bench solves`
 
 #[path = "support/mod.rs"]
 mod support;

@@ -23,7 +23,8 @@
 //! sweep is a contraction in the energy norm, so the V-cycle `B` is symmetric positive
 //! definite (its error operator `I − B·A` has every eigenvalue below 1) and PCG may use it.
 //!
-//! **Measured** (`cargo run --release --example iterations`, `tests/multigrid.rs`): on the
+//! **Measured** (`cargo run --release -p quintet-bench --example iterations`,
+//! `tests/multigrid.rs`): on the
 //! Dirichlet Poisson problem one V(3,3) cycle reduces the residual by a factor of about 0.09,
 //! whatever the grid size, and MG-PCG needs 6 iterations to 10⁻⁸ at every size from 64² to
 //! 2048². On a layered field with blocks (conductivity contrast 10⁴) MG-PCG needs 13–20

@@ -13,11 +13,12 @@
 //! the preconditioner's setup (for SOR and SSOR it includes estimating ω from the Jacobi
 //! spectral radius), `solve_s` the iteration.
 //!
-//! Run with `cargo run --release --example iterations` (n = 64 … 1024); add `--large` for
-//! n = 2048 (multigrid, IC(0) and MIC(0) only at that size, the rest would hit their caps).
+//! Run with `cargo run --release -p quintet-bench --example iterations` (n = 64 … 1024); add
+//! `--large` for n = 2048 (multigrid, IC(0) and MIC(0) only at that size, the rest would hit
+//! their caps).
 
 // The heterogeneous field is the one the multigrid tests use: one definition for both.
-#[path = "../tests/precond_problems/mod.rs"]
+#[path = "../../tests/precond_problems/mod.rs"]
 mod precond_problems;
 
 use std::time::Instant;

@@ -1,12 +1,13 @@
 //! The performance report: every figure a ratio measured inside this one run, so that it holds
 //! on a noisy shared machine where absolute times do not.
 //!
-//! Run with `cargo run --release --example perf_report` (about two minutes). Prints one
-//! `name=value` line per metric, after a few `#` lines describing the machine and the run.
+//! Run with `cargo run --release -p quintet-bench --example perf_report` (about two minutes).
+//! Prints one `name=value` line per metric, after a few `#` lines describing the machine and
+//! the run.
 //! Memory-bandwidth figures use model bytes per cell (see `benches/support/mod.rs`) divided by
 //! the bandwidth of a STREAM-like triad measured in the same process with the same threads.
 
-#[path = "../benches/support/mod.rs"]
+#[path = "../support/mod.rs"]
 mod support;
 
 use std::alloc::{GlobalAlloc, Layout, System};
