@@ -11,8 +11,12 @@ pub enum Reach {
     /// Any symmetric positive definite system (a Krylov method with an SPD preconditioner).
     Spd,
     /// SPD systems whose couplings are all conductances (M-matrices): multigrid's coarse
-    /// operators and the symmetrised SIP factor assume them.
+    /// operators and Stone's factor assume them.
     MMatrix,
+    /// M-matrix systems, with a preconditioner that is not positive definite on every one of
+    /// them (the symmetrised SIP inverse `½·((LU)⁻¹ + (LU)⁻ᵀ)`, see `Sip`'s docs): the solve
+    /// either matches the reference or stops with `PreconditionerNotPositive`, nothing else.
+    MMatrixOrRefuses,
 }
 
 /// A driver, boxed.
@@ -41,6 +45,11 @@ impl Engine {
     /// non-positive).
     pub fn handles(&self, m_matrix: bool) -> bool {
         self.reach == Reach::Spd || m_matrix
+    }
+
+    /// Whether `e` is the one honest refusal this engine is allowed on a problem it handles.
+    pub fn may_refuse_with(&self, e: &Error) -> bool {
+        self.reach == Reach::MMatrixOrRefuses && e.kind() == ErrorKind::PreconditionerNotPositive
     }
 }
 
@@ -74,7 +83,7 @@ pub fn engines() -> Vec<Engine> {
         e("PCG + MIC(0)", Spd, false, |op| {
             boxed(Pcg::new(IncompleteCholesky::mic0(op)?))
         }),
-        e("PCG + symmetrised SIP", MMatrix, false, |op| {
+        e("PCG + symmetrised SIP", MMatrixOrRefuses, false, |op| {
             boxed(Pcg::new(Sip::new(op, SipSettings::default())?))
         }),
         e("PCG + multigrid", MMatrix, false, |op| {
