@@ -76,7 +76,7 @@ impl Default for SipSettings {
 /// like `h⁻²`), and with a fixed `α ≥ 0.97` it diverges there (the divergence rule stops it).
 /// Stone cycled `α` through a sequence of values; this implementation keeps one `α`. As a
 /// PCG preconditioner it needs 33 → 379 iterations from 64² to 1024², between IC(0) and
-/// MIC(0), but on the contrast-10⁴ test field of `examples/iterations.rs` the symmetrised
+/// MIC(0), but on the contrast-10⁴ test field of `benches/examples/iterations.rs` the symmetrised
 /// inverse is not positive definite for any `α > 0` tried (0.3 … 0.92) and PCG stops within a
 /// few iterations. For diffusion problems prefer MIC(0) or multigrid with PCG; results
 /// support, and do not replace, engineering judgement.
