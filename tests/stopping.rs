@@ -1,6 +1,7 @@
 //! Stopping rules, the observer hook, warm starts and fixed cells, through the drivers.
 
 mod common;
+mod precond_problems;
 
 use common::engines::engines;
 use common::{laplacian, random_sdd};
@@ -313,4 +314,19 @@ fn an_unreachable_tolerance_stops_at_the_rounding_floor() {
             (p.free_residual_norm(&x) - report.residual_norm).abs() <= 1e-3 * report.residual_norm
         );
     }
+}
+
+/// The default iteration cap leaves room for plain CG on a high-contrast field: the layered
+/// aquifer of contrast 10⁴ (`precond_problems::heterogeneous`) needs about 75·√n iterations
+/// (measured at 32² … 384²), and default options must let it converge rather than stop it at
+/// a cap that grows more slowly.
+#[test]
+fn default_cap_lets_plain_cg_converge_on_a_contrast_of_ten_thousand() {
+    let (op, rhs, x0) = precond_problems::heterogeneous(96);
+    let mut x = x0;
+    let report = Cg::default()
+        .solve(&op, &rhs, &mut x)
+        .unwrap_or_else(|e| panic!("plain CG with default options: {e}"));
+    assert!(report.converged());
+    assert!(report.iterations < quintet::stop::iteration_cap(op.len()) / 2);
 }
