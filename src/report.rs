@@ -197,7 +197,7 @@ impl PartialEq<&str> for MethodName {
 
 impl fmt::Display for MethodName {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(&self.0)
+        f.pad(&self.0)
     }
 }
 
@@ -348,7 +348,7 @@ impl StopReason {
 
 impl fmt::Display for StopReason {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(match self {
+        f.pad(match self {
             StopReason::AbsoluteResidualMet => "residual below the absolute tolerance",
             StopReason::RelativeResidualMet => "residual below the tolerance relative to the rhs",
             StopReason::ResidualReductionMet => {

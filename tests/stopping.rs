@@ -330,3 +330,25 @@ fn default_cap_lets_plain_cg_converge_on_a_contrast_of_ten_thousand() {
     assert!(report.converged());
     assert!(report.iterations < quintet::stop::iteration_cap(op.len()) / 2);
 }
+
+/// Names printed in a table honour width and alignment (`{:<30}`), as `str` does (common
+/// practice for `Display` of a name: `Formatter::pad`).
+#[test]
+fn names_line_up_in_tables() {
+    let grid = Grid::new(8, 8).unwrap();
+    let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j)).unwrap();
+    let mut x = vec![0.0; grid.cells()];
+    let report = Cg::default()
+        .solve(&op, &vec![1.0; grid.cells()], &mut x)
+        .unwrap();
+    let padded = |shown: String, plain: String| {
+        assert_eq!(shown.trim_end_matches('|').trim_end(), plain);
+        assert_eq!(shown.chars().count(), 61, "{shown:?}");
+    };
+    padded(format!("{:<60}|", report.method), report.method.to_string());
+    padded(format!("{:<60}|", report.reason), report.reason.to_string());
+    padded(format!("{:<60}|", Side::North), Side::North.to_string());
+    padded(format!("{:<60}|", SweepOrder::RedBlack), SweepOrder::RedBlack.to_string());
+    let kind = quintet::model::FlowKind::Exchange;
+    padded(format!("{:<60}|", kind), kind.to_string());
+}

@@ -38,7 +38,7 @@ pub enum FlowKind {
 
 impl fmt::Display for FlowKind {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(match self {
+        f.pad(match self {
             FlowKind::PrescribedValue => "prescribed value",
             FlowKind::PrescribedFlux => "prescribed flux",
             FlowKind::Exchange => "exchange",

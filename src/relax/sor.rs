@@ -24,7 +24,7 @@ pub enum SweepOrder {
 
 impl fmt::Display for SweepOrder {
     fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        f.write_str(match self {
+        f.pad(match self {
             SweepOrder::Lexicographic => "lexicographic",
             SweepOrder::RedBlack => "red-black",
         })
