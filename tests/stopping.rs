@@ -348,7 +348,10 @@ fn names_line_up_in_tables() {
     padded(format!("{:<60}|", report.method), report.method.to_string());
     padded(format!("{:<60}|", report.reason), report.reason.to_string());
     padded(format!("{:<60}|", Side::North), Side::North.to_string());
-    padded(format!("{:<60}|", SweepOrder::RedBlack), SweepOrder::RedBlack.to_string());
+    padded(
+        format!("{:<60}|", SweepOrder::RedBlack),
+        SweepOrder::RedBlack.to_string(),
+    );
     let kind = quintet::model::FlowKind::Exchange;
     padded(format!("{:<60}|", kind), kind.to_string());
 }
