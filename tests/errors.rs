@@ -2,6 +2,7 @@
 //! practice: bad input gets a typed error that names the cell, never a panic).
 
 mod common;
+mod precond_problems;
 
 use quintet::prelude::*;
 use quintet::space::Space;
@@ -423,6 +424,24 @@ fn cell_coordinates_off_the_grid_are_named() {
     assert_eq!(
         err.to_string(),
         "cell (i = 3, j = 5) is outside the grid of 10 x 5 cells"
+    );
+}
+
+/// A preconditioner that is not positive definite is named as the cause, with the ones that
+/// are positive definite by construction, rather than blamed on the operator's symmetry.
+#[test]
+fn an_indefinite_preconditioner_is_named_as_the_cause() {
+    // The layered contrast-10⁴ test aquifer: symmetric, an M-matrix, and the symmetrised SIP
+    // inverse is not positive definite on it (Sip's docs).
+    let (op, rhs, x0) = precond_problems::heterogeneous(64);
+    let mut x = x0;
+    let err = Pcg::new(Sip::new(&op, SipSettings::default()).unwrap())
+        .solve(&op, &rhs, &mut x)
+        .unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::PreconditionerNotPositive);
+    assert_eq!(
+        err.to_string(),
+        "r·z = -4.964143389717679e0 at iteration 1: the preconditioner is not positive definite. PCG needs a preconditioner that is symmetric positive definite for this operator: Jacobi, SSOR, IC(0) and MIC(0) are by construction, the symmetrised SIP inverse is not on every operator; if the operator itself may be non-symmetric, check_symmetry(&op, 1e-12) names the first pair of cells whose couplings differ"
     );
 }
 

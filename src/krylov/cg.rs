@@ -221,11 +221,16 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for Pcg<P> {
 /// What a CG failure that points at a non-SPD system suggests.
 pub(crate) const SYMMETRY_HINT: &str = "CG needs a symmetric positive definite operator and preconditioner: check_symmetry(&op, 1e-12) names the first pair of cells whose couplings differ, and SolveOptions::check_symmetry makes the solve check it first";
 
-/// `e` with [`SYMMETRY_HINT`] if it is a failure a non-symmetric or indefinite system causes:
-/// a breakdown, a residual that grew, stagnated or became non-finite.
+/// What a PCG breakdown in the preconditioner suggests.
+pub(crate) const PRECONDITIONER_HINT: &str = "PCG needs a preconditioner that is symmetric positive definite for this operator: Jacobi, SSOR, IC(0) and MIC(0) are by construction, the symmetrised SIP inverse is not on every operator; if the operator itself may be non-symmetric, check_symmetry(&op, 1e-12) names the first pair of cells whose couplings differ";
+
+/// `e` with [`SYMMETRY_HINT`] if it is a failure a non-symmetric or indefinite system causes
+/// (a breakdown, a residual that grew, stagnated or became non-finite), or with
+/// [`PRECONDITIONER_HINT`] if the preconditioner broke down.
 pub(crate) fn suggest_symmetry_check(e: Error) -> Error {
     let telling = match e.kind() {
-        ErrorKind::NotPositiveDefinite | ErrorKind::PreconditionerNotPositive => true,
+        ErrorKind::PreconditionerNotPositive => return e.with_hint(PRECONDITIONER_HINT),
+        ErrorKind::NotPositiveDefinite => true,
         ErrorKind::NotConverged => e.report().is_some_and(|r| {
             matches!(
                 r.reason,
