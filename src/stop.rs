@@ -347,7 +347,7 @@ impl Tolerances {
     ///
     /// ```
     /// use quintet::Tolerances;
-    /// assert_eq!(Tolerances::default().limit(10_000), 4000);
+    /// assert_eq!(Tolerances::default().limit(10_000), 15_000);
     /// ```
     pub fn limit(&self, unknowns: usize) -> usize {
         self.max_iterations
