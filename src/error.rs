@@ -83,6 +83,9 @@ pub enum ErrorKind {
     /// A group of cells given to a budget names a cell of the wrong sort (a free cell in a
     /// group of fixed cells, or the reverse) or a cell that another group already holds.
     BudgetGroup,
+    /// A model's flow field enters through an edge at a free cell, and no inflow value says
+    /// what the entering fluid carries in there.
+    NoInflowValue,
 }
 
 impl ErrorKind {
@@ -105,6 +108,7 @@ impl ErrorKind {
                 | ErrorKind::FloatingRegion
                 | ErrorKind::UnbalancedSources
                 | ErrorKind::BudgetImbalance
+                | ErrorKind::NoInflowValue
         )
     }
 
@@ -312,6 +316,12 @@ enum Detail {
         imbalance_percent: f64,
         threshold_percent: f64,
     },
+    #[error("the flow field enters the model through the {side} edge at {at} ({} W/K), but no inflow value says what it carries in there; give one with Model::inflow_value", Sig4(*flow))]
+    NoInflowValue {
+        side: crate::Side,
+        at: Location,
+        flow: f64,
+    },
     #[cfg(feature = "npy")]
     #[error("file access failed: {message}")]
     Io { message: String },
@@ -409,6 +419,7 @@ impl Error {
             #[cfg(feature = "npy")]
             Detail::FieldShape { .. } => ErrorKind::GridMismatch,
             Detail::BudgetGroup { .. } => ErrorKind::BudgetGroup,
+            Detail::NoInflowValue { .. } => ErrorKind::NoInflowValue,
         }
     }
 
@@ -458,7 +469,8 @@ impl Error {
             | Detail::PrescribedCellConflict { at, .. }
             | Detail::FloatingRegion { at, .. }
             | Detail::UnbalancedSources { at, .. }
-            | Detail::BudgetGroup { at, .. } => Some(*at),
+            | Detail::BudgetGroup { at, .. }
+            | Detail::NoInflowValue { at, .. } => Some(*at),
             Detail::CellOutOfRange { cell, .. } => Some(Location::entry(*cell)),
             _ => None,
         }
@@ -506,6 +518,7 @@ impl Error {
             Detail::NotPositiveDefinite { curvature, .. } => Some(*curvature),
             Detail::Asymmetric { forward, .. } => Some(*forward),
             Detail::UnbalancedSources { net_inflow, .. } => Some(*net_inflow),
+            Detail::NoInflowValue { flow, .. } => Some(*flow),
             Detail::BudgetImbalance {
                 imbalance_percent, ..
             } => Some(*imbalance_percent),
@@ -744,6 +757,10 @@ impl Error {
             at,
             reason,
         })
+    }
+
+    pub(crate) fn no_inflow_value(side: crate::Side, at: Location, flow: f64) -> Error {
+        Error::new(Detail::NoInflowValue { side, at, flow })
     }
 
     pub(crate) fn budget_imbalance(imbalance_percent: f64, threshold_percent: f64) -> Error {

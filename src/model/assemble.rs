@@ -40,6 +40,8 @@ pub(crate) struct Assembly {
     pub(crate) capacity: Vec<f64>,
     pub(crate) floating: Vec<Region>,
     pub(crate) volumes: Vec<f64>,
+    /// Whether the operator is symmetric (no flow crosses a face between active cells).
+    pub(crate) symmetric: bool,
 }
 
 /// What an assembly found besides the coefficients: the fixed cells and the floating regions.
@@ -48,6 +50,8 @@ pub(crate) struct Found {
     /// Prescribed and inactive cells, in increasing order.
     pub(crate) fixed: Vec<usize>,
     pub(crate) floating: Vec<Region>,
+    /// Whether the operator is symmetric (no flow crosses a face between active cells).
+    pub(crate) symmetric: bool,
 }
 
 /// Assemble `model`; with `transient`, storage is required and anchors regions.
@@ -68,6 +72,7 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
         capacity,
         floating: found.floating,
         volumes: (0..n).map(|k| model.geometry.volume(k)).collect(),
+        symmetric: found.symmetric,
     })
 }
 
@@ -158,6 +163,28 @@ fn fill(
         }
     };
 
+    // The flow field's flow out of `k` through `side` (W/K): through faces between two active
+    // cells and through the grid edge; none at or next to inactive cells.
+    let advection = model.advection.as_ref();
+    let carried = |k: usize, side: Side| -> f64 {
+        match advection {
+            Some(a) if model.active[k] => match grid.neighbour(k, side) {
+                Some(nb) if !model.active[nb] => 0.0,
+                _ => a.flows.out_through(k, side),
+            },
+            _ => 0.0,
+        }
+    };
+    // The neighbour coefficient of `k` towards `side`: `D·A(|P|) + max(−F, 0)`, exactly the
+    // conductance `D` where no flow crosses the face.
+    let coefficient = |k: usize, side: Side| -> f64 {
+        let d = face(k, side);
+        match (advection, grid.neighbour(k, side)) {
+            (Some(a), Some(_)) => a.scheme.coefficient(d, carried(k, side)),
+            _ => d,
+        }
+    };
+
     // Center, then west, east, south, north; inactive cells are identity rows.
     let mut bands = bands;
     for (b, band) in bands.iter_mut().enumerate() {
@@ -165,10 +192,27 @@ fn fill(
         band.extend((0..n).map(|k| match (model.active[k], b) {
             (false, 0) => 1.0,
             (false, _) => 0.0,
-            (true, 0) => Side::ALL.into_iter().map(|side| face(k, side)).sum(), // local: one cell's four faces
-            (true, b) => -face(k, Side::ALL[b - 1]),
+            (true, 0) => Side::ALL.into_iter().map(|side| coefficient(k, side)).sum(), // local: one cell's four faces
+            (true, b) => -coefficient(k, Side::ALL[b - 1]),
         }));
     }
+    // Symmetric unless some flow crosses a face between two active cells.
+    let symmetric = advection.is_none()
+        || (0..n).all(|k| {
+            [Side::East, Side::North]
+                .into_iter()
+                .all(|side| grid.neighbour(k, side).is_none() || carried(k, side) == 0.0)
+        });
+
+    // The edge each inflow value belongs to: the last one given on that edge.
+    let mut inflow_owner: [Option<usize>; 4] = [None; 4];
+    for (c, cond) in model.conditions.iter().enumerate() {
+        if let (Spec::Inflow(_), Target::Edge(side)) = (&cond.spec, &cond.target) {
+            inflow_owner[side_slot(*side)] = Some(c);
+        }
+    }
+    // Inflow through the edges already in the center through a carried slot, per cell.
+    let mut covered_in = memory::filled("the assembly", n, 0.0)?;
 
     // Conditions into slots.
     let mut anchored = vec![false; n];
@@ -214,9 +258,9 @@ fn fill(
                     // their shape when the conductivity changes in place.
                     for side in Side::ALL {
                         if let Some(nb) = grid.neighbour(k, side) {
-                            let cf = face(k, side);
-                            book.link(nb, cf);
-                            anchored[nb] |= cf > 0.0;
+                            let cf = coefficient(k, side);
+                            book.link(nb, cf, carried(k, side));
+                            anchored[nb] |= coefficient(nb, side.opposite()) > 0.0;
                         }
                     }
                 }
@@ -294,10 +338,56 @@ fn fill(
                     book.push(k, w, rate.at(k));
                 }
             }
+            (Spec::Inflow(values), Target::Edge(side)) => {
+                book.open(label, FlowKind::Carried, Action::Carried);
+                let owns = inflow_owner[side_slot(*side)] == Some(c);
+                for (t, k) in g.edge(*side).into_iter().enumerate() {
+                    if model.active[k] {
+                        let w = if owns {
+                            (-carried(k, *side)).max(0.0)
+                        } else {
+                            0.0
+                        };
+                        book.push(k, w, values.at(t));
+                        bands[0][k] += w;
+                        anchored[k] |= w > 0.0;
+                        covered_in[k] += w;
+                    }
+                }
+            }
             // The builder pairs fluxes with edges and point sources with cells only.
             (Spec::Flux(_), _) | (Spec::PointSource(_), _) => {
                 book.open(label, FlowKind::PrescribedFlux, Action::Source);
             }
+            (Spec::Inflow(_), _) => {
+                book.open(label, FlowKind::Carried, Action::Carried);
+            }
+        }
+    }
+
+    if advection.is_some() {
+        // Every inflow through an edge at a free cell needs the value it carries in.
+        for k in (0..n).filter(|&k| model.active[k] && !fixed_mask[k]) {
+            for side in Side::ALL {
+                let f = carried(k, side);
+                if grid.neighbour(k, side).is_none()
+                    && f < 0.0
+                    && inflow_owner[side_slot(side)].is_none()
+                {
+                    return Err(Error::no_inflow_value(side, Location::on(grid, k), -f));
+                }
+            }
+        }
+        // What the flow field carries with the cells' own values: net outflow through the
+        // faces between active cells, less the edge inflow the carried slots counted.
+        book.open(FLOW_FIELD_LINE, FlowKind::Carried, Action::FlowField);
+        for k in (0..n).filter(|&k| model.active[k]) {
+            let net: f64 = Side::ALL
+                .into_iter()
+                .filter(|&side| grid.neighbour(k, side).is_some())
+                .map(|side| carried(k, side))
+                .sum(); // local: one cell's faces
+            book.push(k, net - covered_in[k], 0.0);
         }
     }
 
@@ -315,10 +405,12 @@ fn fill(
         }
     }
 
-    let floating = floating_regions(grid, &fixed_mask, &anchored, &face);
+    let linked = |k: usize, side: Side| face(k, side).max(carried(k, side).abs());
+    let floating = floating_regions(grid, &fixed_mask, &anchored, &linked);
     Ok(Found {
         fixed: (0..n).filter(|&k| fixed_mask[k]).collect(),
         floating,
+        symmetric,
     })
 }
 
@@ -426,6 +518,19 @@ fn floating_regions(
         }
     }
     regions
+}
+
+/// The label of the budget line of what the flow field carries with the cells' own values.
+pub(crate) const FLOW_FIELD_LINE: &str = "carried by the flow field";
+
+/// Index of `side` in [`Side::ALL`].
+fn side_slot(side: Side) -> usize {
+    match side {
+        Side::West => 0,
+        Side::East => 1,
+        Side::South => 2,
+        Side::North => 3,
+    }
 }
 
 fn inactive(grid: Grid, what: String, k: usize) -> Error {

@@ -8,9 +8,16 @@
 //! * a **conductance** slot adds `weight` to the center and `weight·level` to the right-hand
 //!   side, so its flow into the model is `weight·(level − φ_cell)`;
 //! * a **fixed** slot holds its cell at `level`; its flow into the model is what keeps the
-//!   cell there: conduction to its active neighbours, `Σ C·(φ_fixed − φ_nb)` over its links,
-//!   less the flows the other slots bring into the same cell (plus storage uptake in a time
-//!   step).
+//!   cell there: the flow through its faces to its neighbours, `Σ a·(φ_fixed − φ_nb) + F·φ_fixed`
+//!   over its links (conduction `a = C` and `F = 0` without a flow field), less the flows the
+//!   other slots bring into the same cell (plus storage uptake in a time step);
+//! * a **carried** slot (an inflow value) adds `weight` (the inflow in W/K) to the center and
+//!   `weight·level` to the right-hand side; its flow into the model is `weight·level`, the heat
+//!   the entering fluid brings;
+//! * a **flow-field** slot books `weight·φ_cell`: what the flow field carries out of the cell
+//!   with the cell's own value (through edges, or fluid leaving inside the cell; negative
+//!   weights are fluid appearing in the cell), less the inflow the carried slots already
+//!   counted in the center. It adds nothing to the right-hand side.
 
 use std::ops::Range;
 
@@ -26,6 +33,8 @@ pub(crate) enum Action {
     Source,
     Conductance,
     Fixed,
+    Carried,
+    FlowField,
 }
 
 /// One condition after resolution.
@@ -41,7 +50,11 @@ pub(crate) struct Term {
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub(crate) struct Link {
     pub(crate) free: usize,
+    /// The fixed cell's neighbour coefficient towards `free` (the conductance without a flow
+    /// field).
     pub(crate) conductance: f64,
+    /// The flow field's flow out of the fixed cell through this face (W/K).
+    pub(crate) carried: f64,
 }
 
 /// All terms, with their slots in flat arrays.
@@ -123,25 +136,31 @@ impl Book {
     }
 
     /// Add a link to the last slot (or, refreshing, overwrite the next link's conductance).
-    pub(crate) fn link(&mut self, free: usize, conductance: f64) {
+    pub(crate) fn link(&mut self, free: usize, conductance: f64, carried: f64) {
         if let Some((_, link)) = &mut self.refill {
             if let Some(l) = self.links.get_mut(*link) {
                 debug_assert_eq!(l.free, free);
                 l.conductance = conductance;
+                l.carried = carried;
             }
             *link += 1;
             return;
         }
-        self.links.push(Link { free, conductance });
+        self.links.push(Link {
+            free,
+            conductance,
+            carried,
+        });
         if let Some(range) = self.link_ranges.last_mut() {
             range.end = self.links.len();
         }
     }
 
-    /// `rhs = Σ weight·level` over source and conductance slots (zero elsewhere).
+    /// `rhs = Σ weight·level` over source, conductance and carried slots (zero elsewhere).
     pub(crate) fn fill_rhs(&self, rhs: &mut [f64]) {
         rhs.fill(0.0);
-        for term in self.terms.iter().filter(|t| t.action != Action::Fixed) {
+        let adds = |a: Action| !matches!(a, Action::Fixed | Action::FlowField);
+        for term in self.terms.iter().filter(|t| adds(t.action)) {
             for s in term.slots.clone() {
                 rhs[self.cells[s]] += self.weights[s] * self.levels[s];
             }
@@ -162,16 +181,26 @@ impl Book {
         match action {
             Action::Source => self.weights[s] * levels[s],
             Action::Conductance => self.weights[s] * (levels[s] - x[self.cells[s]]),
+            Action::Carried => self.weights[s] * levels[s],
+            Action::FlowField => self.weights[s] * x[self.cells[s]],
             Action::Fixed => 0.0,
         }
     }
 
-    /// Conduction out of fixed slot `s` to its neighbours.
+    /// Flow out of fixed slot `s` through its faces to its neighbours: conduction, and the
+    /// flow field's part where it has one.
     fn conduction_out(&self, s: usize, x: &[f64]) -> f64 {
         let here = x[self.cells[s]];
         self.links[self.link_ranges[s].clone()]
             .iter()
-            .map(|l| l.conductance * (here - x[l.free]))
+            .map(|l| {
+                let conducted = l.conductance * (here - x[l.free]);
+                if l.carried == 0.0 {
+                    conducted
+                } else {
+                    conducted + l.carried * here
+                }
+            })
             .sum() // local: one cell's links
     }
 
@@ -261,6 +290,7 @@ impl Book {
 /// | edge or cell exchange | the outside value (the coefficient is part of the operator and stays) |
 /// | point source | the rate (W or m³/s) |
 /// | areal / volumetric source | the rate per unit area / volume |
+/// | inflow value | the value the flow field carries in (the face flows are part of the operator and stay) |
 ///
 /// # Example
 ///

@@ -32,6 +32,11 @@ pub enum FlowKind {
     /// model, net of any part of a row's center beyond the sum of its couplings (an exchange
     /// folded into the center); see [`SystemBudget`](crate::SystemBudget).
     CellSource,
+    /// Carried by a model's flow field ([`Model::set_advection`](super::Model::set_advection)):
+    /// into the model through an edge at an inflow value ([`Model::inflow_value`](super::Model::inflow_value)),
+    /// and out of it with the cell's own value (through edges, or where the fluid leaves or
+    /// appears inside a cell).
+    Carried,
     /// Release from (entering) or uptake into (leaving) storage during a time step.
     Storage,
 }
@@ -46,6 +51,7 @@ impl fmt::Display for FlowKind {
             FlowKind::ArealSource => "areal source",
             FlowKind::VolumetricSource => "volumetric source",
             FlowKind::CellSource => "cell source",
+            FlowKind::Carried => "carried by flow",
             FlowKind::Storage => "storage",
         })
     }

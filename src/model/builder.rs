@@ -4,6 +4,7 @@
 use std::sync::atomic::Ordering;
 use std::sync::Arc;
 
+use super::advection::{Advection, AdvectionScheme, FaceFlows};
 use super::field::{Field, Profile};
 use super::geometry::Geometry;
 use super::medium::{Conductivity, Storage};
@@ -42,6 +43,7 @@ impl Model {
             storage: None,
             conditions: Vec::new(),
             singular: SingularPolicy::Reject,
+            advection: None,
             space: Arc::new(Threaded),
         })
     }
@@ -486,6 +488,87 @@ impl Model {
         let rate = rate.into();
         self.check_field("volumetric source", &rate)?;
         Ok(self.push(label, Target::Everywhere, Spec::VolumetricSource(rate)))
+    }
+
+    /// Let a given flow field carry the modelled quantity (heat carried by groundwater, coolant
+    /// past a plate): `flows` through every face (W/K, see [`FaceFlows`]) and the `scheme`
+    /// that weights the two cells beside a face. The operator is then not symmetric (unless
+    /// every flow between active cells is zero): solve it with a method for non-symmetric
+    /// systems, such as the one [`SteadySystem::default_solver`] picks. Where the flow enters
+    /// through an edge at a free cell, give the value it carries in with
+    /// [`inflow_value`](Model::inflow_value). See the module docs' Advection section for the
+    /// boundary treatment and the budget lines.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::GridMismatch`](crate::ErrorKind::GridMismatch) if the flows belong to
+    /// another grid.
+    ///
+    /// ```
+    /// use quintet::model::{AdvectionScheme, Conductivity, FaceFlows, Geometry, Model};
+    /// use quintet::Side;
+    /// let geometry = Geometry::cell_centered(20, 10, 5.0, 5.0, 10.0)?;
+    /// let mut model = Model::new(geometry.clone(), Conductivity::isotropic(2.5))?; // W/(m·K)
+    /// // Groundwater at 1e-7 m/s towards the east, ρ_w·c_w = 4.18e6 J/(m³·K).
+    /// model.set_advection(FaceFlows::uniform(&geometry, 1e-7, 0.0, 4.18e6)?, AdvectionScheme::PowerLaw)?;
+    /// model.inflow_value("upstream water", Side::West, 12.0)?; // °C
+    /// model.prescribe_edge("downstream", Side::East, 12.0)?;
+    /// assert!(!model.assemble()?.is_symmetric());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_advection(
+        &mut self,
+        flows: FaceFlows,
+        scheme: AdvectionScheme,
+    ) -> Result<(), Error> {
+        flows.check_grid(self.grid())?;
+        self.advection = Some(Advection { flows, scheme });
+        Ok(())
+    }
+
+    /// The flow field and scheme given with [`set_advection`](Model::set_advection), if any.
+    ///
+    /// ```
+    /// # use quintet::model::{AdvectionScheme, Conductivity, FaceFlows, Geometry, Model};
+    /// let geometry = Geometry::cell_centered(4, 4, 1.0, 1.0, 1.0)?;
+    /// let mut model = Model::new(geometry.clone(), Conductivity::isotropic(1.0))?;
+    /// assert!(model.advection().is_none());
+    /// model.set_advection(FaceFlows::uniform(&geometry, 1.0, 0.0, 1.0)?, AdvectionScheme::Central)?;
+    /// assert_eq!(model.advection().map(|(_, s)| s), Some(AdvectionScheme::Central));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn advection(&self) -> Option<(&FaceFlows, AdvectionScheme)> {
+        self.advection.as_ref().map(|a| (&a.flows, a.scheme))
+    }
+
+    /// The value (temperature, °C or K) the flow field carries into the model where it enters
+    /// through the edge `side`: one value, or one per cell along the edge. The heat carried in
+    /// is `F·value` per face (W, with `F` the face flow in W/K); where the flow leaves through
+    /// the edge, it carries the cell's own value and this condition does nothing. The later of
+    /// two inflow values on the same edge wins. The value is a level: change it during a run
+    /// with a [`Forcing`](super::Forcing).
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch), [`ErrorKind::NonFinite`](crate::ErrorKind::NonFinite).
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Side};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// let inlet = model.inflow_value("coolant inlet", Side::South, vec![18.0, 18.5, 19.0])?;
+    /// assert_eq!(model.label(inlet), Some("coolant inlet"));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn inflow_value(
+        &mut self,
+        label: impl Into<String>,
+        side: Side,
+        values: impl Into<Profile>,
+    ) -> Result<ConditionId, Error> {
+        let values = values.into();
+        let edge = self.geometry.edge(side);
+        check_profile(self.grid(), "inflow value", Some(side), &edge, &values)?;
+        Ok(self.push(label, Target::Edge(side), Spec::Inflow(values)))
     }
 
     pub(crate) fn push(

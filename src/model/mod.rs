@@ -81,6 +81,7 @@
 //! # Ok::<(), quintet::Error>(())
 //! ```
 
+mod advection;
 mod assemble;
 mod axis;
 mod book;
@@ -89,11 +90,13 @@ mod builder;
 mod field;
 mod geometry;
 mod medium;
+mod solver;
 mod spec;
 mod steady;
 mod transient;
 mod update;
 
+pub use advection::{AdvectionScheme, FaceFlows};
 pub use axis::{Axis, AxisLayout};
 pub use book::Forcing;
 pub use budget::{Budget, BudgetLine, BudgetTable, BudgetWarning, FlowKind};

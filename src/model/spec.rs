@@ -5,6 +5,7 @@
 use std::sync::atomic::AtomicU64;
 use std::sync::Arc;
 
+use super::advection::Advection;
 use super::field::{Field, Profile};
 use super::geometry::Geometry;
 use super::medium::{Conductivity, Storage};
@@ -114,6 +115,8 @@ pub struct Model {
     pub(crate) storage: Option<Storage>,
     pub(crate) conditions: Vec<Condition>,
     pub(crate) singular: SingularPolicy,
+    /// The flow field that carries the modelled quantity, if any.
+    pub(crate) advection: Option<Advection>,
     /// Where every reduction over the model's cells runs (budget sums, validation scans).
     pub(crate) space: Arc<dyn Space>,
 }
@@ -138,6 +141,8 @@ pub(crate) enum Spec {
     PointSource(f64),
     ArealSource(Field),
     VolumetricSource(Field),
+    /// The value the flow field carries in through an edge.
+    Inflow(Profile),
 }
 
 /// One condition as the caller gave it.

@@ -6,6 +6,7 @@ use super::book::{Book, Forcing};
 use super::budget::Budget;
 use super::field::Profile;
 use super::medium::Conductivity;
+use super::solver::default_solver;
 use super::spec::{ConditionId, Model, SingularPolicy};
 use super::update::{Change, Reassemble};
 use crate::error::Location;
@@ -17,15 +18,17 @@ use crate::{Banded5, Error, FixedCells, Grid, IterativeSolver, Progress, Report,
 /// Sources of a floating region must balance to this fraction of their total magnitude.
 pub(crate) const BALANCE_TOLERANCE: f64 = 1e-6;
 
-/// An assembled steady model: the symmetric operator `A` (a [`Banded5`] with its fixed cells),
+/// An assembled steady model: the operator `A` (a [`Banded5`] with its fixed cells; symmetric
+/// unless a flow field carries the modelled quantity, see [`Model::set_advection`](super::Model::set_advection)),
 /// the right-hand side `q` of `A·φ = q`, and the bookkeeping for the budget.
 ///
 /// Row `k` of the operator is the balance of cell `k`'s control volume, in W or m³/s:
 /// conduction to the neighbours through the face conductances, plus every exchange
 /// conductance on the cell, equals the sources in the cell plus the exchanges' conductance ×
-/// outside value. Prescribed cells and inactive cells are fixed cells of the operator. The
-/// free part is symmetric positive definite whenever every connected region reaches a
-/// prescribed value or an exchange, which [`Model::assemble`](super::Model::assemble) checks.
+/// outside value (and, with a flow field, what the flow carries through the faces). Prescribed
+/// cells and inactive cells are fixed cells of the operator. Without a flow field the free part
+/// is symmetric positive definite whenever every connected region reaches a prescribed value
+/// or an exchange, which [`Model::assemble`](super::Model::assemble) checks.
 ///
 /// Use [`solve`](SteadySystem::solve) with any [`IterativeSolver`], or take
 /// [`operator`](SteadySystem::operator) and [`rhs`](SteadySystem::rhs) to a driver directly
@@ -70,6 +73,7 @@ pub struct SteadySystem {
     regions: Vec<Region>,
     volumes: Vec<f64>,
     mean: f64,
+    symmetric: bool,
 }
 
 impl SteadySystem {
@@ -84,6 +88,7 @@ impl SteadySystem {
             inactive_value,
             floating,
             volumes,
+            symmetric,
             ..
         } = assemble(model, false)?;
         let mean = settle(model.singular, grid, &floating, &mut fixed)?;
@@ -100,11 +105,60 @@ impl SteadySystem {
             regions: floating,
             volumes,
             mean,
+            symmetric,
         };
         system.refresh_rhs()?;
         Ok(system)
     }
-    /// The operator: symmetric, with prescribed and inactive cells as fixed cells.
+    /// Whether the operator is symmetric: always without a flow field
+    /// ([`Model::set_advection`](super::Model::set_advection)), and with one only if no flow
+    /// crosses a face between two active cells.
+    ///
+    /// ```
+    /// # use quintet::{model::{Conductivity, Geometry, Model}, Side};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 3, 1.0, 1.0, 1.0)?, Conductivity::isotropic(2.0))?;
+    /// # model.prescribe_edge("wall", Side::West, 0.0)?;
+    /// assert!(model.assemble()?.is_symmetric());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn is_symmetric(&self) -> bool {
+        self.symmetric
+    }
+
+    /// The driver the model picks for this system, with default stopping options (change them
+    /// through [`IterativeSolver::options_mut`]): PCG with a Jacobi preconditioner when the
+    /// operator [`is_symmetric`](SteadySystem::is_symmetric), Stone's strongly implicit
+    /// procedure ([`Sip`](crate::Sip), standalone) when a flow field makes it non-symmetric.
+    /// Any other driver works through [`solve`](SteadySystem::solve) as well.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::NonPositiveCenter`](crate::ErrorKind::NonPositiveCenter) if a free cell's
+    /// center is not positive (the set-up of either preconditioner refuses it).
+    ///
+    /// ```
+    /// use quintet::model::{AdvectionScheme, Conductivity, FaceFlows, Geometry, Model};
+    /// use quintet::prelude::*;
+    /// let geometry = Geometry::cell_centered(30, 10, 1.0, 1.0, 1.0)?;
+    /// let mut model = Model::new(geometry.clone(), Conductivity::isotropic(1.0))?;
+    /// model.set_advection(FaceFlows::uniform(&geometry, 3.0, 0.0, 1.0)?, AdvectionScheme::Upwind)?;
+    /// model.inflow_value("inlet", Side::West, 1.0)?;
+    /// model.prescribe_edge("outlet", Side::East, 0.0)?;
+    /// let system = model.assemble()?;
+    /// let mut solver = system.default_solver()?;
+    /// solver.options_mut().tolerances.relative = 1e-10;
+    /// let mut t = system.initial_solution(0.0);
+    /// let report = system.solve(&mut solver, &mut t, &mut Workspace::new())?;
+    /// assert!(report.converged() && t.iter().all(|&v| (0.0..=1.0).contains(&v)));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn default_solver(&self) -> Result<Box<dyn IterativeSolver<f64>>, Error> {
+        default_solver(&self.operator, self.symmetric)
+    }
+
+    /// The operator, with prescribed and inactive cells as fixed cells: symmetric unless a
+    /// flow field carries the modelled quantity across faces (see
+    /// [`is_symmetric`](SteadySystem::is_symmetric)).
     ///
     /// ```
     /// # use quintet::{model::{Conductivity, Geometry, Model}, Side, Stencil5};
@@ -469,6 +523,7 @@ impl Reassemble for SteadySystem {
         }
         self.regions = found.floating;
         self.mean = mean;
+        self.symmetric = found.symmetric;
         self.refresh_rhs()
     }
 }

@@ -20,6 +20,7 @@ use super::assemble::{assemble, reassemble, Region};
 use super::book::{Book, Forcing};
 use super::field::Profile;
 use super::medium::{Conductivity, Storage};
+use super::solver::default_solver;
 use super::spec::{ConditionId, Model};
 use super::update::{Change, Reassemble};
 use crate::blocks::Blocks;
@@ -27,8 +28,8 @@ use crate::error::Location;
 use crate::operator::check_len;
 use crate::space::first_flagged;
 use crate::{
-    Banded5, Error, FixedCells, Grid, IterativeSolver, Jacobi, Pcg, Progress, Report, Stencil5,
-    Workspace,
+    check_symmetry, Banded5, Error, FixedCells, Grid, IterativeSolver, Jacobi, Pcg, Progress,
+    Report, Stencil5, Workspace,
 };
 
 /// Crank–Nicolson steps replaced by damped steps (two backward-Euler half steps each) unless
@@ -138,6 +139,7 @@ pub struct Stepper<S> {
     rhs: Vec<f64>,
     b_prev: Vec<f64>,
     b_new: Vec<f64>,
+    symmetric: bool,
 }
 
 impl<S: IterativeSolver<f64>> Stepper<S> {
@@ -171,6 +173,20 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
         initial: &[f64],
         make_solver: impl FnOnce(&Banded5<f64>) -> Result<S, Error>,
     ) -> Result<Stepper<S>, Error> {
+        Stepper::set_up(model, scheme, dt, start_time, initial, |op, _| {
+            make_solver(op)
+        })
+    }
+
+    /// [`Stepper::new`], with `make_solver` told whether the step operator is symmetric.
+    fn set_up(
+        model: &Model,
+        scheme: TimeScheme,
+        dt: f64,
+        start_time: f64,
+        initial: &[f64],
+        make_solver: impl FnOnce(&Banded5<f64>, bool) -> Result<S, Error>,
+    ) -> Result<Stepper<S>, Error> {
         if !(dt.is_finite() && dt > 0.0) {
             return Err(Error::setting("time step", dt, "a finite value > 0 (s)"));
         }
@@ -189,6 +205,7 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
         }
         let assembly = assemble(model, true)?;
         refuse_floating(grid, &assembly.floating)?;
+        let symmetric = assembly.symmetric;
         let theta = scheme.theta();
         let mut capacity_dt = assembly.capacity;
         capacity_dt.iter_mut().for_each(|c| *c /= dt);
@@ -198,7 +215,7 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
         let [center, west, east, south, north] = bands;
         let step_op = Banded5::new(grid, center, west, east, south, north)?
             .with_fixed(FixedCells::new(grid, assembly.fixed)?)?;
-        let solver = make_solver(&step_op)?;
+        let solver = make_solver(&step_op, symmetric)?;
         let mut stepper = Stepper {
             model: model.clone(),
             solver,
@@ -227,6 +244,7 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
             rhs: vec![0.0; n],
             b_prev: vec![0.0; n],
             b_new: vec![0.0; n],
+            symmetric,
         };
         stepper.write_fixed();
         stepper.book.fill_rhs(&mut stepper.b_prev);
@@ -464,6 +482,7 @@ impl<S: IterativeSolver<f64>> Reassemble for Stepper<S> {
     fn reassemble(&mut self) -> Result<(), Error> {
         let (theta, dt) = (self.scheme.theta(), self.dt);
         let grid = self.step_op.grid();
+        let symmetric = self.symmetric;
         let (model, book) = (&self.model, &mut self.book);
         let (capacity_dt, a_center) = (&mut self.capacity_dt, &mut self.a_center);
         self.step_op.refill(|mut bands| {
@@ -475,6 +494,7 @@ impl<S: IterativeSolver<f64>> Reassemble for Stepper<S> {
                 capacity_dt,
             )?;
             refuse_floating(grid, &found.floating)?;
+            debug_assert_eq!(found.symmetric, symmetric);
             capacity_dt.iter_mut().for_each(|c| *c /= dt);
             to_step_operator(theta, capacity_dt, bands, a_center);
             Ok(())
@@ -515,11 +535,14 @@ fn to_step_operator(
 
 impl Stepper<Pcg<Jacobi<f64>>> {
     /// [`Stepper::new`] with PCG and a Jacobi preconditioner built from the step operator
-    /// (default stopping tolerances; change them with [`Stepper::solver_mut`]).
+    /// (default stopping tolerances; change them with [`Stepper::solver_mut`]). PCG needs a
+    /// symmetric operator: for a model with a flow field use
+    /// [`with_default_solver`](Stepper::with_default_solver).
     ///
     /// # Errors
     ///
-    /// As for [`Stepper::new`].
+    /// As for [`Stepper::new`], and [`ErrorKind::Asymmetric`](crate::ErrorKind::Asymmetric)
+    /// naming a cell if a flow field makes the step operator non-symmetric.
     ///
     /// ```
     /// # use quintet::model::{Conductivity, Geometry, Model, Stepper, Storage, TimeScheme};
@@ -537,7 +560,45 @@ impl Stepper<Pcg<Jacobi<f64>>> {
         initial: &[f64],
     ) -> Result<Stepper<Pcg<Jacobi<f64>>>, Error> {
         Stepper::new(model, scheme, dt, start_time, initial, |op| {
+            check_symmetry(op, 0.0).map_err(|e| {
+                e.with_hint("PCG needs a symmetric operator; a model with a flow field is not: use Stepper::with_default_solver or Stepper::new with a method for non-symmetric systems")
+            })?;
             Ok(Pcg::new(Jacobi::new(op)?))
         })
+    }
+}
+
+impl Stepper<Box<dyn IterativeSolver<f64>>> {
+    /// [`Stepper::new`] with the driver the model picks for the step operator (see
+    /// [`SteadySystem::default_solver`](super::SteadySystem::default_solver)): PCG with Jacobi
+    /// when it is symmetric, Stone's strongly implicit procedure when a flow field makes it
+    /// non-symmetric. Default stopping tolerances; change them with
+    /// [`Stepper::solver_mut`].
+    ///
+    /// # Errors
+    ///
+    /// As for [`Stepper::new`].
+    ///
+    /// ```
+    /// use quintet::model::{AdvectionScheme, Conductivity, FaceFlows, Geometry, Model, Stepper, Storage, TimeScheme};
+    /// use quintet::Side;
+    /// let geometry = Geometry::cell_centered(40, 1, 0.5, 1.0, 1.0)?;
+    /// let mut model = Model::new(geometry.clone(), Conductivity::isotropic(2.0))?;
+    /// model.set_storage(Storage::per_volume(2.0e6))?;
+    /// model.set_advection(FaceFlows::uniform(&geometry, 1e-6, 0.0, 4.18e6)?, AdvectionScheme::Upwind)?;
+    /// model.inflow_value("warm inflow", Side::West, 30.0)?;
+    /// let mut run = Stepper::with_default_solver(&model, TimeScheme::BackwardEuler, 3600.0, 0.0, &[10.0; 40])?;
+    /// run.step()?;
+    /// assert!(run.solution()[0] > 10.0 && run.solution()[39] < 10.0 + 1e-6);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn with_default_solver(
+        model: &Model,
+        scheme: TimeScheme,
+        dt: f64,
+        start_time: f64,
+        initial: &[f64],
+    ) -> Result<Stepper<Box<dyn IterativeSolver<f64>>>, Error> {
+        Stepper::set_up(model, scheme, dt, start_time, initial, default_solver)
     }
 }
