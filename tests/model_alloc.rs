@@ -91,3 +91,49 @@ fn steps_allocate_nothing() {
         }
     }
 }
+
+/// The same with a flow field carrying heat: the step operator is not symmetric and the
+/// stepper runs the model's default driver for it (standalone SIP), which allocates nothing
+/// per warm solve, so neither does a step.
+#[test]
+fn steps_with_advection_allocate_nothing() {
+    use quintet::model::{AdvectionScheme, FaceFlows};
+    let (mut model, well) = model();
+    let n = model.grid().cells();
+    let geometry = model.geometry().clone();
+    let flows = FaceFlows::uniform(&geometry, 2e-6, -5e-7, 4.18e6).unwrap();
+    model
+        .set_advection(flows, AdvectionScheme::PowerLaw)
+        .unwrap();
+    model.inflow_value("upstream", Side::West, 5.0).unwrap();
+    model.inflow_value("north side", Side::North, 4.5).unwrap();
+    for (scheme, damped, solves_per_step) in [
+        (TimeScheme::BackwardEuler, 0, 1),
+        (TimeScheme::CrankNicolson, 0, 1),
+        (TimeScheme::CrankNicolson, 100, 2),
+    ] {
+        let mut stepper = Stepper::with_default_solver(&model, scheme, 3600.0, 0.0, &vec![5.0; n])
+            .unwrap()
+            .damped_start(damped);
+        stepper.step().unwrap(); // warm-up: the driver sizes its history buffer
+        let op = stepper.operator().clone();
+        let mut sip = Sip::new(&op, SipSettings::default()).unwrap();
+        let mut ws = Workspace::for_grid(op.grid());
+        let rhs = vec![1e-3; n];
+        let mut x = stepper.solution().to_vec();
+        sip.solve_with(&op, &rhs, &mut x, &mut ws).unwrap();
+        let per_solve = allocations_during(|| {
+            sip.solve_with(&op, &rhs, &mut x, &mut ws).unwrap();
+        });
+        for _ in 0..3 {
+            let per_step = allocations_during(|| {
+                stepper
+                    .step_with(|t, f| f.set(well, -1e-3 * (t / 3600.0).min(4.0)))
+                    .unwrap();
+            });
+            println!("advection, {scheme:?} (damped {damped}): {per_step} allocations per step, {per_solve} per bare solve");
+            assert_eq!(per_step, solves_per_step * per_solve);
+            assert_eq!(per_step, 0, "advection, {scheme:?} (damped {damped})");
+        }
+    }
+}
