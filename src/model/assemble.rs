@@ -363,6 +363,9 @@ fn fill(
                 book.open(label, FlowKind::Carried, Action::Carried);
             }
         }
+        if let Target::Edge(side) = cond.target {
+            book.mark_edge(side);
+        }
     }
 
     if advection.is_some() {

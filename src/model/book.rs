@@ -25,7 +25,7 @@ use super::budget::{Budget, BudgetLine, FlowKind};
 use super::spec::ConditionId;
 use crate::error::Location;
 use crate::space::{total, Space};
-use crate::{Error, Grid};
+use crate::{Error, Grid, Side};
 
 /// How a term's slots act.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
@@ -44,6 +44,8 @@ pub(crate) struct Term {
     pub(crate) kind: FlowKind,
     pub(crate) action: Action,
     pub(crate) slots: Range<usize>,
+    /// The grid edge whose outer faces the term's slots act through, for edge conditions.
+    pub(crate) edge: Option<Side>,
 }
 
 /// A fixed slot's coupling to one active neighbour.
@@ -111,7 +113,18 @@ impl Book {
             kind,
             action,
             slots: at..at,
+            edge: None,
         });
+    }
+
+    /// Mark the open term as acting through the outer faces of the edge `side`.
+    pub(crate) fn mark_edge(&mut self, side: Side) {
+        if self.refill.is_some() {
+            return;
+        }
+        if let Some(term) = self.terms.last_mut() {
+            term.edge = Some(side);
+        }
     }
 
     /// Add a slot to the open term (or, refreshing, overwrite the next slot's weight).
@@ -271,6 +284,32 @@ impl Book {
             line.outflow = pair[1];
         }
         lines
+    }
+
+    /// The flow into the model through the outer face of each edge cell that an edge condition
+    /// acts on, `(cell, side, flow)`, for solution `x` (m³/s for groundwater): the slot's flow
+    /// for edge fluxes, exchanges and prescribed values through half a cell, and for edge nodes
+    /// held at a prescribed value the flow through that value.
+    pub(crate) fn edge_inflows(&self, x: &[f64]) -> Vec<(usize, Side, f64)> {
+        let mut into_fixed = vec![0.0; self.grid.cells()];
+        let mut out = Vec::new();
+        for term in self.terms.iter().filter(|t| t.action != Action::Fixed) {
+            for s in term.slots.clone() {
+                let flow = self.slot_flow(term.action, s, x, &self.levels);
+                into_fixed[self.cells[s]] += flow;
+                if let Some(side) = term.edge {
+                    out.push((self.cells[s], side, flow));
+                }
+            }
+        }
+        for term in self.terms.iter().filter(|t| t.action == Action::Fixed) {
+            let Some(side) = term.edge else { continue };
+            for s in term.slots.clone() {
+                let k = self.cells[s];
+                out.push((k, side, self.conduction_out(s, x) - into_fixed[k]));
+            }
+        }
+        out
     }
 
     /// The budget of a steady solution.
