@@ -56,7 +56,9 @@
 //!
 //! Three things decide: whether the operator is symmetric, how far the coefficients jump
 //! between neighbouring cells, and how many cells there are. A model assembled by
-//! [`model`] is always symmetric (harmonic-mean face conductances stored on both sides). The
+//! [`model`] is symmetric (harmonic-mean face conductances stored on both sides) unless a
+//! flow field carries the heat (`Model::set_advection`), and picks its driver in one place
+//! (`SteadySystem::default_solver`). The
 //! iteration counts behind this table are measured in the README's solver and
 //! iteration-count tables (`solver_comparison` and `iterations` examples).
 //!
@@ -188,7 +190,10 @@
 //! harmonic-mean face conductances (Patankar 1980); a flow budget after each solve; backward
 //! Euler or Crank–Nicolson stepping; singular (floating) models detected. Conductivity,
 //! storage and exchange coefficients change in place after assembly, with the condition
-//! handles kept (calibration runs, nonlinear outer iterations).
+//! handles kept (calibration runs, nonlinear outer iterations). Heat carried by a given flow
+//! field (groundwater, a coolant) is assembled with the upwind, central, exponential or
+//! power-law scheme (Patankar 1980, ch. 5), from the face flows of a groundwater solve or
+//! your own; the budget books what the flow carries in and out.
 //!
 //! ## Examples
 //!

@@ -120,7 +120,9 @@ impl fmt::Display for BudgetWarning {
 
 /// What entered and left the model, term by term, after a steady solve or over one time step.
 ///
-/// Line `n` belongs to the condition whose [`ConditionId`] has index `n`; a transient budget
+/// Line `n` belongs to the condition whose [`ConditionId`] has index `n`; a model with a flow
+/// field ([`Model::set_advection`](super::Model::set_advection)) has one more line after the
+/// conditions, "carried by the flow field" (kind [`FlowKind::Carried`]); a transient budget
 /// has one more line, for storage, at the end. The percent imbalance is
 /// `100·(in − out)/((in + out)/2)`; after a converged solve it measures the algebraic error
 /// left by the stopping tolerance (the discrete equations conserve exactly). A common practice

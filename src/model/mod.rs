@@ -1,5 +1,6 @@
-//! Model assembly for heat conduction and confined groundwater flow: cell properties and
-//! boundary conditions in, a symmetric 5-point operator and right-hand side out, with the
+//! Model assembly for heat conduction and confined groundwater flow, and for heat carried by a
+//! given flow field: cell properties and boundary conditions in, a 5-point operator
+//! (symmetric unless a flow field carries the heat) and right-hand side out, with the
 //! bookkeeping for a flow budget and a transient stepper.
 //!
 //! **Caution.** Results support, and do not replace, engineering judgement. A model is only as
@@ -19,8 +20,12 @@
 //!   prescribed edge fluxes (no condition = no flow / insulated), exchange with an outside
 //!   value through a conductance on edges or cells (convection, rivers, drains), point
 //!   sources (wells, heaters) and areal or volumetric sources (recharge, heat generation).
+//! * [`FaceFlows`] and [`AdvectionScheme`]: a flow field that carries the heat
+//!   ([`Model::set_advection`]), for example the face flows of a groundwater solve
+//!   ([`SteadySystem::face_flows`]); see [Advection](#advection).
 //! * [`SteadySystem`]: the assembled [`Banded5`](crate::Banded5) operator with its fixed cells
-//!   and right-hand side, for any driver, and [`Budget`]s of its solutions.
+//!   and right-hand side, for any driver (or the one the model picks,
+//!   [`SteadySystem::default_solver`]), and [`Budget`]s of its solutions.
 //! * [`Stepper`]: backward Euler or Crank–Nicolson in time, levels changed through a
 //!   [`Forcing`] closure.
 //!
@@ -44,6 +49,8 @@
 //! | storage per area | J/(m²·K) | storativity, – |
 //! | time | s | s |
 //! | flows in the budget | W | m³/s |
+//! | face flow of a carrying fluid ([`FaceFlows`]) | W/K (m³/s × ρ_w·c_w) | – |
+//! | inflow value ([`Model::inflow_value`]) | K or °C | – |
 //!
 //! # The discrete equations
 //!
@@ -53,6 +60,64 @@
 //! algebraic error left by the stopping tolerance; it is second-order accurate in space for
 //! smooth coefficients, and exact for the quadratic profile of a plane wall with uniform
 //! generation on a node-centred axis.
+//!
+//! # Advection
+//!
+//! [`Model::set_advection`] lets a given flow field carry the heat: groundwater through an
+//! aquifer (open-loop wells, a warm plume, a foundation in flowing groundwater), coolant past
+//! a plate. The field is given as [`FaceFlows`], the flow through every face in W/K (volumetric
+//! flow times the fluid's `ρ_w·c_w`); whole-face flows keep a groundwater solve's mass balance
+//! exactly, and [`SteadySystem::face_flows`] takes them from one. The model does not compute
+//! the flow itself: solve the groundwater model first.
+//!
+//! **Equations.** At a face with conductance `D` and flow `F` out of the cell, the cell's
+//! neighbour coefficient is `a_nb = D·A(|P|) + max(−F, 0)`, `P = F/D` the face Péclet number,
+//! and the total flux `J = F·φ_P + a_nb·(φ_P − φ_nb)` is the same from both sides, so the
+//! scheme conserves (Patankar 1980, *Numerical Heat Transfer and Fluid Flow*, ch. 5). The
+//! center is the sum of the neighbour coefficients plus the net outflow
+//! `F_e − F_w + F_n − F_s`, and the fluid that appears or vanishes inside a cell (where the
+//! field is not divergence-free: wells, recharge) does so at the cell's own value; together
+//! the center is `Σ a_nb` plus the inflow through the cell's edge faces, and a divergence-free
+//! field gives the usual `a_P = Σ a_nb`. With upwind, exponential or power-law weights the
+//! neighbour coefficients are never negative and the center is at least their sum (an
+//! M-matrix): without sources, every value lies between the inflow and prescribed values,
+//! whatever the flow.
+//!
+//! **Schemes** ([`AdvectionScheme`], `A(|P|)` from Patankar's Table 5.2):
+//! upwind (`1`: first order, never oscillates, smears fronts by a numerical diffusion of
+//! `F·Δx/2`), central (`1 − |P|/2`: second order, but its neighbour coefficients turn
+//! negative and the solution oscillates once the cell Péclet number exceeds 2, so use it only
+//! on grids fine enough for that), exponential (`|P|/(e^|P| − 1)`: exact for 1-D steady flow
+//! with uniform properties) and power-law (`max(0, (1 − 0.1|P|)⁵)`, within 0.015 of the
+//! exponential's `A`, measured). Where the cell Péclet number `ρ_w·c_w·q·Δx/k` exceeds 2 in
+//! places, take upwind, exponential or power-law, or refine the grid.
+//!
+//! **Boundaries.** Where the flow leaves through an edge face it carries the cell's own value.
+//! Where it enters at a free cell it carries the edge's inflow value
+//! ([`Model::inflow_value`], one per edge or per edge cell; without one the assembly stops
+//! with [`ErrorKind::NoInflowValue`](crate::ErrorKind::NoInflowValue) naming the cell); at a
+//! cell held at a prescribed value it carries that value. Edge faces always take the upwind
+//! value; conduction through the edge is whatever the edge's conditions say (none: insulated),
+//! independently of the flow. Faces next to inactive cells carry nothing. Heat brought by
+//! injected water at another temperature: a [`Model::cell_exchange`] with conductance
+//! `ρ_w·c_w·Q` and the injection temperature as outside value, on top of the water appearing at
+//! the cell's value.
+//!
+//! **Budget** (kind [`FlowKind::Carried`]): each inflow value's line books what the entering
+//! fluid brings, `F·value`; one more line, "carried by the flow field", books what the flow
+//! takes away with the cells' own values (through edges, and where fluid leaves inside a
+//! cell: a pumping well) and what appears with them (injection, recharge). A prescribed cell's
+//! line now includes the heat the flow carries into and out of it. The budget closes to the
+//! solver's residual as before.
+//!
+//! **Solving.** The operator is not symmetric: CG and PCG do not apply
+//! ([`Stepper::with_jacobi`] refuses it). [`SteadySystem::default_solver`] and
+//! [`Stepper::with_default_solver`] pick a method for it; any driver for non-symmetric
+//! systems can be passed instead.
+//!
+//! Results of a model with advection depend on the flow field as much as on the heat
+//! parameters: check the flow model first, compare the carried and conducted lines of the
+//! budget, and judge the results with the caution above.
 //!
 //! # Example
 //!
