@@ -482,3 +482,59 @@ fn changes_in_place_match_a_fresh_assembly_with_advection() {
         assert!(norm(&diff) <= 1e-9 * norm(other.solution()));
     }
 }
+
+/// New flows in place (`set_flows`) give the bits of a fresh assembly with those flows; flows
+/// entering where no inflow value is given are refused and leave the system as it was; a
+/// stepper set up symmetric refuses flows that would make it non-symmetric.
+#[test]
+fn new_flows_in_place_match_a_fresh_assembly() {
+    let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<u64>>();
+    let grid = Grid::new(24, 16).unwrap();
+    let scheme = AdvectionScheme::Exponential;
+    let mut system = swirl(scheme, 10.0).assemble().unwrap();
+    system.set_flows(swirl_flows(grid, 55.0)).unwrap();
+    let fresh = swirl(scheme, 55.0).assemble().unwrap();
+    let (pa, pb) = (as_problem(&system), as_problem(&fresh));
+    for (a, b) in pa.bands.iter().zip(&pb.bands) {
+        assert_eq!(bits(a), bits(b));
+    }
+    assert_eq!(bits(system.rhs()), bits(fresh.rhs()));
+    let x = pb.reference_solution();
+    assert_eq!(system.budget(&x).unwrap(), fresh.budget(&x).unwrap());
+
+    // A model with inflow values on the west edge only: flows entering from the east are
+    // refused, naming the edge, and the system keeps its operator.
+    let geometry = Geometry::cell_centered(8, 3, 1.0, 1.0, 1.0).unwrap();
+    let mut model = Model::new(geometry.clone(), Conductivity::isotropic(1.0)).unwrap();
+    model
+        .set_advection(
+            FaceFlows::uniform(&geometry, 1.0, 0.0, 1.0).unwrap(),
+            AdvectionScheme::Upwind,
+        )
+        .unwrap();
+    model.inflow_value("west", Side::West, 1.0).unwrap();
+    model.prescribe_edge("east", Side::East, 0.0).unwrap();
+    let mut system = model.assemble().unwrap();
+    let before = as_problem(&system).bands;
+    let err = system
+        .set_flows(FaceFlows::uniform(&geometry, -1.0, 0.0, 1.0).unwrap())
+        .unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::NoInflowValue);
+    assert!(err.to_string().contains("east edge"), "{err}");
+    assert_eq!(as_problem(&system).bands, before);
+
+    model
+        .set_advection(
+            FaceFlows::uniform(&geometry, 0.0, 0.0, 1.0).unwrap(),
+            AdvectionScheme::Upwind,
+        )
+        .unwrap();
+    model.set_storage(Storage::per_area(1.0)).unwrap();
+    let mut run =
+        Stepper::with_jacobi(&model, TimeScheme::BackwardEuler, 1.0, 0.0, &[0.0; 24]).unwrap();
+    let err = run
+        .set_flows(FaceFlows::uniform(&geometry, 1.0, 0.0, 1.0).unwrap())
+        .unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::InvalidSetting);
+    run.step().unwrap();
+}

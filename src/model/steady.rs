@@ -535,6 +535,36 @@ impl SteadySystem {
         self.change(Change::Exchange(id, coefficient.into()))
     }
 
+    /// Replace the flow field (same scheme) and re-assemble the operator in place: a new
+    /// groundwater solve, another pumping rate. Condition levels and handles are kept; the
+    /// system may become symmetric or not ([`is_symmetric`](SteadySystem::is_symmetric)), so
+    /// take the driver from [`default_solver`](SteadySystem::default_solver) again.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::GridMismatch`](crate::ErrorKind::GridMismatch) for flows of another grid,
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) if the model had no flow
+    /// field when it was assembled, [`ErrorKind::NoInflowValue`](crate::ErrorKind::NoInflowValue)
+    /// if the new flows enter where no inflow value is given; the system is then left as it was.
+    ///
+    /// ```
+    /// use quintet::model::{AdvectionScheme, Conductivity, FaceFlows, Geometry, Model};
+    /// use quintet::Side;
+    /// let geometry = Geometry::cell_centered(10, 4, 1.0, 1.0, 1.0)?;
+    /// let mut model = Model::new(geometry.clone(), Conductivity::isotropic(1.0))?;
+    /// model.set_advection(FaceFlows::uniform(&geometry, 0.0, 0.0, 1.0)?, AdvectionScheme::Upwind)?;
+    /// model.inflow_value("inlet", Side::West, 5.0)?;
+    /// model.prescribe_edge("outlet", Side::East, 0.0)?;
+    /// let mut system = model.assemble()?;
+    /// assert!(system.is_symmetric());
+    /// system.set_flows(FaceFlows::uniform(&geometry, 2.0, 0.0, 1.0)?)?; // the pumps started
+    /// assert!(!system.is_symmetric());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_flows(&mut self, flows: FaceFlows) -> Result<(), Error> {
+        self.change(Change::Flows(flows))
+    }
+
     fn refresh_rhs(&mut self) -> Result<(), Error> {
         self.book.fill_rhs(&mut self.rhs);
         for region in &self.regions {

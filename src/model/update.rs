@@ -3,6 +3,7 @@
 //! [`SteadySystem`](super::SteadySystem) and [`Stepper`](super::Stepper) re-assemble into the
 //! storage they hold, so condition handles and the operator stay valid.
 
+use super::advection::FaceFlows;
 use super::field::Profile;
 use super::medium::{Conductivity, Storage};
 use super::spec::{check_nonnegative, check_profile, ConditionId, Model, Spec, Target};
@@ -13,6 +14,7 @@ pub(crate) enum Change {
     Conductivity(Conductivity),
     Storage(Storage),
     Exchange(ConditionId, Profile),
+    Flows(FaceFlows),
 }
 
 impl Change {
@@ -35,6 +37,17 @@ impl Change {
                         "storage",
                         0.0,
                         "storage set with Model::set_storage before the model is assembled",
+                    )),
+                }
+            }
+            Change::Flows(flows) => {
+                flows.check_grid(grid)?;
+                match &mut model.advection {
+                    Some(a) => Ok(Change::Flows(std::mem::replace(&mut a.flows, flows))),
+                    None => Err(Error::setting(
+                        "face flows",
+                        f64::NAN,
+                        "a flow field given with Model::set_advection before the model is assembled",
                     )),
                 }
             }

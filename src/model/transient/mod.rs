@@ -16,6 +16,7 @@
 mod state;
 mod step;
 
+use super::advection::FaceFlows;
 use super::assemble::{assemble, reassemble, Region};
 use super::book::{Book, Forcing};
 use super::field::Profile;
@@ -470,6 +471,36 @@ impl<S: IterativeSolver<f64>> Stepper<S> {
     ) -> Result<(), Error> {
         self.change(Change::Exchange(id, coefficient.into()))
     }
+
+    /// Replace the flow field from the next step on (see
+    /// [`SteadySystem::set_flows`](super::SteadySystem::set_flows)): a pumping schedule, a
+    /// seasonal flow. The driver stays; its preconditioner was built from the first step
+    /// operator (rebuild the stepper when the flows change much).
+    ///
+    /// # Errors
+    ///
+    /// As for [`SteadySystem::set_flows`](super::SteadySystem::set_flows), and
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) if the run was set up
+    /// with a symmetric step operator (no flow between active cells) and the new flows would
+    /// make it non-symmetric; the stepper is then left as it was.
+    ///
+    /// ```
+    /// use quintet::model::{AdvectionScheme, Conductivity, FaceFlows, Geometry, Model, Stepper, Storage, TimeScheme};
+    /// use quintet::Side;
+    /// let geometry = Geometry::cell_centered(20, 1, 1.0, 1.0, 1.0)?;
+    /// let mut model = Model::new(geometry.clone(), Conductivity::isotropic(0.5))?;
+    /// model.set_storage(Storage::per_volume(1e3))?;
+    /// model.set_advection(FaceFlows::uniform(&geometry, 0.1, 0.0, 1.0)?, AdvectionScheme::Upwind)?;
+    /// model.inflow_value("inlet", Side::West, 1.0)?;
+    /// let mut run = Stepper::with_default_solver(&model, TimeScheme::BackwardEuler, 60.0, 0.0, &[0.0; 20])?;
+    /// run.step()?;
+    /// run.set_flows(FaceFlows::uniform(&geometry, 0.3, 0.0, 1.0)?)?; // three times the rate
+    /// run.step()?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_flows(&mut self, flows: FaceFlows) -> Result<(), Error> {
+        self.change(Change::Flows(flows))
+    }
 }
 
 impl<S: IterativeSolver<f64>> Reassemble for Stepper<S> {
@@ -494,7 +525,13 @@ impl<S: IterativeSolver<f64>> Reassemble for Stepper<S> {
                 capacity_dt,
             )?;
             refuse_floating(grid, &found.floating)?;
-            debug_assert_eq!(found.symmetric, symmetric);
+            if symmetric && !found.symmetric {
+                return Err(Error::setting(
+                    "face flows",
+                    f64::NAN,
+                    "flows between active cells in a run set up with a symmetric step operator (its driver may need symmetry): set up the run with a nonzero flow field",
+                ));
+            }
             capacity_dt.iter_mut().for_each(|c| *c /= dt);
             to_step_operator(theta, capacity_dt, bands, a_center);
             Ok(())
