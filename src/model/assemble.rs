@@ -196,13 +196,15 @@ fn fill(
             (true, b) => -coefficient(k, Side::ALL[b - 1]),
         }));
     }
-    // Symmetric unless some flow crosses a face between two active cells.
+    // Symmetric unless some flow crosses a face between two active cells (found through the
+    // model's space, so every process agrees).
     let symmetric = advection.is_none()
-        || (0..n).all(|k| {
+        || first_flagged(&*model.space, n, |k| {
             [Side::East, Side::North]
                 .into_iter()
-                .all(|side| grid.neighbour(k, side).is_none() || carried(k, side) == 0.0)
-        });
+                .any(|side| grid.neighbour(k, side).is_some() && carried(k, side) != 0.0)
+        })
+        .is_none();
 
     // The edge each inflow value belongs to: the last one given on that edge.
     let mut inflow_owner: [Option<usize>; 4] = [None; 4];
@@ -369,16 +371,22 @@ fn fill(
     }
 
     if advection.is_some() {
-        // Every inflow through an edge at a free cell needs the value it carries in.
-        for k in (0..n).filter(|&k| model.active[k] && !fixed_mask[k]) {
-            for side in Side::ALL {
-                let f = carried(k, side);
-                if grid.neighbour(k, side).is_none()
-                    && f < 0.0
+        // Every inflow through an edge at a free cell needs the value it carries in; the first
+        // such cell is found through the model's space, so every process names the same.
+        let uncovered = |k: usize| -> Option<Side> {
+            if !model.active[k] || fixed_mask[k] {
+                return None;
+            }
+            Side::ALL.into_iter().find(|&side| {
+                grid.neighbour(k, side).is_none()
+                    && carried(k, side) < 0.0
                     && inflow_owner[side_slot(side)].is_none()
-                {
-                    return Err(Error::no_inflow_value(side, Location::on(grid, k), -f));
-                }
+            })
+        };
+        if let Some(k) = first_flagged(&*model.space, n, |k| uncovered(k).is_some()) {
+            if let Some(side) = uncovered(k) {
+                let inflow = -carried(k, side);
+                return Err(Error::no_inflow_value(side, Location::on(grid, k), inflow));
             }
         }
         // What the flow field carries with the cells' own values: net outflow through the
