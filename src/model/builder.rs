@@ -181,8 +181,9 @@ impl Model {
         self.conditions.get(id.index).map(|c| c.label.as_str())
     }
 
-    /// Assemble the steady system: face conductances, the symmetric operator with its fixed
-    /// cells, the right-hand side and the budget bookkeeping.
+    /// Assemble the steady system: face conductances (and, with a flow field, the carried
+    /// flows), the operator with its fixed cells, the right-hand side and the budget
+    /// bookkeeping.
     ///
     /// # Errors
     ///
@@ -190,7 +191,8 @@ impl Model {
     /// conductivity or a thickness that is not positive; [`ErrorKind::InactiveCell`](crate::ErrorKind::InactiveCell) and
     /// [`ErrorKind::PrescribedCellConflict`](crate::ErrorKind::PrescribedCellConflict) for conditions placed by name on cells where they
     /// cannot act; [`ErrorKind::FloatingRegion`](crate::ErrorKind::FloatingRegion) or [`ErrorKind::UnbalancedSources`](crate::ErrorKind::UnbalancedSources) for a singular
-    /// problem (see [`SingularPolicy`]).
+    /// problem (see [`SingularPolicy`]); [`ErrorKind::NoInflowValue`](crate::ErrorKind::NoInflowValue)
+    /// naming a free edge cell where the flow field enters without an inflow value.
     ///
     /// ```
     /// # use quintet::{model::{Conductivity, Geometry, Model}, ErrorKind};
