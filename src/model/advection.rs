@@ -192,11 +192,76 @@ impl FaceFlows {
         })
     }
 
-    /// Face flows from a uniform Darcy flux (or velocity times porosity) `flux_x`, `flux_y`
-    /// (m/s) of a fluid with volumetric heat capacity `heat_capacity` (J/(m³·K)): each face
-    /// carries `flux · face area · heat_capacity`, the face area being its length times the
-    /// mean thickness of the cells beside it (one cell on the grid edge). Divergence-free when
-    /// the thickness is uniform.
+    /// Face flows from a Darcy flux (m/s; or a velocity times the porosity) given per face in
+    /// the layout of [`FaceFlows::new`], of a fluid with volumetric heat capacity
+    /// `heat_capacity` (J/(m³·K)): each face carries `flux · face area · heat_capacity` W/K, the
+    /// face area being its length times the mean thickness of the cells beside it (one cell on
+    /// the grid edge).
+    ///
+    /// # Errors
+    ///
+    /// As for [`FaceFlows::new`] (lengths, and the face of a flux that is not finite);
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for a heat capacity that
+    /// is not finite and `>= 0`.
+    ///
+    /// ```
+    /// use quintet::model::{FaceFlows, Geometry};
+    /// let geometry = Geometry::cell_centered(2, 1, 10.0, 4.0, 3.0)?;
+    /// // 1e-6 m/s east through the middle face only.
+    /// let flows = FaceFlows::from_darcy_flux(&geometry, vec![0.0, 1e-6, 0.0], vec![0.0; 4], 4.18e6)?;
+    /// assert!((flows.x_face(1, 0) - 1e-6 * 4.0 * 3.0 * 4.18e6).abs() < 1e-12);
+    /// let err = FaceFlows::from_darcy_flux(&geometry, vec![0.0; 2], vec![0.0; 4], 4.18e6).unwrap_err();
+    /// assert_eq!(err.kind(), quintet::ErrorKind::LengthMismatch);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn from_darcy_flux(
+        geometry: &Geometry,
+        x_flux: Vec<f64>,
+        y_flux: Vec<f64>,
+        heat_capacity: f64,
+    ) -> Result<FaceFlows, Error> {
+        if !(heat_capacity.is_finite() && heat_capacity >= 0.0) {
+            return Err(Error::setting(
+                "heat_capacity",
+                heat_capacity,
+                "finite and >= 0 (J/(m³·K))",
+            ));
+        }
+        let grid = geometry.grid();
+        let FaceFlows {
+            x: mut xf,
+            y: mut yf,
+            ..
+        } = FaceFlows::new(grid, x_flux, y_flux)?;
+        let (nx, ny) = (grid.nx(), grid.ny());
+        let thickness = |i: usize, j: usize| geometry.thickness(grid.index(i, j));
+        for j in 0..ny {
+            for i in 0..=nx {
+                let b = match i {
+                    0 => thickness(0, j),
+                    i if i == nx => thickness(nx - 1, j),
+                    i => 0.5 * (thickness(i - 1, j) + thickness(i, j)),
+                };
+                xf[i + (nx + 1) * j] *= geometry.y().width(j) * b * heat_capacity;
+            }
+        }
+        for j in 0..=ny {
+            for i in 0..nx {
+                let b = match j {
+                    0 => thickness(i, 0),
+                    j if j == ny => thickness(i, ny - 1),
+                    j => 0.5 * (thickness(i, j - 1) + thickness(i, j)),
+                };
+                yf[i + nx * j] *= geometry.x().width(i) * b * heat_capacity;
+            }
+        }
+        FaceFlows::new(grid, xf, yf)
+    }
+
+    /// Face flows from a uniform Darcy flux `flux_x`, `flux_y` (m/s) of a fluid with
+    /// volumetric heat capacity `heat_capacity` (J/(m³·K)), as
+    /// [`from_darcy_flux`](FaceFlows::from_darcy_flux) with the same flux on every face.
+    /// Divergence-free when the thickness is uniform.
     ///
     /// # Errors
     ///
@@ -222,39 +287,14 @@ impl FaceFlows {
                 return Err(Error::setting(name, v, "a finite Darcy flux (m/s)"));
             }
         }
-        if !(heat_capacity.is_finite() && heat_capacity >= 0.0) {
-            return Err(Error::setting(
-                "heat_capacity",
-                heat_capacity,
-                "finite and >= 0 (J/(m³·K))",
-            ));
-        }
         let grid = geometry.grid();
         let (nx, ny) = (grid.nx(), grid.ny());
-        let thickness = |i: usize, j: usize| geometry.thickness(grid.index(i, j));
-        let mut x = Vec::with_capacity((nx + 1) * ny);
-        for j in 0..ny {
-            for i in 0..=nx {
-                let b = match i {
-                    0 => thickness(0, j),
-                    i if i == nx => thickness(nx - 1, j),
-                    i => 0.5 * (thickness(i - 1, j) + thickness(i, j)),
-                };
-                x.push(flux_x * geometry.y().width(j) * b * heat_capacity);
-            }
-        }
-        let mut y = Vec::with_capacity(nx * (ny + 1));
-        for j in 0..=ny {
-            for i in 0..nx {
-                let b = match j {
-                    0 => thickness(i, 0),
-                    j if j == ny => thickness(i, ny - 1),
-                    j => 0.5 * (thickness(i, j - 1) + thickness(i, j)),
-                };
-                y.push(flux_y * geometry.x().width(i) * b * heat_capacity);
-            }
-        }
-        FaceFlows::new(grid, x, y)
+        FaceFlows::from_darcy_flux(
+            geometry,
+            vec![flux_x; (nx + 1) * ny],
+            vec![flux_y; nx * (ny + 1)],
+            heat_capacity,
+        )
     }
 
     /// The grid the flows belong to.

@@ -67,7 +67,8 @@
 //! aquifer (open-loop wells, a warm plume, a foundation in flowing groundwater), coolant past
 //! a plate. The field is given as [`FaceFlows`], the flow through every face in W/K (volumetric
 //! flow times the fluid's `ρ_w·c_w`); whole-face flows keep a groundwater solve's mass balance
-//! exactly, and [`SteadySystem::face_flows`] takes them from one. The model does not compute
+//! exactly, and [`SteadySystem::face_flows`] takes them from one. A Darcy flux per face (m/s)
+//! converts with [`FaceFlows::from_darcy_flux`], a uniform one with [`FaceFlows::uniform`]. The model does not compute
 //! the flow itself: solve the groundwater model first.
 //!
 //! **Equations.** At a face with conductance `D` and flow `F` out of the cell, the cell's
