@@ -23,6 +23,7 @@
 
 mod factor;
 mod ic0;
+mod ilu0;
 mod jacobi;
 pub mod multigrid;
 mod single;
@@ -30,6 +31,7 @@ mod sip;
 mod ssor;
 
 pub use ic0::{FactorSettings, IncompleteCholesky, WeakPivot};
+pub use ilu0::Ilu0;
 pub use jacobi::Jacobi;
 pub use multigrid::{CoarseOperator, Multigrid, MultigridSettings};
 pub use single::SinglePrecision;
