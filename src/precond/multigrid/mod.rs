@@ -43,9 +43,10 @@ mod aggregate;
 mod direct;
 mod galerkin;
 mod level;
+mod skew;
 mod smooth;
 
-use direct::{BandCholesky, MAX_DIRECT_CELLS};
+use direct::{CoarsestSolve, MAX_DIRECT_CELLS};
 use level::Level;
 use smooth::{red_black_sweep, residual, smooth_from_zero};
 
@@ -55,6 +56,7 @@ use crate::iterate::{IterativeSolver, NameCache, Requires, SolveOptions, Task, W
 use crate::operator::Stencil5;
 use crate::relax::correction_solve;
 use crate::space::Space;
+use crate::stencil::check_symmetry;
 use crate::{Error, Grid, LinearOperator, Progress, Report, Scalar};
 
 /// How the coarse-level operators are built from the finer level (both keep a 5-point
@@ -161,7 +163,10 @@ pub struct Multigrid<T> {
     grid: Grid,
     settings: MultigridSettings,
     levels: Vec<Level<T>>,
-    direct: BandCholesky<T>,
+    direct: CoarsestSolve<T>,
+    /// Whether the fine operator's eliminated couplings were exactly symmetric when the
+    /// hierarchy was built (otherwise the non-symmetric construction of `skew.rs`).
+    symmetric: bool,
     fine_residual: Vec<T>,
     /// `1/center` of the fine operator at free cells, 0 at fixed cells (`f32`, see
     /// `Level::inverse_centers`).
@@ -213,6 +218,7 @@ impl<T: Scalar> Multigrid<T> {
         super::check_centers(op)?;
         let grid = op.grid();
         let fine = op;
+        let symmetric = check_symmetry(op, 0.0).is_ok();
         let mut levels: Vec<Level<T>> = Vec::new();
         loop {
             let current = levels.last().map_or(grid, |l| l.op.grid);
@@ -223,15 +229,18 @@ impl<T: Scalar> Multigrid<T> {
             {
                 break;
             }
-            let next = match levels.last() {
-                None => Level::below(fine, settings.coarse_operator)?,
-                Some(l) => Level::below(&l.op, settings.coarse_operator)?,
+            let rule = settings.coarse_operator;
+            let next = match (levels.last(), symmetric) {
+                (None, true) => Level::below(fine, rule)?,
+                (Some(l), true) => Level::below(&l.op, rule)?,
+                (None, false) => skew::below_nonsymmetric(fine, rule)?,
+                (Some(l), false) => skew::below_nonsymmetric(&l.op, rule)?,
             };
             levels.push(next);
         }
         let direct = match levels.last() {
-            None => BandCholesky::new(fine)?,
-            Some(l) => BandCholesky::new(&l.op)?,
+            None => CoarsestSolve::new(fine, symmetric)?,
+            Some(l) => CoarsestSolve::new(&l.op, symmetric)?,
         };
         let active = level::active_cells(fine);
         let fine_inverse_centers = (0..grid.cells())
@@ -253,6 +262,7 @@ impl<T: Scalar> Multigrid<T> {
             settings,
             levels,
             direct,
+            symmetric,
             fine_residual: vec![T::zero(); grid.cells()],
             fine_inverse_centers,
             blocks,
@@ -338,7 +348,7 @@ impl<T: Scalar> Multigrid<T> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn replaced_pivots(&self) -> usize {
-        self.direct.replaced
+        self.direct.replaced()
     }
 
     /// One V-cycle from a zero initial guess, `z = B·r`, with `fine` the fine-level operator.
@@ -455,7 +465,12 @@ impl<T: Scalar> IterativeSolver<T> for Multigrid<T> {
             .as_stencil()
             .ok_or_else(|| Error::needs_stencil("the multigrid V-cycle"))?;
         let nu = self.settings.smoothing_sweeps;
-        let energy_step = self.settings.energy_step;
+        // No energy norm without symmetry: a non-symmetric hierarchy runs the plain cycle.
+        let (energy_step, requires) = if self.symmetric {
+            (self.settings.energy_step, Requires::Spd)
+        } else {
+            (false, Requires::PositiveCenters)
+        };
         let name = self.name.get("", || {
             if energy_step {
                 format!("multigrid V({nu},{nu}) with energy-minimising steps")
@@ -472,7 +487,7 @@ impl<T: Scalar> IterativeSolver<T> for Multigrid<T> {
             options: &options,
             observer,
         };
-        correction_solve(task, &name, energy_step, Requires::Spd, |_, space, r, z| {
+        correction_solve(task, &name, energy_step, requires, |_, space, r, z| {
             self.cycle(fine, space, r, z)
         })
     }
