@@ -83,6 +83,10 @@ pub enum ErrorKind {
     /// A group of cells given to a budget names a cell of the wrong sort (a free cell in a
     /// group of fixed cells, or the reverse) or a cell that another group already holds.
     BudgetGroup,
+    /// A method that needs a diagonally dominant operator met a row whose center is smaller
+    /// than the sum of its couplings' magnitudes, or a weakly dominant row from which no
+    /// strictly dominant row can be reached.
+    NotDiagonallyDominant,
 }
 
 impl ErrorKind {
@@ -301,6 +305,12 @@ enum Detail {
         net_inflow: f64,
         total: f64,
     },
+    #[error("the row of {at} {}", dominance_message(*center, *couplings))]
+    NotDiagonallyDominant {
+        at: Location,
+        center: f64,
+        couplings: f64,
+    },
     #[error("budget group \"{group}\" names {at}, {reason}")]
     BudgetGroup {
         group: String,
@@ -409,6 +419,7 @@ impl Error {
             #[cfg(feature = "npy")]
             Detail::FieldShape { .. } => ErrorKind::GridMismatch,
             Detail::BudgetGroup { .. } => ErrorKind::BudgetGroup,
+            Detail::NotDiagonallyDominant { .. } => ErrorKind::NotDiagonallyDominant,
         }
     }
 
@@ -458,7 +469,8 @@ impl Error {
             | Detail::PrescribedCellConflict { at, .. }
             | Detail::FloatingRegion { at, .. }
             | Detail::UnbalancedSources { at, .. }
-            | Detail::BudgetGroup { at, .. } => Some(*at),
+            | Detail::BudgetGroup { at, .. }
+            | Detail::NotDiagonallyDominant { at, .. } => Some(*at),
             Detail::CellOutOfRange { cell, .. } => Some(Location::entry(*cell)),
             _ => None,
         }
@@ -501,6 +513,7 @@ impl Error {
             | Detail::InvalidSetting { value, .. }
             | Detail::PreconditionerNotPositive { value, .. }
             | Detail::PivotBreakdown { value, .. }
+            | Detail::NotDiagonallyDominant { center: value, .. }
             | Detail::InvalidSpacing { value, .. }
             | Detail::InvalidProperty { value, .. } => Some(*value),
             Detail::NotPositiveDefinite { curvature, .. } => Some(*curvature),
@@ -746,6 +759,14 @@ impl Error {
         })
     }
 
+    pub(crate) fn not_dominant(at: Location, center: f64, couplings: f64) -> Error {
+        Error::new(Detail::NotDiagonallyDominant {
+            at,
+            center,
+            couplings,
+        })
+    }
+
     pub(crate) fn budget_imbalance(imbalance_percent: f64, threshold_percent: f64) -> Error {
         Error::new(Detail::BudgetImbalance {
             imbalance_percent,
@@ -814,3 +835,20 @@ impl fmt::Debug for Error {
 }
 
 impl std::error::Error for Error {}
+
+/// The message of [`Detail::NotDiagonallyDominant`]: `couplings` is the sum of the coupling
+/// magnitudes, or NaN for a weakly dominant row that reaches no strictly dominant one.
+fn dominance_message(center: f64, couplings: f64) -> String {
+    if couplings.is_nan() {
+        format!(
+            "is only weakly diagonally dominant (center {}) and no strictly dominant row can be reached from it through its couplings",
+            Sig4(center)
+        )
+    } else {
+        format!(
+            "is not diagonally dominant: center {} against a sum of coupling magnitudes {}",
+            Sig4(center),
+            Sig4(couplings)
+        )
+    }
+}

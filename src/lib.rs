@@ -249,11 +249,11 @@ pub use memory::MAX_CELLS;
 pub use monitor::Monitor;
 pub use operator::{Coeffs5, FixedCells, LinearOperator, Stencil5};
 pub use precond::{
-    CoarseOperator, FactorSettings, Identity, IncompleteCholesky, Jacobi, Multigrid,
+    CoarseOperator, FactorSettings, Identity, Ilu0, IncompleteCholesky, Jacobi, Multigrid,
     MultigridSettings, Preconditioner, SinglePrecision, Sip, SipSettings, Ssor, WeakPivot,
 };
 pub use refine::MixedRefinement;
-pub use relax::{estimate_relaxation, RelaxationEstimate, Sor, SweepOrder};
+pub use relax::{estimate_relaxation, RelaxationBasis, RelaxationEstimate, Sor, SweepOrder};
 pub use report::{History, MethodName, Progress, Report, StopReason};
 pub use scalar::Scalar;
 pub use stencil::Banded5View;
@@ -271,11 +271,11 @@ pub use stop::{StopRule, Tolerances};
 pub mod prelude {
     pub use crate::{
         check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, CoarseOperator, Coeffs5,
-        Error, ErrorKind, FactorSettings, FixedCells, Grid, Identity, IncompleteCholesky,
+        Error, ErrorKind, FactorSettings, FixedCells, Grid, Identity, Ilu0, IncompleteCholesky,
         IterativeSolver, Jacobi, LinearOperator, MixedRefinement, Multigrid, MultigridSettings,
-        Pcg, Preconditioner, Progress, Report, Side, SinglePrecision, Sip, SipSettings,
-        SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule, SweepOrder,
-        Symmetric5, Tolerances, WeakPivot, Workspace,
+        Pcg, Preconditioner, Progress, RelaxationBasis, Report, Side, SinglePrecision, Sip,
+        SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule,
+        SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
     };
     pub use crate::{Banded5View, CapacityTerm, SystemBudget};
 }
