@@ -7,7 +7,9 @@
 mod precond_problems;
 
 use nalgebra::{DMatrix, DVector};
-use precond_problems::{advection, advection_with, dense_free, random_diffusion, AdvectionScheme};
+use precond_problems::{
+    advection, advection_along, advection_with, dense_free, random_diffusion, AdvectionScheme,
+};
 use proptest::prelude::*;
 use quintet::prelude::*;
 use quintet::space::Serial;
@@ -490,52 +492,55 @@ proptest! {
 #[ignore]
 fn measure_standalone_multigrid_and_sip_by_peclet() {
     let cap = 2000;
-    println!("n,peclet,method,iterations,outcome");
-    for n in [64, 128] {
-        for peclet in [0.1, 1.0, 10.0, 100.0] {
-            let (op, rhs, x0) = advection(n, peclet);
-            let options = SolveOptions::default().tolerance(1e-8).max_iterations(cap);
-            for rule in [CoarseOperator::Upscaled, CoarseOperator::LumpedGalerkin] {
-                let settings = MultigridSettings {
-                    coarse_operator: rule,
-                    ..MultigridSettings::default()
-                };
-                let mut mg = Multigrid::new(&op, settings)
+    println!("flow,n,peclet,method,iterations,outcome");
+    for (flow, towards_east) in [("east", true), ("west", false)] {
+        for n in [64, 128, 256] {
+            for peclet in [0.1, 1.0, 10.0, 100.0] {
+                let (op, rhs, x0) =
+                    advection_along(n, peclet, AdvectionScheme::Upwind, towards_east);
+                let options = SolveOptions::default().tolerance(1e-8).max_iterations(cap);
+                for rule in [CoarseOperator::Upscaled, CoarseOperator::LumpedGalerkin] {
+                    let settings = MultigridSettings {
+                        coarse_operator: rule,
+                        ..MultigridSettings::default()
+                    };
+                    let mut mg = Multigrid::new(&op, settings)
+                        .unwrap()
+                        .with_options(options.clone());
+                    let mut x = x0.clone();
+                    let (its, outcome) = match mg.solve(&op, &rhs, &mut x) {
+                        Ok(r) => (r.iterations, "converged".to_string()),
+                        Err(e) => (
+                            e.report().map_or(0, |r| r.iterations),
+                            format!("{:?}", e.report().map(|r| r.reason)),
+                        ),
+                    };
+                    println!("{flow},{n},{peclet},mg-{rule:?},{its},{outcome}");
+                }
+                let mut sip = Sip::new(&op, SipSettings::default())
                     .unwrap()
                     .with_options(options.clone());
                 let mut x = x0.clone();
-                let (its, outcome) = match mg.solve(&op, &rhs, &mut x) {
+                let (its, outcome) = match sip.solve(&op, &rhs, &mut x) {
                     Ok(r) => (r.iterations, "converged".to_string()),
                     Err(e) => (
                         e.report().map_or(0, |r| r.iterations),
                         format!("{:?}", e.report().map(|r| r.reason)),
                     ),
                 };
-                println!("{n},{peclet},mg-{rule:?},{its},{outcome}");
-            }
-            let mut sip = Sip::new(&op, SipSettings::default())
-                .unwrap()
-                .with_options(options.clone());
-            let mut x = x0.clone();
-            let (its, outcome) = match sip.solve(&op, &rhs, &mut x) {
-                Ok(r) => (r.iterations, "converged".to_string()),
-                Err(e) => (
-                    e.report().map_or(0, |r| r.iterations),
-                    format!("{:?}", e.report().map(|r| r.reason)),
-                ),
-            };
-            println!("{n},{peclet},sip,{its},{outcome}");
-            for omega in [1.0, 1.5] {
-                let mut sor = Sor::new(omega).unwrap().with_options(options.clone());
-                let mut x = x0.clone();
-                let (its, outcome) = match sor.solve(&op, &rhs, &mut x) {
-                    Ok(r) => (r.iterations, "converged".to_string()),
-                    Err(e) => (
-                        e.report().map_or(0, |r| r.iterations),
-                        format!("{:?}", e.report().map(|r| r.reason)),
-                    ),
-                };
-                println!("{n},{peclet},sor-{omega},{its},{outcome}");
+                println!("{flow},{n},{peclet},sip,{its},{outcome}");
+                for omega in [1.0, 1.5] {
+                    let mut sor = Sor::new(omega).unwrap().with_options(options.clone());
+                    let mut x = x0.clone();
+                    let (its, outcome) = match sor.solve(&op, &rhs, &mut x) {
+                        Ok(r) => (r.iterations, "converged".to_string()),
+                        Err(e) => (
+                            e.report().map_or(0, |r| r.iterations),
+                            format!("{:?}", e.report().map(|r| r.reason)),
+                        ),
+                    };
+                    println!("{flow},{n},{peclet},sor-{omega},{its},{outcome}");
+                }
             }
         }
     }

@@ -228,11 +228,29 @@ pub fn advection_with(
     peclet: f64,
     scheme: AdvectionScheme,
 ) -> (Banded5<f64>, Vec<f64>, Vec<f64>) {
+    advection_along(n, peclet, scheme, true)
+}
+
+/// [`advection_with`] with the flow towards east (`towards_east`, from the fixed west column
+/// at 1 to the east column at 0: along the natural cell order, which Gauss–Seidel and the
+/// incomplete factorisations sweep in) or towards west (against it: the west column is then
+/// the outflow and holds 0, the east column the inflow at 1).
+pub fn advection_along(
+    n: usize,
+    peclet: f64,
+    scheme: AdvectionScheme,
+    towards_east: bool,
+) -> (Banded5<f64>, Vec<f64>, Vec<f64>) {
     let grid = Grid::new(n, n).unwrap();
     let (d, f) = (1.0, peclet);
-    let (a_west, a_east) = match scheme {
+    let (upstream, downstream) = match scheme {
         AdvectionScheme::Upwind => (d + f, d),
         AdvectionScheme::Central => (d + 0.5 * f, d - 0.5 * f),
+    };
+    let (a_west, a_east) = if towards_east {
+        (upstream, downstream)
+    } else {
+        (downstream, upstream)
     };
     let op = Banded5::from_fn(grid, |i, j| {
         let mut c = Coeffs5::default();
@@ -264,8 +282,9 @@ pub fn advection_with(
         .with_fixed(FixedCells::new(grid, fixed).unwrap())
         .unwrap();
     let mut x0 = vec![0.0; grid.cells()];
+    let inflow = if towards_east { 0 } else { n - 1 };
     for j in 0..n {
-        x0[grid.index(0, j)] = 1.0;
+        x0[grid.index(inflow, j)] = 1.0;
     }
     (op, vec![0.0; grid.cells()], x0)
 }
