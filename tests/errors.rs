@@ -515,7 +515,9 @@ fn the_relaxation_estimate_answers_or_refuses_a_non_symmetric_operator() {
     assert!(err.to_string().starts_with(
         "the row of cell 1 (i = 1, j = 0) is not diagonally dominant: center 2.000 against a sum of coupling magnitudes 4.000. Young's formula"
     ));
-    assert!(err.hint().is_some_and(|h| h.contains("Young's formula") && h.contains("ILU(0)")));
+    assert!(err
+        .hint()
+        .is_some_and(|h| h.contains("Young's formula") && h.contains("ILU(0)")));
 }
 
 /// A raw system with nothing that fixes its level (no fixed cell, every row sums to zero) is

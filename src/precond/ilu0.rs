@@ -68,7 +68,7 @@ const PIVOT_FLOOR: f64 = 1e-8;
 ///     ..Coeffs5::default()
 /// })?;
 /// let mut ilu = Ilu0::new(&op)?;
-/// let x = [1.0, 2.0, 3.0, 4.0, 5.0];
+/// let x = [1.0f64, 2.0, 3.0, 4.0, 5.0];
 /// let mut r = [0.0; 5];
 /// op.apply(&x, &mut r)?;
 /// let mut z = [0.0; 5];

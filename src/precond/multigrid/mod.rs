@@ -19,6 +19,22 @@
 //!   symmetric operator.
 //! * **Coarsest level**: solved exactly by a banded Cholesky factorisation.
 //!
+//! **Non-symmetric operators** (upwinded advection–diffusion, any operator whose eliminated
+//! couplings are not exactly symmetric): [`Multigrid::new`] detects them and builds each
+//! coarse level from the fine operator's symmetric part `½(A + Aᵀ)` (interpolation and coarse
+//! operator by the chosen [`CoarseOperator`] rule) plus the Galerkin product `Pᵀ·K·P` of its
+//! skew part `K = ½(A − Aᵀ)` (restriction `R = Pᵀ`), lumped onto the 5-point pattern with its
+//! row and column sums kept, and with artificial diffusion added on a coarse edge only where
+//! the coupling would otherwise turn positive (the hybrid scheme's rule), so coarse operators
+//! of an M-matrix stay M-matrices. The coarsest level is solved by a banded LU factorisation.
+//! The symmetric construction is untouched (same bits as before). The cycle is the same
+//! (red-black Gauss–Seidel), but it is no longer a symmetric operator, so it is a
+//! preconditioner for non-symmetric Krylov drivers, not for PCG; the standalone solver runs
+//! the plain cycle (`α = 1`: without symmetry there is no energy norm to minimise) and needs
+//! only positive centers. Measured counts by cell Péclet number are in the
+//! [preconditioner notes](super): grid-independent (7–8 V(3,3) cycles) up to Péclet 1,
+//! growing with the grid from Péclet 10 on.
+//!
 //! With `A` symmetric positive definite, every coarse operator is SPD and each Gauss–Seidel
 //! sweep is a contraction in the energy norm, so the V-cycle `B` is symmetric positive
 //! definite (its error operator `I − B·A` has every eigenvalue below 1) and PCG may use it.
@@ -109,7 +125,8 @@ pub struct MultigridSettings {
     /// matrix–vector product per cycle). With it, every cycle reduces the error for any SPD
     /// operator; without it (`α = 1`, the plain cycle) the iteration diverges when the V-cycle
     /// over-corrects, as it does on high-contrast fields (see the module notes). Default
-    /// `true`. PCG ignores it.
+    /// `true`. PCG ignores it, and so does the standalone solver on a non-symmetric operator
+    /// (no energy norm: it runs the plain cycle).
     pub energy_step: bool,
     /// How coarse operators are built. Default [`CoarseOperator::Upscaled`].
     pub coarse_operator: CoarseOperator,
