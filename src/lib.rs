@@ -69,7 +69,7 @@
 //! | yes | any | any, memory very tight | [`Pcg`] + [`Jacobi`] | one extra array; the diagonal scaling absorbs much of the contrast |
 //! | yes | any | 10⁶ and up, bandwidth-bound | [`Pcg`] + [`SinglePrecision`] with a [`Multigrid`] on an `f32` copy | the V-cycle moves half the bytes; Krylov vectors and residuals stay `f64` |
 //! | yes | any | 10⁶ and up, to 10⁻¹² | [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy |
-//! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`], or [`Sip`] on its own | both need positive centers only; SOR converges for ω ≤ 1 on diagonally dominant rows and larger ω is often faster: try a few and compare the reports ([`estimate_relaxation`] is for symmetric operators only, and refuses others) |
+//! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`], or [`Sip`] on its own | both need positive centers only; Gauss–Seidel (ω = 1) converges on diagonally dominant rows, and larger ω was measured slower on upwind advection from cell Péclet 10 on ([`estimate_relaxation`] answers ω = 1 for a diagonally dominant non-symmetric operator and refuses one that is not, naming the row) |
 //! | yes | small only | any | [`Pcg`] + [`Sip`] | the symmetrised Stone factor; at high contrast it is not positive definite and PCG stops with [`ErrorKind::PreconditionerNotPositive`] |
 //! | either | — | — | [`Sor::gauss_seidel`] | a smoother, not a solver: iterations grow like `1/h²` |
 //! | yes | — | small | [`SteepestDescent`] | teaching and baselines; iterations grow like `1/h²` |
