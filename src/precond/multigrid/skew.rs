@@ -6,9 +6,9 @@
 //!
 //! * **Symmetric part**: exactly as for a symmetric operator (the chosen
 //!   [`CoarseOperator`](super::CoarseOperator) rule and the operator-dependent interpolation
-//!   `P`), applied to `S`. When `A` is symmetric, `S = A` to the bit (`½(a + a) = a`), but the
-//!   symmetric path never comes here: [`Multigrid::new`](super::Multigrid::new) tests for exact
-//!   symmetry first.
+//!   `P`), applied to `S`. A symmetric operator never comes here:
+//!   [`Multigrid::new`](super::Multigrid::new) tests for symmetry (to a relative 10⁻¹⁰) first
+//!   and keeps the symmetric construction for it.
 //! * **Skew part**: the Galerkin product `Pᵀ·K·P` (restriction `R = Pᵀ`, as for the symmetric
 //!   part), which reaches up to two coarse cells away, lumped onto the 5-point pattern: the
 //!   entry between coarse cells `a` and `c` is moved onto every edge of the L-shaped lattice
