@@ -86,6 +86,10 @@ pub enum ErrorKind {
     /// A model's flow field enters through an edge at a free cell, and no inflow value says
     /// what the entering fluid carries in there.
     NoInflowValue,
+    /// A method that needs a diagonally dominant operator met a row whose center is smaller
+    /// than the sum of its couplings' magnitudes, or a weakly dominant row from which no
+    /// strictly dominant row can be reached.
+    NotDiagonallyDominant,
 }
 
 impl ErrorKind {
@@ -305,6 +309,12 @@ enum Detail {
         net_inflow: f64,
         total: f64,
     },
+    #[error("the row of {at} {}", dominance_message(*center, *couplings))]
+    NotDiagonallyDominant {
+        at: Location,
+        center: f64,
+        couplings: f64,
+    },
     #[error("budget group \"{group}\" names {at}, {reason}")]
     BudgetGroup {
         group: String,
@@ -420,6 +430,7 @@ impl Error {
             Detail::FieldShape { .. } => ErrorKind::GridMismatch,
             Detail::BudgetGroup { .. } => ErrorKind::BudgetGroup,
             Detail::NoInflowValue { .. } => ErrorKind::NoInflowValue,
+            Detail::NotDiagonallyDominant { .. } => ErrorKind::NotDiagonallyDominant,
         }
     }
 
@@ -470,7 +481,8 @@ impl Error {
             | Detail::FloatingRegion { at, .. }
             | Detail::UnbalancedSources { at, .. }
             | Detail::BudgetGroup { at, .. }
-            | Detail::NoInflowValue { at, .. } => Some(*at),
+            | Detail::NoInflowValue { at, .. }
+            | Detail::NotDiagonallyDominant { at, .. } => Some(*at),
             Detail::CellOutOfRange { cell, .. } => Some(Location::entry(*cell)),
             _ => None,
         }
@@ -513,6 +525,7 @@ impl Error {
             | Detail::InvalidSetting { value, .. }
             | Detail::PreconditionerNotPositive { value, .. }
             | Detail::PivotBreakdown { value, .. }
+            | Detail::NotDiagonallyDominant { center: value, .. }
             | Detail::InvalidSpacing { value, .. }
             | Detail::InvalidProperty { value, .. } => Some(*value),
             Detail::NotPositiveDefinite { curvature, .. } => Some(*curvature),
@@ -763,6 +776,14 @@ impl Error {
         Error::new(Detail::NoInflowValue { side, at, flow })
     }
 
+    pub(crate) fn not_dominant(at: Location, center: f64, couplings: f64) -> Error {
+        Error::new(Detail::NotDiagonallyDominant {
+            at,
+            center,
+            couplings,
+        })
+    }
+
     pub(crate) fn budget_imbalance(imbalance_percent: f64, threshold_percent: f64) -> Error {
         Error::new(Detail::BudgetImbalance {
             imbalance_percent,
@@ -831,3 +852,20 @@ impl fmt::Debug for Error {
 }
 
 impl std::error::Error for Error {}
+
+/// The message of [`Detail::NotDiagonallyDominant`]: `couplings` is the sum of the coupling
+/// magnitudes, or NaN for a weakly dominant row that reaches no strictly dominant one.
+fn dominance_message(center: f64, couplings: f64) -> String {
+    if couplings.is_nan() {
+        format!(
+            "is only weakly diagonally dominant (center {}) and no strictly dominant row can be reached from it through its couplings",
+            Sig4(center)
+        )
+    } else {
+        format!(
+            "is not diagonally dominant: center {} against a sum of coupling magnitudes {}",
+            Sig4(center),
+            Sig4(couplings)
+        )
+    }
+}

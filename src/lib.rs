@@ -71,7 +71,7 @@
 //! | yes | any | any, memory very tight | [`Pcg`] + [`Jacobi`] | one extra array; the diagonal scaling absorbs much of the contrast |
 //! | yes | any | 10⁶ and up, bandwidth-bound | [`Pcg`] + [`SinglePrecision`] with a [`Multigrid`] on an `f32` copy | the V-cycle moves half the bytes; Krylov vectors and residuals stay `f64` |
 //! | yes | any | 10⁶ and up, to 10⁻¹² | [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy |
-//! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`], or [`Sip`] on its own | both need positive centers only; SOR converges for ω ≤ 1 on diagonally dominant rows and larger ω is often faster: try a few and compare the reports ([`estimate_relaxation`] is for symmetric operators only, and refuses others) |
+//! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`], or [`Sip`] on its own | both need positive centers only; Gauss–Seidel (ω = 1) converges on diagonally dominant rows, and larger ω was measured slower on upwind advection from cell Péclet 10 on ([`estimate_relaxation`] answers ω = 1 for a diagonally dominant non-symmetric operator and refuses one that is not, naming the row) |
 //! | yes | small only | any | [`Pcg`] + [`Sip`] | the symmetrised Stone factor; at high contrast it is not positive definite and PCG stops with [`ErrorKind::PreconditionerNotPositive`] |
 //! | either | — | — | [`Sor::gauss_seidel`] | a smoother, not a solver: iterations grow like `1/h²` |
 //! | yes | — | small | [`SteepestDescent`] | teaching and baselines; iterations grow like `1/h²` |
@@ -254,11 +254,11 @@ pub use memory::MAX_CELLS;
 pub use monitor::Monitor;
 pub use operator::{Coeffs5, FixedCells, LinearOperator, Stencil5};
 pub use precond::{
-    CoarseOperator, FactorSettings, Identity, IncompleteCholesky, Jacobi, Multigrid,
+    CoarseOperator, FactorSettings, Identity, Ilu0, IncompleteCholesky, Jacobi, Multigrid,
     MultigridSettings, Preconditioner, SinglePrecision, Sip, SipSettings, Ssor, WeakPivot,
 };
 pub use refine::MixedRefinement;
-pub use relax::{estimate_relaxation, RelaxationEstimate, Sor, SweepOrder};
+pub use relax::{estimate_relaxation, RelaxationBasis, RelaxationEstimate, Sor, SweepOrder};
 pub use report::{History, MethodName, Progress, Report, StopReason};
 pub use scalar::Scalar;
 pub use stencil::Banded5View;
@@ -276,11 +276,11 @@ pub use stop::{StopRule, Tolerances};
 pub mod prelude {
     pub use crate::{
         check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, CoarseOperator, Coeffs5,
-        Error, ErrorKind, FactorSettings, FixedCells, Grid, Identity, IncompleteCholesky,
+        Error, ErrorKind, FactorSettings, FixedCells, Grid, Identity, Ilu0, IncompleteCholesky,
         IterativeSolver, Jacobi, LinearOperator, MixedRefinement, Multigrid, MultigridSettings,
-        Pcg, Preconditioner, Progress, Report, Side, SinglePrecision, Sip, SipSettings,
-        SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule, SweepOrder,
-        Symmetric5, Tolerances, WeakPivot, Workspace,
+        Pcg, Preconditioner, Progress, RelaxationBasis, Report, Side, SinglePrecision, Sip,
+        SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule,
+        SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
     };
     pub use crate::{Banded5View, CapacityTerm, SystemBudget};
 }

@@ -10,6 +10,7 @@
 //! from inside the pool (`pool.install(|| …)`).
 
 mod common;
+mod precond_problems;
 
 use std::alloc::{GlobalAlloc, Layout, System};
 use std::cell::Cell;
@@ -135,6 +136,35 @@ fn nothing_is_allocated_per_iteration_or_per_application() {
     pool.broadcast(|_| ());
     pool.install(drivers_allocate_nothing_per_iteration);
     pool.install(preconditioner_application_allocates_nothing);
+    pool.install(nonsymmetric_preconditioners_allocate_nothing);
+}
+
+/// The preconditioners built for non-symmetric operators (ILU(0), the plain SIP inverse,
+/// multigrid's non-symmetric hierarchy) on upwind advection–diffusion.
+fn nonsymmetric_preconditioners_allocate_nothing() {
+    for n in [24, 200] {
+        let (op, _, _) = precond_problems::advection(n, 10.0);
+        let plain = SipSettings {
+            symmetrised: false,
+            ..Default::default()
+        };
+        let mut choices: Vec<Box<dyn Preconditioner<f64>>> = vec![
+            Box::new(Ilu0::new(&op).unwrap()),
+            Box::new(Sip::new(&op, plain).unwrap()),
+            Box::new(Multigrid::new(&op, MultigridSettings::default()).unwrap()),
+        ];
+        let r: Vec<f64> = (0..op.grid().cells()).map(|k| (k as f64).cos()).collect();
+        let mut z = vec![0.0; r.len()];
+        for pre in &mut choices {
+            pre.apply(&op, &Threaded, &r, &mut z);
+            let count = allocations_during(|| {
+                for _ in 0..3 {
+                    pre.apply(&op, &Threaded, &r, &mut z);
+                }
+            });
+            assert_eq!(count, 0, "{} on {n}²", pre.name());
+        }
+    }
 }
 
 fn drivers_allocate_nothing_per_iteration() {

@@ -486,8 +486,11 @@ fn cg_failures_suggest_the_symmetry_check() {
     );
 }
 
+/// A non-symmetric operator gets ω = 1 (Gauss–Seidel) when it is diagonally dominant, and a
+/// refusal naming the first row that is not otherwise (Varga, Matrix Iterative Analysis, 1962,
+/// ch. 3, from memory: Gauss–Seidel converges for diagonally dominant matrices of this kind).
 #[test]
-fn the_relaxation_estimate_refuses_a_non_symmetric_operator() {
+fn the_relaxation_estimate_answers_or_refuses_a_non_symmetric_operator() {
     let grid = Grid::new(6, 1).unwrap();
     let upwind = Banded5::from_fn(grid, |i, _| Coeffs5 {
         center: 3.0,
@@ -496,12 +499,25 @@ fn the_relaxation_estimate_refuses_a_non_symmetric_operator() {
         ..Coeffs5::default()
     })
     .unwrap();
-    let err = estimate_relaxation(&upwind, 20).unwrap_err();
-    assert_eq!(err.kind(), ErrorKind::Asymmetric);
-    assert!(err.hint().is_some_and(|h| h.contains("Young's formula")));
-    assert!(err.to_string().ends_with(
-        "estimate_relaxation takes ω from the spectral radius of a symmetric Jacobi iteration (Young's formula), which a non-symmetric operator does not have; for one, run SOR at ω = 1 and a few larger values and compare the reports, or use Stone's SIP"
+    let est = estimate_relaxation(&upwind, 20).unwrap();
+    assert_eq!(est.omega, 1.0);
+    assert_eq!(est.basis, quintet::RelaxationBasis::DiagonalDominance);
+    let central = Banded5::from_fn(grid, |i, _| Coeffs5 {
+        center: 2.0,
+        west: if i > 0 { -3.0 } else { 0.0 },
+        east: if i < 5 { 1.0 } else { 0.0 },
+        ..Coeffs5::default()
+    })
+    .unwrap();
+    let err = estimate_relaxation(&central, 20).unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::NotDiagonallyDominant);
+    assert_eq!(err.location().map(|at| at.cell), Some(1));
+    assert!(err.to_string().starts_with(
+        "the row of cell 1 (i = 1, j = 0) is not diagonally dominant: center 2.000 against a sum of coupling magnitudes 4.000. Young's formula"
     ));
+    assert!(err
+        .hint()
+        .is_some_and(|h| h.contains("Young's formula") && h.contains("ILU(0)")));
 }
 
 /// A raw system with nothing that fixes its level (no fixed cell, every row sums to zero) is

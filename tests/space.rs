@@ -6,6 +6,7 @@
 //! numerical libraries: reductions are the only global communication of a Krylov method).
 
 mod common;
+mod precond_problems;
 
 use std::sync::atomic::{AtomicUsize, Ordering};
 use std::sync::Arc;
@@ -78,6 +79,27 @@ fn a_preconditioner_application_reduces_nothing() {
     let r: Vec<f64> = (0..op.len()).map(|k| (0.37 * k as f64).sin()).collect();
     let mut z = vec![0.0; r.len()];
     for mut pre in preconditioners(&op) {
+        let space = Counting::default();
+        pre.apply(&op, &space, &r, &mut z);
+        assert_eq!(space.count(), 0, "{}", pre.name());
+    }
+}
+
+#[test]
+fn a_nonsymmetric_preconditioner_application_reduces_nothing() {
+    let (op, _, _) = precond_problems::advection(180, 10.0);
+    let plain = SipSettings {
+        symmetrised: false,
+        ..Default::default()
+    };
+    let choices: Vec<Box<dyn Preconditioner<f64>>> = vec![
+        Box::new(Ilu0::new(&op).unwrap()),
+        Box::new(Sip::new(&op, plain).unwrap()),
+        Box::new(Multigrid::new(&op, MultigridSettings::default()).unwrap()),
+    ];
+    let r: Vec<f64> = (0..op.len()).map(|k| (0.37 * k as f64).sin()).collect();
+    let mut z = vec![0.0; r.len()];
+    for mut pre in choices {
         let space = Counting::default();
         pre.apply(&op, &space, &r, &mut z);
         assert_eq!(space.count(), 0, "{}", pre.name());

@@ -31,6 +31,24 @@ pub struct SipSettings {
     /// (and a weak compensation denominator by 1, i.e. no compensation there);
     /// [`WeakPivot::Reject`] returns [`ErrorKind::PivotBreakdown`](crate::ErrorKind::PivotBreakdown).
     pub weak_pivot: WeakPivot,
+    /// Which inverse the [`Preconditioner`] applies. `true` (the default): the symmetrised
+    /// `½·((LU)⁻¹ + (LU)⁻ᵀ)`, symmetric as [`Pcg`](crate::Pcg) needs (four triangular sweeps,
+    /// reported as "symmetrised SIP"). `false`: the plain `(LU)⁻¹` (two sweeps, reported as
+    /// "SIP"), for drivers that accept a non-symmetric preconditioner (BiCGSTAB, GMRES) — on
+    /// a non-symmetric operator it is the better approximation of `A⁻¹`, since `LU ≈ A` and
+    /// the symmetrisation averages in `(LU)⁻ᵀ ≈ A⁻ᵀ`. The standalone iteration always uses
+    /// the plain inverse.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let plain = SipSettings { symmetrised: false, ..Default::default() };
+    /// let grid = Grid::new(8, 8)?;
+    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// assert_eq!(Preconditioner::<f64>::name(&Sip::new(&op, plain)?), "SIP");
+    /// assert!(SipSettings::default().symmetrised);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub symmetrised: bool,
 }
 
 impl Default for SipSettings {
@@ -39,6 +57,7 @@ impl Default for SipSettings {
             alpha: 0.92,
             pivot_floor: 1e-8,
             weak_pivot: WeakPivot::UseCenter,
+            symmetrised: true,
         }
     }
 }
@@ -59,7 +78,8 @@ impl Default for SipSettings {
 ///
 /// * As an [`IterativeSolver`] it is Stone's method: `x ← x + (LU)⁻¹·(b − A·x)`, monitored
 ///   and stopped like every driver. It needs positive centers, not symmetry.
-/// * As a [`Preconditioner`] for [`Pcg`](crate::Pcg) it applies the symmetrised inverse
+/// * As a [`Preconditioner`] for [`Pcg`](crate::Pcg) it applies (by default,
+///   [`SipSettings::symmetrised`]) the symmetrised inverse
 ///   `½·((LU)⁻¹ + (LU)⁻ᵀ)`. `LU` itself is not symmetric for `α > 0`, even when `A` is: the
 ///   expansion moves the fill-in of each row onto that row's own neighbours, and the fill-in
 ///   entries of two neighbouring rows differ, so `N ≠ Nᵀ` (at `α = 0` `LU` is the symmetric
@@ -68,6 +88,8 @@ impl Default for SipSettings {
 ///   diffusion operators), but this is not guaranteed in general, and PCG stops with
 ///   [`ErrorKind::PreconditionerNotPositive`](crate::ErrorKind::PreconditionerNotPositive) if it is not. Each application costs four
 ///   triangular sweeps.
+/// * As a preconditioner for the non-symmetric Krylov drivers, build it with
+///   [`SipSettings::symmetrised`] off: it then applies the plain `(LU)⁻¹` (two sweeps).
 ///
 /// Storage: five arrays of one entry per cell, plus one scratch vector.
 ///
@@ -351,9 +373,14 @@ impl<T: Scalar> Sip<T> {
 }
 
 impl<T: Scalar> Preconditioner<T> for Sip<T> {
-    /// `z = ½·((LU)⁻¹ + (LU)⁻ᵀ)·r`.
+    /// `z = ½·((LU)⁻¹ + (LU)⁻ᵀ)·r`, or `z = (LU)⁻¹·r` with
+    /// [`SipSettings::symmetrised`] off. Serial sweeps (recursions); `space` is not used.
     fn apply(&mut self, _op: &dyn LinearOperator<T>, _space: &dyn Space, r: &[T], z: &mut [T]) {
         if !self.lengths_ok(r, z) {
+            return;
+        }
+        if !self.settings.symmetrised {
+            self.solve_lu(r, z);
             return;
         }
         let mut scratch = std::mem::take(&mut self.scratch);
@@ -369,7 +396,11 @@ impl<T: Scalar> Preconditioner<T> for Sip<T> {
         check_built_for(self.grid, op)
     }
     fn name(&self) -> &'static str {
-        "symmetrised SIP"
+        if self.settings.symmetrised {
+            "symmetrised SIP"
+        } else {
+            "SIP"
+        }
     }
 }
 
@@ -417,5 +448,81 @@ impl<T: Scalar> IterativeSolver<T> for Sip<T> {
 
     fn options_mut(&mut self) -> &mut SolveOptions {
         &mut self.options
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::{Sip, SipSettings};
+    use crate::space::Serial;
+    use crate::{Banded5, Coeffs5, Grid, Preconditioner};
+
+    /// The plain application solves with Stone's factor itself: multiplying `z = (LU)⁻¹·r`
+    /// back by the stored `L` and `U` gives `r` to rounding (a triangular solve is backward
+    /// stable: the residual is a few `ε·‖L‖·‖U‖·‖z‖` — common practice).
+    #[test]
+    fn plain_application_inverts_the_stored_factor() {
+        let grid = Grid::new(9, 7).unwrap();
+        let (nx, n) = (grid.nx(), grid.cells());
+        // A non-symmetric, diagonally dominant stencil (upwind-like, flow towards north-east).
+        let op = Banded5::from_fn(grid, |i, j| {
+            let k = (i * 31 + j * 17) % 11;
+            let mut c = Coeffs5::default();
+            let mut sum = 0.0;
+            for (exists, value, slot) in [
+                (i > 0, -1.5 - 0.1 * k as f64, &mut c.west),
+                (i + 1 < nx, -0.5, &mut c.east),
+                (j > 0, -1.2, &mut c.south),
+                (j + 1 < 7, -0.3 - 0.05 * k as f64, &mut c.north),
+            ] {
+                if exists {
+                    *slot = value;
+                    sum -= value;
+                }
+            }
+            c.center = sum + 0.2;
+            c
+        })
+        .unwrap();
+        let settings = SipSettings {
+            symmetrised: false,
+            ..SipSettings::default()
+        };
+        let mut sip = Sip::new(&op, settings).unwrap();
+        let r: Vec<f64> = (0..n)
+            .map(|k| ((k * 7919) % 101) as f64 / 101.0 - 0.4)
+            .collect();
+        let mut z = vec![0.0; n];
+        sip.apply(&op, &Serial, &r, &mut z);
+        // y = U·z (unit upper), then L·y (diagonal 1/inv_diag, west c, south b).
+        let y: Vec<f64> = (0..n)
+            .map(|k| {
+                let mut v = z[k];
+                if k % nx + 1 < nx {
+                    v += sip.east[k] * z[k + 1];
+                }
+                if k + nx < n {
+                    v += sip.north[k] * z[k + nx];
+                }
+                v
+            })
+            .collect();
+        let mut worst: f64 = 0.0;
+        let scale = r.iter().fold(0.0f64, |m, v| m.max(v.abs())); // local: test
+        for k in 0..n {
+            let mut v = y[k] / sip.inv_diag[k];
+            if k % nx > 0 {
+                v += sip.west[k] * y[k - 1];
+            }
+            if k >= nx {
+                v += sip.south[k] * y[k - nx];
+            }
+            worst = worst.max((v - r[k]).abs());
+        }
+        assert!(
+            worst <= 100.0 * f64::EPSILON * scale,
+            "L·U·z − r = {worst:e}"
+        );
+        assert_eq!(Preconditioner::<f64>::name(&sip), "SIP");
     }
 }

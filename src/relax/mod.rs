@@ -8,5 +8,5 @@ mod estimate;
 mod sor;
 
 pub(crate) use correction::correction_solve;
-pub use estimate::{estimate_relaxation, RelaxationEstimate};
+pub use estimate::{estimate_relaxation, RelaxationBasis, RelaxationEstimate};
 pub use sor::{Sor, SweepOrder};

@@ -36,8 +36,9 @@ impl fmt::Display for SweepOrder {
 ///
 /// `ω = 1` is Gauss–Seidel. For the model problem the best factor is
 /// `ω_opt = 2/(1 + sin πh)`, and with it the sweep count grows as `h⁻¹` instead of Gauss–Seidel's
-/// `h⁻²` (Young 1950); [`estimate_relaxation`](crate::estimate_relaxation) estimates it for any
-/// operator. SOR needs positive centers, not symmetry. The residual is recomputed from `x`
+/// `h⁻²` (Young 1950); [`estimate_relaxation`](crate::estimate_relaxation) estimates it for a
+/// symmetric operator (and answers ω = 1 for a diagonally dominant non-symmetric one, where
+/// Young's formula does not hold). SOR needs positive centers, not symmetry. The residual is recomputed from `x`
 /// after every sweep (one extra matrix–vector product), so the monitor sees true residuals.
 ///
 /// # Example

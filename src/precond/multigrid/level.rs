@@ -26,7 +26,8 @@
 //!   reached from the coarse centre through the mean half-cell resistance and shared like the
 //!   interpolation.
 //!
-//! The coarse operator is again symmetric, 5-point and an M-matrix. Inactive cells (fixed
+//! The coarse operator is again symmetric, 5-point and an M-matrix. (A non-symmetric operator
+//! reaches this code through its symmetric part; `skew.rs` adds the rest.) Inactive cells (fixed
 //! cells, coarse cells with no unknown under them) are left out of `P` and `R` and are identity
 //! rows, so the V-cycle stays symmetric.
 
@@ -409,7 +410,7 @@ impl<T: Scalar> Level<T> {
     /// Prolongation weights of fine cell `(i, j)`: coarse indices and weights of the four
     /// coarse cells it interpolates from.
     #[inline]
-    fn stencil(&self, i: usize, j: usize, k: usize) -> [(usize, T); 4] {
+    pub(super) fn stencil(&self, i: usize, j: usize, k: usize) -> [(usize, T); 4] {
         let ncx = self.op.grid.nx();
         let (pi, qi, pj, qj) = (
             self.ax.parent(i),

@@ -19,6 +19,22 @@
 //!   symmetric operator.
 //! * **Coarsest level**: solved exactly by a banded Cholesky factorisation.
 //!
+//! **Non-symmetric operators** (upwinded advection–diffusion, any operator whose eliminated
+//! couplings differ by more than a relative 10⁻¹⁰): [`Multigrid::new`] detects them and builds each
+//! coarse level from the fine operator's symmetric part `½(A + Aᵀ)` (interpolation and coarse
+//! operator by the chosen [`CoarseOperator`] rule) plus the Galerkin product `Pᵀ·K·P` of its
+//! skew part `K = ½(A − Aᵀ)` (restriction `R = Pᵀ`), lumped onto the 5-point pattern with its
+//! row and column sums kept, and with artificial diffusion added on a coarse edge only where
+//! the coupling would otherwise turn positive (the hybrid scheme's rule), so coarse operators
+//! of an M-matrix stay M-matrices. The coarsest level is solved by a banded LU factorisation.
+//! The symmetric construction is untouched (same bits as before). The cycle is the same
+//! (red-black Gauss–Seidel), but it is no longer a symmetric operator, so it is a
+//! preconditioner for non-symmetric Krylov drivers, not for PCG; the standalone solver runs
+//! the plain cycle (`α = 1`: without symmetry there is no energy norm to minimise) and needs
+//! only positive centers. Measured counts by cell Péclet number are in the
+//! [preconditioner notes](super): grid-independent (7–8 V(3,3) cycles) up to Péclet 1,
+//! growing with the grid from Péclet 10 on.
+//!
 //! With `A` symmetric positive definite, every coarse operator is SPD and each Gauss–Seidel
 //! sweep is a contraction in the energy norm, so the V-cycle `B` is symmetric positive
 //! definite (its error operator `I − B·A` has every eigenvalue below 1) and PCG may use it.
@@ -43,9 +59,10 @@ mod aggregate;
 mod direct;
 mod galerkin;
 mod level;
+mod skew;
 mod smooth;
 
-use direct::{BandCholesky, MAX_DIRECT_CELLS};
+use direct::{CoarsestSolve, MAX_DIRECT_CELLS};
 use level::Level;
 use smooth::{red_black_sweep, residual, smooth_from_zero};
 
@@ -55,7 +72,11 @@ use crate::iterate::{IterativeSolver, NameCache, Requires, SolveOptions, Task, W
 use crate::operator::Stencil5;
 use crate::relax::correction_solve;
 use crate::space::Space;
+use crate::stencil::check_symmetry;
 use crate::{Error, Grid, LinearOperator, Progress, Report, Scalar};
+
+/// Relative tolerance below which the fine operator counts as symmetric.
+const SYMMETRY_TOLERANCE: f64 = 1e-10;
 
 /// How the coarse-level operators are built from the finer level (both keep a 5-point
 /// stencil).
@@ -107,7 +128,8 @@ pub struct MultigridSettings {
     /// matrix–vector product per cycle). With it, every cycle reduces the error for any SPD
     /// operator; without it (`α = 1`, the plain cycle) the iteration diverges when the V-cycle
     /// over-corrects, as it does on high-contrast fields (see the module notes). Default
-    /// `true`. PCG ignores it.
+    /// `true`. PCG ignores it, and so does the standalone solver on a non-symmetric operator
+    /// (no energy norm: it runs the plain cycle).
     pub energy_step: bool,
     /// How coarse operators are built. Default [`CoarseOperator::Upscaled`].
     pub coarse_operator: CoarseOperator,
@@ -161,7 +183,10 @@ pub struct Multigrid<T> {
     grid: Grid,
     settings: MultigridSettings,
     levels: Vec<Level<T>>,
-    direct: BandCholesky<T>,
+    direct: CoarsestSolve<T>,
+    /// Whether the fine operator's eliminated couplings were symmetric (to a relative 1e-10)
+    /// when the hierarchy was built (otherwise the non-symmetric construction of `skew.rs`).
+    symmetric: bool,
     fine_residual: Vec<T>,
     /// `1/center` of the fine operator at free cells, 0 at fixed cells (`f32`, see
     /// `Level::inverse_centers`).
@@ -213,6 +238,9 @@ impl<T: Scalar> Multigrid<T> {
         super::check_centers(op)?;
         let grid = op.grid();
         let fine = op;
+        // Symmetric to a relative 1e-10 (the tolerance of `estimate_relaxation`): rounding-level
+        // asymmetry of an assembled diffusion operator keeps the symmetric construction.
+        let symmetric = check_symmetry(op, SYMMETRY_TOLERANCE).is_ok();
         let mut levels: Vec<Level<T>> = Vec::new();
         loop {
             let current = levels.last().map_or(grid, |l| l.op.grid);
@@ -223,15 +251,18 @@ impl<T: Scalar> Multigrid<T> {
             {
                 break;
             }
-            let next = match levels.last() {
-                None => Level::below(fine, settings.coarse_operator)?,
-                Some(l) => Level::below(&l.op, settings.coarse_operator)?,
+            let rule = settings.coarse_operator;
+            let next = match (levels.last(), symmetric) {
+                (None, true) => Level::below(fine, rule)?,
+                (Some(l), true) => Level::below(&l.op, rule)?,
+                (None, false) => skew::below_nonsymmetric(fine, rule)?,
+                (Some(l), false) => skew::below_nonsymmetric(&l.op, rule)?,
             };
             levels.push(next);
         }
         let direct = match levels.last() {
-            None => BandCholesky::new(fine)?,
-            Some(l) => BandCholesky::new(&l.op)?,
+            None => CoarsestSolve::new(fine, symmetric)?,
+            Some(l) => CoarsestSolve::new(&l.op, symmetric)?,
         };
         let active = level::active_cells(fine);
         let fine_inverse_centers = (0..grid.cells())
@@ -253,6 +284,7 @@ impl<T: Scalar> Multigrid<T> {
             settings,
             levels,
             direct,
+            symmetric,
             fine_residual: vec![T::zero(); grid.cells()],
             fine_inverse_centers,
             blocks,
@@ -338,7 +370,7 @@ impl<T: Scalar> Multigrid<T> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn replaced_pivots(&self) -> usize {
-        self.direct.replaced
+        self.direct.replaced()
     }
 
     /// One V-cycle from a zero initial guess, `z = B·r`, with `fine` the fine-level operator.
@@ -455,7 +487,12 @@ impl<T: Scalar> IterativeSolver<T> for Multigrid<T> {
             .as_stencil()
             .ok_or_else(|| Error::needs_stencil("the multigrid V-cycle"))?;
         let nu = self.settings.smoothing_sweeps;
-        let energy_step = self.settings.energy_step;
+        // No energy norm without symmetry: a non-symmetric hierarchy runs the plain cycle.
+        let (energy_step, requires) = if self.symmetric {
+            (self.settings.energy_step, Requires::Spd)
+        } else {
+            (false, Requires::PositiveCenters)
+        };
         let name = self.name.get("", || {
             if energy_step {
                 format!("multigrid V({nu},{nu}) with energy-minimising steps")
@@ -472,7 +509,7 @@ impl<T: Scalar> IterativeSolver<T> for Multigrid<T> {
             options: &options,
             observer,
         };
-        correction_solve(task, &name, energy_step, Requires::Spd, |_, space, r, z| {
+        correction_solve(task, &name, energy_step, requires, |_, space, r, z| {
             self.cycle(fine, space, r, z)
         })
     }
