@@ -190,6 +190,138 @@ impl<T: Scalar> Blocks<T> {
         });
     }
 
+    /// `y = A·x` on the free cells (zero at fixed cells), returning `y·other` taken in the
+    /// same pass (BiCGSTAB's `r̂·A·p̂` and `t·s`).
+    pub(crate) fn apply_free_dot(
+        &mut self,
+        space: &dyn Space,
+        op: &(impl LinearOperator<T> + ?Sized),
+        x: &[T],
+        y: &mut [T],
+        other: &[T],
+    ) -> T {
+        let fixed = op.fixed_cells();
+        self.map(space, y, |cells, y| {
+            op.apply_block(cells.clone(), x, y);
+            zero_fixed(fixed, &cells, y);
+            (block_dot(slice(other, &cells), y), T::zero())
+        })
+        .0
+    }
+
+    /// `y = A·x` on the free cells (zero at fixed cells); no reduction.
+    pub(crate) fn apply_free(
+        &mut self,
+        space: &dyn Space,
+        op: &(impl LinearOperator<T> + ?Sized),
+        x: &[T],
+        y: &mut [T],
+    ) {
+        let fixed = op.fixed_cells();
+        self.for_each(space, y, |cells, y| {
+            op.apply_block(cells.clone(), x, y);
+            zero_fixed(fixed, &cells, y);
+        });
+    }
+
+    /// `out = a·x` (no reduction).
+    pub(crate) fn scale_into(&mut self, space: &dyn Space, a: T, x: &[T], out: &mut [T]) {
+        self.for_each(space, out, |cells, out| {
+            for (oi, &xi) in out.iter_mut().zip(slice(x, &cells)) {
+                *oi = a * xi;
+            }
+        });
+    }
+
+    /// `y = a·y` (no reduction).
+    pub(crate) fn scale(&mut self, space: &dyn Space, a: T, y: &mut [T]) {
+        self.for_each(space, y, |_, y| {
+            for yi in y.iter_mut() {
+                *yi = a * *yi;
+            }
+        });
+    }
+
+    /// `y += a·x` (no reduction).
+    pub(crate) fn axpy(&mut self, space: &dyn Space, a: T, x: &[T], y: &mut [T]) {
+        self.for_each(space, y, |cells, y| {
+            for (yi, &xi) in y.iter_mut().zip(slice(x, &cells)) {
+                *yi = *yi + a * xi;
+            }
+        });
+    }
+
+    /// `y += a·x`, returning `y·other` of the updated `y` in the same pass (one step of
+    /// modified Gram–Schmidt fused with the next projection).
+    pub(crate) fn axpy_dot(
+        &mut self,
+        space: &dyn Space,
+        a: T,
+        x: &[T],
+        y: &mut [T],
+        other: &[T],
+    ) -> T {
+        self.map(space, y, |cells, y| {
+            for (yi, &xi) in y.iter_mut().zip(slice(x, &cells)) {
+                *yi = *yi + a * xi;
+            }
+            (block_dot(slice(other, &cells), y), T::zero())
+        })
+        .0
+    }
+
+    /// `y += a·x`, returning `y·y` of the updated `y` in the same pass.
+    pub(crate) fn axpy_norm(&mut self, space: &dyn Space, a: T, x: &[T], y: &mut [T]) -> T {
+        self.map(space, y, |cells, y| {
+            for (yi, &xi) in y.iter_mut().zip(slice(x, &cells)) {
+                *yi = *yi + a * xi;
+            }
+            (block_dot(y, y), T::zero())
+        })
+        .0
+    }
+
+    /// The BiCGSTAB direction update `p = r + β·(p − ω·v)` (no reduction).
+    pub(crate) fn bicg_direction(
+        &mut self,
+        space: &dyn Space,
+        r: &[T],
+        beta: T,
+        omega: T,
+        v: &[T],
+        p: &mut [T],
+    ) {
+        self.for_each(space, p, |cells, p| {
+            let (r, v) = (slice(r, &cells), slice(v, &cells));
+            for ((pi, &ri), &vi) in p.iter_mut().zip(r).zip(v) {
+                *pi = ri + beta * (*pi - omega * vi);
+            }
+        });
+    }
+
+    /// `x += a·p + b·q`; returns the largest change `|a·p + b·q|`.
+    pub(crate) fn add_two_largest(
+        &mut self,
+        space: &dyn Space,
+        a: T,
+        p: &[T],
+        b: T,
+        q: &[T],
+        x: &mut [T],
+    ) -> T {
+        self.map(space, x, |cells, x| {
+            let (p, q) = (slice(p, &cells), slice(q, &cells));
+            let mut largest = T::zero();
+            for ((xi, &pi), &qi) in x.iter_mut().zip(p).zip(q) {
+                let d = a * pi + b * qi;
+                *xi = *xi + d;
+                largest = largest.max(d.abs());
+            }
+            (T::zero(), largest)
+        })
+        .1
+    }
+
     /// `x += d` on every entry; returns the largest `|d|`.
     pub(crate) fn add_largest(&mut self, space: &dyn Space, d: &[T], x: &mut [T]) -> T {
         self.map(space, x, |cells, x| {
