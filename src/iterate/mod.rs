@@ -1,8 +1,8 @@
 //! The one iteration loop, and the solving interface every driver shares: [`IterativeSolver`],
 //! [`SolveOptions`] and the caller-owned [`Workspace`].
 //!
-//! A method (CG, steepest descent, SOR, a residual-correction iteration, refinement) supplies
-//! only its set-up and one step, and declares how many work vectors it needs. The loop owns
+//! A method (CG, steepest descent, BiCGSTAB, GMRES, SOR, a residual-correction iteration,
+//! refinement) supplies only its set-up and one step, and declares how many work vectors it needs. The loop owns
 //! everything else: the input checks, the right-hand-side norm and the initial residual, the
 //! [`Monitor`] and the stopping rule, the periodic and the final true-residual refresh,
 //! breakdown and non-finite handling, the rounding-floor stop, and the conclusion into a
@@ -52,7 +52,8 @@ pub struct SolveOptions {
     /// A rule that replaces [`SolveOptions::tolerances`] when set.
     pub rule: Option<Arc<dyn StopRule>>,
     /// Recompute the true residual `b − A·x` every this many iterations in methods that update
-    /// it recursively (CG, steepest descent, the energy-minimising correction step), to stop
+    /// it recursively (CG, steepest descent, BiCGSTAB, the energy-minimising correction step;
+    /// GMRES starts each cycle from a true residual and needs none), to stop
     /// round-off drift; 0 turns the periodic refresh off. Methods that recompute the residual
     /// from `x` every iteration (SOR, stationary corrections, refinement) need no refresh. The
     /// true residual is always recomputed before a solve is declared converged. Default 50.
@@ -174,7 +175,8 @@ impl fmt::Debug for SolveOptions {
 /// A driver that solves `A·x = b` in place.
 ///
 /// Implemented by every driver: [`SteepestDescent`](crate::SteepestDescent),
-/// [`Pcg`](crate::Pcg) (and so [`Cg`](crate::Cg)), [`Sor`](crate::Sor),
+/// [`Pcg`](crate::Pcg) (and so [`Cg`](crate::Cg)), [`BiCgStab`](crate::BiCgStab),
+/// [`Gmres`](crate::Gmres), [`Sor`](crate::Sor),
 /// [`MixedRefinement`](crate::MixedRefinement), and the standalone [`Sip`](crate::Sip) and
 /// [`Multigrid`](crate::Multigrid) iterations. The trait is object-safe: a
 /// `Box<dyn IterativeSolver<f64>>` holds any of them. The operator is any
@@ -188,7 +190,9 @@ impl fmt::Debug for SolveOptions {
 /// (iteration limit, stagnation, divergence, non-finite values, a non-converged custom stop),
 /// [`ErrorKind::NotPositiveDefinite`](crate::ErrorKind::NotPositiveDefinite) and
 /// [`ErrorKind::PreconditionerNotPositive`](crate::ErrorKind::PreconditionerNotPositive) (CG
-/// breakdowns). Input errors (lengths, non-finite input, a non-positive center, a
+/// breakdowns), [`ErrorKind::ShadowOrthogonal`](crate::ErrorKind::ShadowOrthogonal) and
+/// [`ErrorKind::StabilisingStepZero`](crate::ErrorKind::StabilisingStepZero) (BiCGSTAB),
+/// [`ErrorKind::HessenbergSingular`](crate::ErrorKind::HessenbergSingular) (GMRES). Input errors (lengths, non-finite input, a non-positive center, a
 /// preconditioner built for another grid) are reported before any iteration and leave `x`
 /// unchanged.
 ///

@@ -301,7 +301,7 @@ pub fn random_nonsymmetric(
 ) -> Problem {
     let grid = Grid::new(nx, ny).unwrap();
     let n = grid.cells();
-    let mut rng = Rng::new(seed ^ 0x5EED_0F_AD7E_C710);
+    let mut rng = Rng::new(seed ^ 0x005E_ED0F_AD7E_C710);
     let [mut c, mut w, mut e, mut s, mut nn] = [(); 5].map(|_| vec![0.0; n]);
     let bias = rng.range(1.0, 5.0);
     let coupling = |rng: &mut Rng, scale: f64| {
