@@ -374,3 +374,38 @@ fn iteration_counts_for_the_decision_table() {
         }
     }
 }
+
+/// The three breakdown messages as a user reads them (printed; run with `--nocapture`).
+#[test]
+fn breakdown_messages_read_whole() {
+    let cases: [(Banded5<f64>, Vec<f64>, bool); 3] = [
+        (
+            chain(&[1.0, 1.0, 1.0], &[0.0, 1.0, -1.0], &[0.0, 1.0, 0.0]),
+            vec![-1.0, 0.0, 0.0],
+            true,
+        ),
+        (
+            chain(&[1.0, 0.0], &[0.0, 1.0], &[1.0, 0.0]),
+            vec![1.0, 0.0],
+            true,
+        ),
+        (
+            chain(&[0.0, 0.0, 0.0], &[0.0, 1.0, 1.0], &[0.0, 0.0, 0.0]),
+            vec![1.0, 0.0, 0.0],
+            false,
+        ),
+    ];
+    for (op, rhs, bicgstab) in cases {
+        let mut x = vec![0.0; rhs.len()];
+        let err = if bicgstab {
+            BiCgStab::default().solve(&op, &rhs, &mut x)
+        } else {
+            Gmres::default().solve(&op, &rhs, &mut x)
+        }
+        .unwrap_err();
+        let message = err.to_string();
+        assert!(message.contains("broke down in iteration"), "{message}");
+        assert!(err.hint().is_some(), "{message}");
+        println!("{:?}: {message}", err.kind());
+    }
+}

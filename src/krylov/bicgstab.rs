@@ -272,7 +272,7 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for BiCgStab<P> {
 }
 
 /// What a BiCGSTAB breakdown, or a solve that went non-finite, suggests.
-const BICGSTAB_HINT: &str = "the last iterate is kept in x: solving again from it starts a fresh shadow residual, which often gets past the breakdown; GMRES (Gmres) cannot break down this way and its residual never grows; another preconditioner (Jacobi, SIP, ILU(0)) changes the iteration";
+const BICGSTAB_HINT: &str = "Solving again from the iterate in x starts a fresh shadow residual, which often gets past the breakdown; GMRES (Gmres) cannot break down this way and its residual never grows; another preconditioner (Jacobi, SIP, ILU(0)) changes the iteration";
 
 /// `e` with [`BICGSTAB_HINT`] if it is a breakdown or a non-finite stop.
 fn suggest_after_bicgstab(e: Error) -> Error {

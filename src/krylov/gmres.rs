@@ -395,4 +395,4 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for Gmres<P> {
 }
 
 /// What a GMRES breakdown suggests.
-const GMRES_HINT: &str = "check the operator for a region with no coupling to a fixed cell and no exchange (a zero row or a closed no-flow region) and the preconditioner for a zero or singular factor; GMRES needs a non-singular operator and preconditioner";
+const GMRES_HINT: &str = "Check the operator for a region with no coupling to a fixed cell and no exchange (a zero row or a closed no-flow region) and the preconditioner for a zero or singular factor; GMRES needs a non-singular operator and preconditioner";
