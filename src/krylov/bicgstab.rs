@@ -17,9 +17,10 @@ use crate::{Error, ErrorKind, LinearOperator, Progress, Report, Scalar, StopReas
 /// same quantity as for every other driver; convergence is confirmed on the true residual,
 /// recomputed from `x`, before it is declared.
 ///
-/// Each iteration costs two operator products (each with a dot product in the same pass), two
-/// preconditioner applications and four more dot products; eight vectors of storage with the
-/// residual. The iteration asks nothing of symmetry, definiteness or the centers (a pure
+/// Each iteration costs two operator products (with `r̂·v`, and with `t·s` and `t·t`, in the
+/// same passes), two preconditioner applications, the product `r̂·r`, the update of `s` (with
+/// `s·s`) and one fused update of `x` and `r` (with `r·r` and the largest change): five
+/// reductions and eight vectors of storage with the residual. The iteration asks nothing of symmetry, definiteness or the centers (a pure
 /// no-flow system, singular whatever the method, is refused with
 /// [`ErrorKind::Singular`](crate::ErrorKind::Singular)). When the residual `s` after the
 /// first half of an iteration already meets the stop rule, the iteration ends there with
@@ -196,15 +197,14 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for BiCgStabStep<'_, P,
                 residual: Residual::Updated,
             });
         }
-        let s_hat: &[T] = if self.identity {
-            &cx.r[..]
-        } else {
+        if !self.identity {
             self.pre.apply(op, space, cx.r, s_hat);
             zero_fixed(fixed, &all, s_hat);
-            &s_hat[..]
-        };
-        let ts = cx.blocks.apply_free_dot(space, op, s_hat, t, cx.r);
-        let tt = cx.blocks.dot(space, t, t);
+        }
+        let s_hat: Option<&[T]> = (!self.identity).then_some(&s_hat[..]);
+        let (ts, tt) = cx
+            .blocks
+            .apply_free_dot_norm(space, op, s_hat.unwrap_or(cx.r), t, cx.r);
         if !ts.is_finite() || !tt.is_finite() {
             return Err(Breakdown::Stabiliser(ts / tt));
         }
@@ -212,10 +212,9 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for BiCgStabStep<'_, P,
         if omega == T::zero() {
             return Err(Breakdown::Stabiliser(omega));
         }
-        let change = cx
+        let (rr, change) = cx
             .blocks
-            .add_two_largest(space, alpha, p_hat, omega, s_hat, cx.x);
-        let rr = cx.blocks.axpy_norm(space, -omega, t, cx.r);
+            .bicgstab_update(space, alpha, p_hat, omega, s_hat, t, cx.x, cx.r);
         self.rho = rho;
         self.alpha = alpha;
         self.omega = omega;
