@@ -190,6 +190,192 @@ impl<T: Scalar> Blocks<T> {
         });
     }
 
+    /// `y = A·x` on the free cells (zero at fixed cells), returning `y·other` taken in the
+    /// same pass (BiCGSTAB's `r̂·A·p̂` and `t·s`).
+    pub(crate) fn apply_free_dot(
+        &mut self,
+        space: &dyn Space,
+        op: &(impl LinearOperator<T> + ?Sized),
+        x: &[T],
+        y: &mut [T],
+        other: &[T],
+    ) -> T {
+        let fixed = op.fixed_cells();
+        self.map(space, y, |cells, y| {
+            op.apply_block(cells.clone(), x, y);
+            zero_fixed(fixed, &cells, y);
+            (block_dot(slice(other, &cells), y), T::zero())
+        })
+        .0
+    }
+
+    /// `y = A·x` on the free cells (zero at fixed cells), returning `(y·other, y·y)` from one
+    /// pass and one reduction (BiCGSTAB's `t·s` and `t·t`).
+    pub(crate) fn apply_free_dot_norm(
+        &mut self,
+        space: &dyn Space,
+        op: &(impl LinearOperator<T> + ?Sized),
+        x: &[T],
+        y: &mut [T],
+        other: &[T],
+    ) -> (T, T) {
+        let fixed = op.fixed_cells();
+        let sums = [Combine::Sum, Combine::Sum];
+        self.map_with(
+            space,
+            y,
+            |cells, y| {
+                op.apply_block(cells.clone(), x, y);
+                zero_fixed(fixed, &cells, y);
+                (block_dot(slice(other, &cells), y), block_dot(y, y))
+            },
+            &sums,
+        )
+    }
+
+    /// `y = A·x` on the free cells (zero at fixed cells); no reduction.
+    pub(crate) fn apply_free(
+        &mut self,
+        space: &dyn Space,
+        op: &(impl LinearOperator<T> + ?Sized),
+        x: &[T],
+        y: &mut [T],
+    ) {
+        let fixed = op.fixed_cells();
+        self.for_each(space, y, |cells, y| {
+            op.apply_block(cells.clone(), x, y);
+            zero_fixed(fixed, &cells, y);
+        });
+    }
+
+    /// `out = a·x` (no reduction).
+    pub(crate) fn scale_into(&mut self, space: &dyn Space, a: T, x: &[T], out: &mut [T]) {
+        self.for_each(space, out, |cells, out| {
+            for (oi, &xi) in out.iter_mut().zip(slice(x, &cells)) {
+                *oi = a * xi;
+            }
+        });
+    }
+
+    /// `y = a·y` (no reduction).
+    pub(crate) fn scale(&mut self, space: &dyn Space, a: T, y: &mut [T]) {
+        self.for_each(space, y, |_, y| {
+            for yi in y.iter_mut() {
+                *yi = a * *yi;
+            }
+        });
+    }
+
+    /// `y += a·x` (no reduction).
+    pub(crate) fn axpy(&mut self, space: &dyn Space, a: T, x: &[T], y: &mut [T]) {
+        self.for_each(space, y, |cells, y| {
+            for (yi, &xi) in y.iter_mut().zip(slice(x, &cells)) {
+                *yi = *yi + a * xi;
+            }
+        });
+    }
+
+    /// `y += a·x`, returning `y·other` of the updated `y` in the same pass (one step of
+    /// modified Gram–Schmidt fused with the next projection).
+    pub(crate) fn axpy_dot(
+        &mut self,
+        space: &dyn Space,
+        a: T,
+        x: &[T],
+        y: &mut [T],
+        other: &[T],
+    ) -> T {
+        self.map(space, y, |cells, y| {
+            for (yi, &xi) in y.iter_mut().zip(slice(x, &cells)) {
+                *yi = *yi + a * xi;
+            }
+            (block_dot(slice(other, &cells), y), T::zero())
+        })
+        .0
+    }
+
+    /// `y += a·x`, returning `y·y` of the updated `y` in the same pass.
+    pub(crate) fn axpy_norm(&mut self, space: &dyn Space, a: T, x: &[T], y: &mut [T]) -> T {
+        self.map(space, y, |cells, y| {
+            for (yi, &xi) in y.iter_mut().zip(slice(x, &cells)) {
+                *yi = *yi + a * xi;
+            }
+            (block_dot(y, y), T::zero())
+        })
+        .0
+    }
+
+    /// The BiCGSTAB direction update `p = r + β·(p − ω·v)` (no reduction).
+    pub(crate) fn bicg_direction(
+        &mut self,
+        space: &dyn Space,
+        r: &[T],
+        beta: T,
+        omega: T,
+        v: &[T],
+        p: &mut [T],
+    ) {
+        self.for_each(space, p, |cells, p| {
+            let (r, v) = (slice(r, &cells), slice(v, &cells));
+            for ((pi, &ri), &vi) in p.iter_mut().zip(r).zip(v) {
+                *pi = ri + beta * (*pi - omega * vi);
+            }
+        });
+    }
+
+    /// The end of a BiCGSTAB iteration in one pass: `x += α·p̂ + ω·ŝ` and `r −= ω·t` (`r`
+    /// holds `s` on entry; `s_hat` is `None` when `ŝ = s`, without a preconditioner). Returns
+    /// the new `r·r` and the largest change of the solution.
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn bicgstab_update(
+        &mut self,
+        space: &dyn Space,
+        alpha: T,
+        p_hat: &[T],
+        omega: T,
+        s_hat: Option<&[T]>,
+        t: &[T],
+        x: &mut [T],
+        r: &mut [T],
+    ) -> (T, T) {
+        self.map2(space, x, r, |cells, x, r| {
+            let (p_hat, t) = (slice(p_hat, &cells), slice(t, &cells));
+            let s_hat = s_hat.map(|v| slice(v, &cells));
+            let mut largest = T::zero();
+            for (k, (xi, ri)) in x.iter_mut().zip(r.iter_mut()).enumerate() {
+                let sk = s_hat.map_or(*ri, |v| v[k]);
+                let d = alpha * p_hat[k] + omega * sk;
+                *xi = *xi + d;
+                largest = largest.max(d.abs());
+                *ri = *ri - omega * t[k];
+            }
+            (block_dot(r, r), largest)
+        })
+    }
+
+    /// `x += a·p + b·q`; returns the largest change `|a·p + b·q|`.
+    pub(crate) fn add_two_largest(
+        &mut self,
+        space: &dyn Space,
+        a: T,
+        p: &[T],
+        b: T,
+        q: &[T],
+        x: &mut [T],
+    ) -> T {
+        self.map(space, x, |cells, x| {
+            let (p, q) = (slice(p, &cells), slice(q, &cells));
+            let mut largest = T::zero();
+            for ((xi, &pi), &qi) in x.iter_mut().zip(p).zip(q) {
+                let d = a * pi + b * qi;
+                *xi = *xi + d;
+                largest = largest.max(d.abs());
+            }
+            (T::zero(), largest)
+        })
+        .1
+    }
+
     /// `x += d` on every entry; returns the largest `|d|`.
     pub(crate) fn add_largest(&mut self, space: &dyn Space, d: &[T], x: &mut [T]) -> T {
         self.map(space, x, |cells, x| {
@@ -229,6 +415,20 @@ impl<T: Scalar> Blocks<T> {
     where
         F: Fn(Range<usize>, &mut [T]) -> (T, T) + Sync,
     {
+        self.map_with(space, out, f, &OPS)
+    }
+
+    /// As [`Blocks::map`], the two partials combined by `ops`.
+    fn map_with<F>(
+        &mut self,
+        space: &dyn Space,
+        out: &mut [T],
+        f: F,
+        ops: &[Combine; WIDTH],
+    ) -> (T, T)
+    where
+        F: Fn(Range<usize>, &mut [T]) -> (T, T) + Sync,
+    {
         let (bc, n) = (self.block, self.len);
         let len = n.min(out.len());
         let out = &mut out[..len];
@@ -243,13 +443,13 @@ impl<T: Scalar> Blocks<T> {
                 .zip(self.partials.par_chunks_mut(WIDTH))
                 .enumerate()
                 .for_each(body);
-            return self.finish(space);
+            return self.finish_with(space, ops);
         }
         out.chunks_mut(bc)
             .zip(self.partials.chunks_mut(WIDTH))
             .enumerate()
             .for_each(body);
-        self.finish(space)
+        self.finish_with(space, ops)
     }
 
     /// As [`Blocks::map`] with two outputs cut into the same blocks.
@@ -309,8 +509,13 @@ impl<T: Scalar> Blocks<T> {
 
     /// The reduction seam: block partials become the global `(sum, max)` in `space`.
     fn finish(&self, space: &dyn Space) -> (T, T) {
+        self.finish_with(space, &OPS)
+    }
+
+    /// The reduction seam with the two columns combined by `ops`.
+    fn finish_with(&self, space: &dyn Space, ops: &[Combine; WIDTH]) -> (T, T) {
         let mut out = [T::zero(); WIDTH];
-        T::combine(space, &self.partials, &OPS, &mut out);
+        T::combine(space, &self.partials, ops, &mut out);
         (out[0], out[1])
     }
 

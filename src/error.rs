@@ -54,6 +54,16 @@ pub enum ErrorKind {
     NotPositiveDefinite,
     /// PCG found `r·z ≤ 0`: the preconditioner is not positive definite.
     PreconditionerNotPositive,
+    /// BiCGSTAB's shadow residual `r̂` became orthogonal to the residual (`r̂·r = 0`) or to
+    /// the image of the new direction (`r̂·A·p̂ = 0`): the BiCG recursion cannot go on.
+    ShadowOrthogonal,
+    /// BiCGSTAB's stabilising step found `ω = 0` (`A·ŝ` orthogonal to `s`, or zero): the
+    /// next direction cannot be formed.
+    StabilisingStepZero,
+    /// GMRES found the projected (Hessenberg) system singular: the new Krylov vector vanished
+    /// without solving the system, so the operator (with the preconditioner) is singular on
+    /// the directions searched.
+    HessenbergSingular,
     /// An incomplete factorisation or a coarse level met a pivot that is not positive.
     PivotBreakdown,
     /// The solve stopped for a reason that is not convergence.
@@ -129,6 +139,9 @@ impl ErrorKind {
             self,
             ErrorKind::NotPositiveDefinite
                 | ErrorKind::PreconditionerNotPositive
+                | ErrorKind::ShadowOrthogonal
+                | ErrorKind::StabilisingStepZero
+                | ErrorKind::HessenbergSingular
                 | ErrorKind::NotConverged
         )
     }
@@ -278,6 +291,25 @@ enum Detail {
         value: f64,
         report: Box<Report>,
     },
+    #[error("BiCGSTAB broke down in iteration {iteration}: {product} = {value:e}, the shadow residual r̂ is orthogonal to {}; x holds the iterate of iteration {}", if product.contains('A') { "the image A·p̂ of the new direction" } else { "the residual" }, iteration.saturating_sub(1))]
+    ShadowOrthogonal {
+        iteration: usize,
+        product: &'static str,
+        value: f64,
+        report: Box<Report>,
+    },
+    #[error("BiCGSTAB broke down in iteration {iteration}: the stabilising step found ω = {value:e} (A·ŝ is orthogonal to s or zero), so no next direction can be formed; x holds the iterate of iteration {}", iteration.saturating_sub(1))]
+    StabilisingStepZero {
+        iteration: usize,
+        value: f64,
+        report: Box<Report>,
+    },
+    #[error("GMRES broke down in iteration {iteration}: the new Krylov vector vanished and the rotated Hessenberg diagonal is {value:e}, so the operator with its preconditioner is singular on the directions searched and the system is not solved; x holds the best iterate of iteration {}", iteration.saturating_sub(1))]
+    HessenbergSingular {
+        iteration: usize,
+        value: f64,
+        report: Box<Report>,
+    },
     #[error("factorisation pivot at {at} is {value}; it must be positive")]
     PivotBreakdown { at: Location, value: f64 },
     #[error("{report}")]
@@ -412,6 +444,9 @@ impl Error {
             Detail::NeedsStencil { .. } => ErrorKind::NeedsStencil,
             Detail::NotPositiveDefinite { .. } => ErrorKind::NotPositiveDefinite,
             Detail::PreconditionerNotPositive { .. } => ErrorKind::PreconditionerNotPositive,
+            Detail::ShadowOrthogonal { .. } => ErrorKind::ShadowOrthogonal,
+            Detail::StabilisingStepZero { .. } => ErrorKind::StabilisingStepZero,
+            Detail::HessenbergSingular { .. } => ErrorKind::HessenbergSingular,
             Detail::PivotBreakdown { .. } => ErrorKind::PivotBreakdown,
             Detail::NotConverged { .. } => ErrorKind::NotConverged,
             Detail::InvalidSpacing { .. } => ErrorKind::InvalidSpacing,
@@ -453,6 +488,9 @@ impl Error {
         match &*self.detail {
             Detail::NotPositiveDefinite { report, .. }
             | Detail::PreconditionerNotPositive { report, .. }
+            | Detail::ShadowOrthogonal { report, .. }
+            | Detail::StabilisingStepZero { report, .. }
+            | Detail::HessenbergSingular { report, .. }
             | Detail::NotConverged { report } => Some(report),
             _ => None,
         }
@@ -488,8 +526,8 @@ impl Error {
         }
     }
 
-    /// The iteration at which a breakdown happened (`p·Ap ≤ 0` in iteration `k`, or `r·z ≤ 0`
-    /// for the residual after iteration `k`), or the iterations done by a solve that did not
+    /// The iteration at which a breakdown happened (`p·Ap ≤ 0`, a BiCGSTAB or GMRES breakdown
+    /// in iteration `k`, or `r·z ≤ 0` for the residual after iteration `k`), or the iterations done by a solve that did not
     /// converge.
     ///
     /// ```
@@ -505,14 +543,18 @@ impl Error {
     pub fn iteration(&self) -> Option<usize> {
         match &*self.detail {
             Detail::NotPositiveDefinite { iteration, .. }
-            | Detail::PreconditionerNotPositive { iteration, .. } => Some(*iteration),
+            | Detail::PreconditionerNotPositive { iteration, .. }
+            | Detail::ShadowOrthogonal { iteration, .. }
+            | Detail::StabilisingStepZero { iteration, .. }
+            | Detail::HessenbergSingular { iteration, .. } => Some(*iteration),
             Detail::NotConverged { report } => Some(report.iterations),
             _ => None,
         }
     }
 
     /// The offending number, where there is one: the coefficient, center, pivot or property
-    /// found, the setting passed, `p·Ap` or `r·z` at a breakdown, the net inflow of unbalanced
+    /// found, the setting passed, `p·Ap`, `r·z`, `r̂·r`, `r̂·A·p̂`, `ω` or the rotated
+    /// Hessenberg diagonal at a breakdown, the net inflow of unbalanced
     /// sources, the budget's imbalance in percent.
     ///
     /// ```
@@ -524,6 +566,9 @@ impl Error {
             | Detail::OffGridCoupling { value, .. }
             | Detail::InvalidSetting { value, .. }
             | Detail::PreconditionerNotPositive { value, .. }
+            | Detail::ShadowOrthogonal { value, .. }
+            | Detail::StabilisingStepZero { value, .. }
+            | Detail::HessenbergSingular { value, .. }
             | Detail::PivotBreakdown { value, .. }
             | Detail::NotDiagonallyDominant { center: value, .. }
             | Detail::InvalidSpacing { value, .. }
@@ -706,6 +751,36 @@ impl Error {
         report: Report,
     ) -> Error {
         Error::new(Detail::PreconditionerNotPositive {
+            iteration,
+            value,
+            report: Box::new(report),
+        })
+    }
+
+    pub(crate) fn shadow_orthogonal(
+        iteration: usize,
+        product: &'static str,
+        value: f64,
+        report: Report,
+    ) -> Error {
+        Error::new(Detail::ShadowOrthogonal {
+            iteration,
+            product,
+            value,
+            report: Box::new(report),
+        })
+    }
+
+    pub(crate) fn stabiliser_zero(iteration: usize, value: f64, report: Report) -> Error {
+        Error::new(Detail::StabilisingStepZero {
+            iteration,
+            value,
+            report: Box::new(report),
+        })
+    }
+
+    pub(crate) fn hessenberg_singular(iteration: usize, value: f64, report: Report) -> Error {
+        Error::new(Detail::HessenbergSingular {
             iteration,
             value,
             report: Box::new(report),

@@ -22,7 +22,10 @@
 //! * Drivers behind one object-safe trait, [`IterativeSolver`]: [`SteepestDescent`], [`Pcg`] /
 //!   [`Cg`], [`Sor`] (lexicographic or red-black; Gauss–Seidel at ω = 1),
 //!   [`MixedRefinement`] (`f32` inner solves, `f64` accuracy), and the standalone [`Sip`] and
-//!   [`Multigrid`] iterations. All of them run through one iteration loop, one [`Monitor`],
+//!   [`Multigrid`] iterations.
+//! * Drivers for non-symmetric systems (upwinded advection): [`BiCgStab`] (van der Vorst
+//!   1992) and restarted [`Gmres`] (GMRES(m), Saad & Schultz 1986), right-preconditioned with
+//!   any [`Preconditioner`], so their stop rule sees the true `‖b − A·x‖₂`. All of them run through one iteration loop, one [`Monitor`],
 //!   one set of stopping rules ([`stop`]) and end in one [`Report`].
 //! * [`Preconditioner`]s for PCG: [`Identity`], [`Jacobi`], [`Ssor`], [`IncompleteCholesky`]
 //!   (IC(0) and MIC(0)), Stone's [`Sip`], the geometric [`Multigrid`] V-cycle, and
@@ -249,7 +252,7 @@ pub use capacity::CapacityTerm;
 pub use error::{Error, ErrorKind, Location};
 pub use grid::{Grid, Side};
 pub use iterate::{IterativeSolver, SolveOptions, Workspace};
-pub use krylov::{Cg, Pcg, SteepestDescent};
+pub use krylov::{BiCgStab, Cg, Gmres, Pcg, SteepestDescent};
 pub use memory::MAX_CELLS;
 pub use monitor::Monitor;
 pub use operator::{Coeffs5, FixedCells, LinearOperator, Stencil5};
@@ -275,12 +278,12 @@ pub use stop::{StopRule, Tolerances};
 /// ```
 pub mod prelude {
     pub use crate::{
-        check_symmetry, estimate_relaxation, Banded5, Cg, ClosureStencil, CoarseOperator, Coeffs5,
-        Error, ErrorKind, FactorSettings, FixedCells, Grid, Identity, Ilu0, IncompleteCholesky,
-        IterativeSolver, Jacobi, LinearOperator, MixedRefinement, Multigrid, MultigridSettings,
-        Pcg, Preconditioner, Progress, RelaxationBasis, Report, Side, SinglePrecision, Sip,
-        SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5, StopReason, StopRule,
-        SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
+        check_symmetry, estimate_relaxation, Banded5, BiCgStab, Cg, ClosureStencil, CoarseOperator,
+        Coeffs5, Error, ErrorKind, FactorSettings, FixedCells, Gmres, Grid, Identity, Ilu0,
+        IncompleteCholesky, IterativeSolver, Jacobi, LinearOperator, MixedRefinement, Multigrid,
+        MultigridSettings, Pcg, Preconditioner, Progress, RelaxationBasis, Report, Side,
+        SinglePrecision, Sip, SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5,
+        StopReason, StopRule, SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
     };
     pub use crate::{Banded5View, CapacityTerm, SystemBudget};
 }

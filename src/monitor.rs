@@ -149,6 +149,20 @@ impl<'a> Monitor<'a> {
         self.check()
     }
 
+    /// Whether the rule would count the next iteration as converged if its residual had
+    /// `r·r = rr` (no solution change known), without recording it or calling the observer:
+    /// for a method that can finish half way through an iteration (BiCGSTAB).
+    pub(crate) fn would_converge<T: Scalar>(&mut self, rr: T) -> bool {
+        let change = self.change.take();
+        self.iteration += 1;
+        self.history.push(sqrt_f64(rr));
+        let verdict = self.check();
+        self.history.pop();
+        self.iteration -= 1;
+        self.change = change;
+        verdict.is_some_and(|v| v.converged())
+    }
+
     /// Replace the current iteration's residual with the true one (`rr = r·r` of `b − A·x`)
     /// and ask the rule again.
     ///

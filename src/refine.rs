@@ -187,7 +187,7 @@ impl<S: LinearOperator<f32>, P: Preconditioner<f32>> Method<f64> for RefineStep<
         let rr = cx.blocks.residual_free(cx.space, cx.op, cx.rhs, cx.x, cx.r);
         Ok(Step {
             rr,
-            change,
+            change: Some(change),
             residual: Residual::Recomputed,
         })
     }

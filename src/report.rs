@@ -314,7 +314,8 @@ pub enum StopReason {
     ResidualGrew,
     /// The residual (or a quantity of the iteration) became NaN or infinite.
     NonFinite,
-    /// The iteration could not continue (for CG: `p·Ap ≤ 0` or `r·z ≤ 0`).
+    /// The iteration could not continue (CG: `p·Ap ≤ 0` or `r·z ≤ 0`; BiCGSTAB: `r̂·r = 0`,
+    /// `r̂·A·p̂ = 0` or `ω = 0`; GMRES: a singular projected system).
     Breakdown,
     /// A user rule stopped the solve.
     Custom {
@@ -400,7 +401,8 @@ pub struct Progress<'a> {
     /// `‖b‖₂` of the system the driver iterates on: the rhs of the free cells, with the known
     /// contributions of fixed neighbours moved to it.
     pub rhs_norm: f64,
-    /// Largest `|x_new − x_old|` over the cells in the last iteration (`None` before the first).
+    /// Largest `|x_new − x_old|` over the cells in the last iteration (`None` before the first,
+    /// and inside a GMRES cycle, where the iterate is not formed yet).
     pub solution_change: Option<f64>,
     /// `‖r‖₂` after each iteration so far, `history[0]` the initial one.
     pub history: &'a [f64],

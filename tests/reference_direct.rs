@@ -1,16 +1,19 @@
 //! Every engine of the registry (`common::engines`) against a general-purpose dense direct solver (nalgebra's LU factorisation) on
 //! random symmetric, strictly diagonally dominant 5-point systems with fixed cells, including
-//! 1×1, 1×n and n×1 grids.
+//! 1×1, 1×n and n×1 grids; the engines for general systems (`Reach::General`: BiCGSTAB,
+//! GMRES) also on random NON-symmetric, strictly diagonally dominant systems
+//! (`common::nonsymmetric_problems`).
 //!
 //! Tolerance: for a solve stopped at `‖r‖/‖b‖ ≤ τ`, the error obeys
 //! `‖x − x*‖/‖x*‖ ≤ κ(A)·‖r‖/‖b‖` (Golub & Van Loan, Matrix Computations, 4th ed. 2013, §2.6.2),
-//! with κ computed from the dense matrix's eigenvalues. The check allows that bound plus a
+//! with κ computed from the dense matrix's eigenvalues (its singular values when it is not
+//! symmetric). The check allows that bound plus a
 //! rounding allowance of `100·n·ε·κ`.
 
 mod common;
 
 use common::engines::engines;
-use common::{dist, norm, random_sdd, Problem};
+use common::{dist, nonsymmetric_problems, norm, random_nonsymmetric, random_sdd, Problem};
 use proptest::prelude::*;
 use quintet::prelude::*;
 
@@ -104,6 +107,21 @@ proptest! {
         }
     }
 
+    /// The engines for general systems against the dense LU on non-symmetric, diagonally
+    /// dominant systems (BiCGSTAB: van der Vorst 1992; GMRES: Saad & Schultz 1986), 256 cases,
+    /// every engine on each.
+    #[test]
+    fn every_general_engine_matches_dense_lu_on_nonsymmetric_systems(p in nonsymmetric_problems()) {
+        let op = p.banded();
+        for engine in engines() {
+            if engine.handles_nonsymmetric() {
+                let solver = &mut *engine.solver(&op, options());
+                check_against_reference(&p, solver)
+                    .map_err(|e| TestCaseError::fail(format!("{}: {e}", engine.name)))?;
+            }
+        }
+    }
+
     #[test]
     fn sor_at_any_relaxation_factor_matches_dense_lu(p in problems(), omega in 0.5f64..1.9) {
         for order in [SweepOrder::Lexicographic, SweepOrder::RedBlack] {
@@ -123,6 +141,13 @@ fn degenerate_grids_solve_exactly() {
             for engine in engines() {
                 check_against_reference(&p, &mut *engine.solver(&op, options()))
                     .unwrap_or_else(|e| panic!("{} on {nx} x {ny}: {e}", engine.name));
+            }
+            let q = random_nonsymmetric(nx, ny, seed, 0.2, 0.2);
+            let op = q.banded();
+            for engine in engines().iter().filter(|e| e.handles_nonsymmetric()) {
+                check_against_reference(&q, &mut *engine.solver(&op, options())).unwrap_or_else(
+                    |e| panic!("{} on {nx} x {ny}, non-symmetric: {e}", engine.name),
+                );
             }
         }
     }

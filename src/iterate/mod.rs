@@ -1,8 +1,8 @@
 //! The one iteration loop, and the solving interface every driver shares: [`IterativeSolver`],
 //! [`SolveOptions`] and the caller-owned [`Workspace`].
 //!
-//! A method (CG, steepest descent, SOR, a residual-correction iteration, refinement) supplies
-//! only its set-up and one step, and declares how many work vectors it needs. The loop owns
+//! A method (CG, steepest descent, BiCGSTAB, GMRES, SOR, a residual-correction iteration,
+//! refinement) supplies only its set-up and one step, and declares how many work vectors it needs. The loop owns
 //! everything else: the input checks, the right-hand-side norm and the initial residual, the
 //! [`Monitor`] and the stopping rule, the periodic and the final true-residual refresh,
 //! breakdown and non-finite handling, the rounding-floor stop, and the conclusion into a
@@ -52,7 +52,8 @@ pub struct SolveOptions {
     /// A rule that replaces [`SolveOptions::tolerances`] when set.
     pub rule: Option<Arc<dyn StopRule>>,
     /// Recompute the true residual `b − A·x` every this many iterations in methods that update
-    /// it recursively (CG, steepest descent, the energy-minimising correction step), to stop
+    /// it recursively (CG, steepest descent, BiCGSTAB, the energy-minimising correction step;
+    /// GMRES starts each cycle from a true residual and needs none), to stop
     /// round-off drift; 0 turns the periodic refresh off. Methods that recompute the residual
     /// from `x` every iteration (SOR, stationary corrections, refinement) need no refresh. The
     /// true residual is always recomputed before a solve is declared converged. Default 50.
@@ -174,7 +175,8 @@ impl fmt::Debug for SolveOptions {
 /// A driver that solves `A·x = b` in place.
 ///
 /// Implemented by every driver: [`SteepestDescent`](crate::SteepestDescent),
-/// [`Pcg`](crate::Pcg) (and so [`Cg`](crate::Cg)), [`Sor`](crate::Sor),
+/// [`Pcg`](crate::Pcg) (and so [`Cg`](crate::Cg)), [`BiCgStab`](crate::BiCgStab),
+/// [`Gmres`](crate::Gmres), [`Sor`](crate::Sor),
 /// [`MixedRefinement`](crate::MixedRefinement), and the standalone [`Sip`](crate::Sip) and
 /// [`Multigrid`](crate::Multigrid) iterations. The trait is object-safe: a
 /// `Box<dyn IterativeSolver<f64>>` holds any of them. The operator is any
@@ -188,7 +190,9 @@ impl fmt::Debug for SolveOptions {
 /// (iteration limit, stagnation, divergence, non-finite values, a non-converged custom stop),
 /// [`ErrorKind::NotPositiveDefinite`](crate::ErrorKind::NotPositiveDefinite) and
 /// [`ErrorKind::PreconditionerNotPositive`](crate::ErrorKind::PreconditionerNotPositive) (CG
-/// breakdowns). Input errors (lengths, non-finite input, a non-positive center, a
+/// breakdowns), [`ErrorKind::ShadowOrthogonal`](crate::ErrorKind::ShadowOrthogonal) and
+/// [`ErrorKind::StabilisingStepZero`](crate::ErrorKind::StabilisingStepZero) (BiCGSTAB),
+/// [`ErrorKind::HessenbergSingular`](crate::ErrorKind::HessenbergSingular) (GMRES). Input errors (lengths, non-finite input, a non-positive center, a
 /// preconditioner built for another grid) are reported before any iteration and leave `x`
 /// unchanged.
 ///
@@ -358,14 +362,21 @@ pub(crate) enum Residual {
     Updated,
     /// Recomputed from `x` (`r = b − A·x`): a true residual already.
     Recomputed,
+    /// Only its norm is known, for an iterate the method has not formed in `x` yet (GMRES
+    /// inside a cycle: `‖r‖₂` from the Givens-rotated right-hand side). `cx.r` still holds an
+    /// older residual. No periodic refresh (nothing drifts: each cycle starts from a true
+    /// residual); when the rule wants to stop, the loop has the method form its iterate
+    /// ([`Method::form_iterate`]) and decides on the true residual of that iterate.
+    Estimated,
 }
 
-/// The result of one step: `r·r` of the new residual (now in `r`), the largest change of the
-/// solution, and how the residual was obtained.
+/// The result of one step: `r·r` of the new residual (now in `r`, unless
+/// [`Residual::Estimated`]), the largest change of the solution (`None` when the step did not
+/// form its iterate), and how the residual was obtained.
 #[derive(Clone, Copy, Debug)]
 pub(crate) struct Step<T> {
     pub(crate) rr: T,
-    pub(crate) change: T,
+    pub(crate) change: Option<T>,
     pub(crate) residual: Residual,
 }
 
@@ -378,6 +389,16 @@ pub(crate) enum Breakdown<T> {
     Preconditioner(T),
     /// Something the step called failed (an inner solve): the solve ends with that error.
     Failed(Error),
+    /// BiCGSTAB, in the iteration being computed: the shadow residual `r̂` is orthogonal to
+    /// the residual (`r̂·r = 0`, the product named `"r̂·r"`) or to the new direction's image
+    /// (`r̂·A·p̂ = 0`, named `"r̂·A·p̂"`).
+    Shadow(T, &'static str),
+    /// BiCGSTAB, in the iteration being computed: the stabilising step's `ω = (t·s)/(t·t)` is
+    /// zero (or `t = A·ŝ` is zero).
+    Stabiliser(T),
+    /// GMRES, in the iteration being computed: the rotated diagonal of the Hessenberg matrix
+    /// is zero (the new Krylov vector vanished with the projected system singular).
+    Hessenberg(T),
 }
 
 /// What a method needs of the operator.
@@ -385,6 +406,11 @@ pub(crate) enum Breakdown<T> {
 pub(crate) enum Requires {
     /// Positive centers at free cells (the method divides by them): SOR, Stone's iteration.
     PositiveCenters,
+    /// Nothing of symmetry, definiteness or the centers (Krylov methods for general
+    /// non-symmetric systems: BiCGSTAB, GMRES), only a level fixed by something: a pure
+    /// no-flow system (every row sums to zero, no fixed cell) is singular whatever the
+    /// method, and is refused as for the SPD methods.
+    DeterminedLevel,
     /// A symmetric positive definite system: positive centers, not a pure no-flow system, and
     /// (when [`SolveOptions::symmetry_check`] is set) symmetric couplings.
     Spd,
@@ -408,6 +434,27 @@ pub(crate) trait Method<T: Scalar> {
 
     /// One iteration. `rr` is `r·r` of the residual now in `cx.r`.
     fn step(&mut self, cx: &mut Context<'_, T>, rr: T) -> Result<Step<T>, Breakdown<T>>;
+
+    /// One iteration of a method that may end it early when the rule is met half way
+    /// (BiCGSTAB after its BiCG half step): `meets(rr)` tells whether the rule would count a
+    /// residual with `r·rr = rr` as converged at this iteration. The loop always calls this;
+    /// the default ignores `meets` and takes a whole [`Method::step`].
+    fn step_or_finish(
+        &mut self,
+        cx: &mut Context<'_, T>,
+        rr: T,
+        meets: &mut dyn FnMut(T) -> bool,
+    ) -> Result<Step<T>, Breakdown<T>> {
+        let _ = meets;
+        self.step(cx, rr)
+    }
+
+    /// Form in `cx.x` the iterate whose residual the last step reported, for a method that
+    /// keeps it implicit (GMRES forms `x` only at the end of a cycle; forming it earlier ends
+    /// the cycle). The loop calls it before computing a true residual from `x` and when a
+    /// breakdown ends the solve, so `x` always holds the last iterate. Default: nothing (the
+    /// iterate is always in `x`).
+    fn form_iterate(&mut self, _cx: &mut Context<'_, T>) {}
 
     /// The loop replaced a recursively updated residual by a true one far from it: forget
     /// anything built from the old recursion (CG's previous direction).
@@ -462,6 +509,7 @@ pub(crate) fn run_to_end<T: Scalar, M: Method<T> + ?Sized>(
     check_len("x", n, x.len())?;
     match method.requires() {
         Requires::PositiveCenters => require_positive_diagonal(op)?,
+        Requires::DeterminedLevel => require_determined_level(op)?,
         Requires::Spd => {
             require_positive_diagonal(op)?;
             require_determined_level(op)?;
@@ -523,11 +571,19 @@ fn iterate<T: Scalar, M: Method<T> + ?Sized>(
     method.setup(cx)?;
     let mut refresh = Refresh::new(options.residual_refresh);
     loop {
-        let step = match method.step(cx, rr) {
+        let stepped = {
+            let mut meets = |rr: T| monitor.would_converge(rr);
+            method.step_or_finish(cx, rr, &mut meets)
+        };
+        let step = match stepped {
             Ok(step) => step,
             Err(breakdown) => {
+                method.form_iterate(cx);
                 let (value, iteration) = match breakdown {
-                    Breakdown::Curvature(v) => (v, monitor.iteration() + 1),
+                    Breakdown::Curvature(v)
+                    | Breakdown::Shadow(v, _)
+                    | Breakdown::Stabiliser(v)
+                    | Breakdown::Hessenberg(v) => (v, monitor.iteration() + 1),
                     Breakdown::Preconditioner(v) => (v, monitor.iteration()),
                     Breakdown::Failed(e) => return Err(e),
                 };
@@ -540,10 +596,11 @@ fn iterate<T: Scalar, M: Method<T> + ?Sized>(
         let verdict = match step.residual {
             Residual::Recomputed => {
                 rr = step.rr;
-                monitor.record(step.rr, Some(step.change))
+                monitor.record(step.rr, step.change)
             }
-            Residual::Updated => {
-                let recorded = refresh.record(monitor, cx, step.rr, step.change);
+            Residual::Updated | Residual::Estimated => {
+                let periodic = step.residual == Residual::Updated;
+                let recorded = refresh.record(method, monitor, cx, step, periodic);
                 rr = recorded.rr;
                 if recorded.restart && recorded.verdict.is_none() {
                     method.restart();
@@ -602,6 +659,13 @@ fn finish<T: Scalar>(
                 }
                 Breakdown::Preconditioner(v) => {
                     Error::preconditioner_not_positive(iteration, to_f64(v), report)
+                }
+                Breakdown::Shadow(v, product) => {
+                    Error::shadow_orthogonal(iteration, product, to_f64(v), report)
+                }
+                Breakdown::Stabiliser(v) => Error::stabiliser_zero(iteration, to_f64(v), report),
+                Breakdown::Hessenberg(v) => {
+                    Error::hessenberg_singular(iteration, to_f64(v), report)
                 }
                 Breakdown::Failed(e) => e,
             })

@@ -9,7 +9,7 @@
 //! the true residual has not improved since the last check, the solve stops with
 //! [`StopReason::RoundingFloor`].
 
-use super::Context;
+use super::{Context, Method, Step};
 use crate::monitor::Monitor;
 use crate::report::StopReason;
 use crate::scalar::{to_f64, Scalar};
@@ -44,19 +44,23 @@ impl Refresh {
         }
     }
 
-    /// Record an iteration whose residual `rr` came from a recursive update. The true residual
-    /// is recomputed into `cx.r` when the refresh period is due, and whenever the rule wants to
-    /// stop (so the verdict rests on the true residual).
-    pub(super) fn record<T: Scalar>(
+    /// Record an iteration whose residual `step.rr` came from a recursive update (or, with
+    /// `periodic` false, is an estimate for an iterate not formed yet). The true residual is
+    /// recomputed into `cx.r` when the refresh period is due (`periodic` only), and whenever
+    /// the rule wants to stop (so the verdict rests on the true residual); before that,
+    /// `method` forms its iterate in `cx.x` ([`Method::form_iterate`]).
+    pub(super) fn record<T: Scalar, M: Method<T> + ?Sized>(
         &mut self,
+        method: &mut M,
         monitor: &mut Monitor<'_>,
         cx: &mut Context<'_, T>,
-        rr: T,
-        change: T,
+        step: Step<T>,
+        periodic: bool,
     ) -> Recorded<T> {
+        let rr = step.rr;
         self.since += 1;
-        let due = self.every > 0 && self.since >= self.every;
-        let verdict = monitor.record(rr, Some(change));
+        let due = periodic && self.every > 0 && self.since >= self.every;
+        let verdict = monitor.record(rr, step.change);
         if !due && verdict.is_none() {
             return Recorded {
                 rr,
@@ -65,6 +69,7 @@ impl Refresh {
             };
         }
         self.since = 0;
+        method.form_iterate(cx);
         let recursive = to_f64(rr).sqrt();
         let rr_true = cx.blocks.residual_free(cx.space, cx.op, cx.rhs, cx.x, cx.r);
         let true_norm = to_f64(rr_true).sqrt();

@@ -7,8 +7,9 @@ use crate::operator::LinearOperator;
 use crate::space::{Serial, Space, Threaded};
 use crate::{memory, Error, Grid, Scalar};
 
-/// Work vectors the built-in drivers need at most, besides the residual
-/// ([`Workspace::for_grid`] sizes for them).
+/// Work vectors the drivers for symmetric systems need at most, besides the residual
+/// ([`Workspace::for_grid`] sizes for them; BiCGSTAB and GMRES grow the workspace at their
+/// first solve).
 const DRIVER_VECTORS: usize = 3;
 
 /// Scratch vectors, reduction buffers and the residual history of a solve, and the
@@ -104,7 +105,10 @@ impl<T: Scalar> Workspace<T> {
         &self.space
     }
 
-    /// A workspace already sized for any built-in driver on `grid`.
+    /// A workspace already sized for the drivers for symmetric systems (CG, PCG, steepest
+    /// descent, SOR, SIP, multigrid) on `grid`. [`BiCgStab`](crate::BiCgStab) needs 6 work
+    /// vectors and [`Gmres`](crate::Gmres) `m + 3`: they grow it at their first solve, and
+    /// later solves allocate nothing.
     ///
     /// ```
     /// let ws = quintet::Workspace::<f32>::for_grid(quintet::Grid::new(100, 100)?);

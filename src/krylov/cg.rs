@@ -133,7 +133,7 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for CgStep<'_, P, T> {
         let (rr, change) = cx.blocks.cg_update(cx.space, rz / pq, p, q, cx.x, cx.r);
         Ok(Step {
             rr,
-            change,
+            change: Some(change),
             residual: Residual::Updated,
         })
     }

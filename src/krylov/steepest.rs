@@ -65,7 +65,7 @@ impl<T: Scalar> Method<T> for DescentStep {
         let (rr, change) = cx.blocks.descent_update(cx.space, rr / rq, q, cx.x, cx.r);
         Ok(Step {
             rr,
-            change,
+            change: Some(change),
             residual: Residual::Updated,
         })
     }

@@ -20,8 +20,9 @@ use crate::grid::Grid;
 use crate::scalar::{is_positive, Scalar};
 
 /// A linear operator `A` on a vector of unknowns, applied block by block: what the Krylov
-/// drivers ([`Cg`](crate::Cg), [`Pcg`](crate::Pcg), [`SteepestDescent`](crate::SteepestDescent))
-/// and [`MixedRefinement`](crate::MixedRefinement) ask of an operator.
+/// drivers ([`Cg`](crate::Cg), [`Pcg`](crate::Pcg), [`SteepestDescent`](crate::SteepestDescent),
+/// [`BiCgStab`](crate::BiCgStab), [`Gmres`](crate::Gmres)) and
+/// [`MixedRefinement`](crate::MixedRefinement) ask of an operator.
 ///
 /// Two methods are required: [`len`](LinearOperator::len) and
 /// [`apply_block`](LinearOperator::apply_block). Every [`Stencil5`] implements this trait

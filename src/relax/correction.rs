@@ -52,7 +52,7 @@ where
             let (rr, change) = cx.blocks.cg_update(cx.space, rz / zq, z, q, cx.x, cx.r);
             return Ok(Step {
                 rr,
-                change,
+                change: Some(change),
                 residual: Residual::Updated,
             });
         }
@@ -60,7 +60,7 @@ where
         let rr = cx.blocks.residual_free(cx.space, cx.op, cx.rhs, cx.x, cx.r);
         Ok(Step {
             rr,
-            change,
+            change: Some(change),
             residual: Residual::Recomputed,
         })
     }

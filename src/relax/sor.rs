@@ -187,7 +187,7 @@ impl<T: Scalar> Method<T> for SorStep<'_, T> {
         let rr = cx.blocks.residual_free(cx.space, cx.op, cx.rhs, cx.x, cx.r);
         Ok(Step {
             rr,
-            change,
+            change: Some(change),
             residual: Residual::Recomputed,
         })
     }

@@ -13,6 +13,11 @@ pub enum Reach {
     /// SPD systems whose couplings are all conductances (M-matrices): multigrid's coarse
     /// operators and Stone's factor assume them.
     MMatrix,
+    /// Any non-singular system with strictly diagonally dominant free rows, symmetric or not
+    /// (BiCGSTAB and GMRES with a preconditioner built for general operators): every cross-
+    /// driver test on symmetric problems, and the non-symmetric property tests
+    /// (`common::nonsymmetric_problems`).
+    General,
     /// M-matrix systems, with a preconditioner that is not positive definite on every one of
     /// them (the symmetrised SIP inverse `½·((LU)⁻¹ + (LU)⁻ᵀ)`, see `Sip`'s docs): the solve
     /// either matches the reference or stops with `PreconditionerNotPositive`, nothing else.
@@ -44,7 +49,12 @@ impl Engine {
     /// Whether the engine is meant for problems of this kind (`m_matrix`: every coupling
     /// non-positive).
     pub fn handles(&self, m_matrix: bool) -> bool {
-        self.reach == Reach::Spd || m_matrix
+        matches!(self.reach, Reach::Spd | Reach::General) || m_matrix
+    }
+
+    /// Whether the engine is meant for non-symmetric (diagonally dominant) systems.
+    pub fn handles_nonsymmetric(&self) -> bool {
+        self.reach == Reach::General
     }
 
     /// Whether `e` is the one honest refusal this engine is allowed on a problem it handles.
@@ -111,6 +121,25 @@ pub fn engines() -> Vec<Engine> {
         }),
         e("multigrid", MMatrix, false, |op| {
             boxed(Multigrid::new(op, MultigridSettings::default())?)
+        }),
+        // Drivers for general systems: Saad & Schultz 1986 (GMRES), van der Vorst 1992
+        // (BiCGSTAB). GMRES(5) restarts many times on the test problems.
+        e("BiCGSTAB", General, false, |_| boxed(BiCgStab::default())),
+        e("BiCGSTAB + Jacobi", General, false, |op| {
+            boxed(BiCgStab::new(Jacobi::new(op)?))
+        }),
+        e("BiCGSTAB + SSOR", Spd, false, |op| {
+            boxed(BiCgStab::new(Ssor::new(op, 1.5)?))
+        }),
+        e("GMRES(30)", General, false, |_| boxed(Gmres::default())),
+        e("GMRES(30) + Jacobi", General, false, |op| {
+            boxed(Gmres::new(Jacobi::new(op)?))
+        }),
+        e("GMRES(5) + Jacobi", General, false, |op| {
+            boxed(Gmres::new(Jacobi::new(op)?).with_restart(5)?)
+        }),
+        e("GMRES(30) + IC(0)", Spd, false, |op| {
+            boxed(Gmres::new(IncompleteCholesky::ic0(op)?))
         }),
         e("mixed-precision refinement", Spd, false, |op| {
             let single = op.cast::<f32>()?;
