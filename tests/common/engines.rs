@@ -141,6 +141,35 @@ pub fn engines() -> Vec<Engine> {
         e("GMRES(30) + IC(0)", Spd, false, |op| {
             boxed(Gmres::new(IncompleteCholesky::ic0(op)?))
         }),
+        // ILU(0) exists for strictly diagonally dominant matrices with a positive diagonal
+        // (H-matrices; Meijerink & van der Vorst 1977 for M-matrices, Manteuffel 1980 for
+        // H-matrices, from memory), so it goes with every non-symmetric test problem.
+        e("BiCGSTAB + ILU(0)", General, false, |op| {
+            boxed(BiCgStab::new(Ilu0::new(op)?))
+        }),
+        e("GMRES(30) + ILU(0)", General, false, |op| {
+            boxed(Gmres::new(Ilu0::new(op)?))
+        }),
+        // Stone's factor and the multigrid hierarchy assume conductances (M-matrices).
+        e("BiCGSTAB + SIP", MMatrix, false, |op| {
+            let plain = SipSettings {
+                symmetrised: false,
+                ..Default::default()
+            };
+            boxed(BiCgStab::new(Sip::new(op, plain)?))
+        }),
+        e("BiCGSTAB + multigrid", MMatrix, false, |op| {
+            boxed(BiCgStab::new(Multigrid::new(
+                op,
+                MultigridSettings::default(),
+            )?))
+        }),
+        e("GMRES(30) + multigrid", MMatrix, false, |op| {
+            boxed(Gmres::new(Multigrid::new(
+                op,
+                MultigridSettings::default(),
+            )?))
+        }),
         e("mixed-precision refinement", Spd, false, |op| {
             let single = op.cast::<f32>()?;
             let jacobi = Jacobi::new(&single)?;
@@ -157,6 +186,10 @@ pub fn preconditioners(op: &Banded5<f64>) -> Vec<Box<dyn Preconditioner<f64>>> {
         coarse_operator: CoarseOperator::LumpedGalerkin,
         ..Default::default()
     };
+    let plain_sip = SipSettings {
+        symmetrised: false,
+        ..Default::default()
+    };
     vec![
         Box::new(Identity),
         Box::new(Jacobi::new(op).expect("set-up")),
@@ -164,6 +197,8 @@ pub fn preconditioners(op: &Banded5<f64>) -> Vec<Box<dyn Preconditioner<f64>>> {
         Box::new(IncompleteCholesky::ic0(op).expect("set-up")),
         Box::new(IncompleteCholesky::mic0(op).expect("set-up")),
         Box::new(Sip::new(op, SipSettings::default()).expect("set-up")),
+        Box::new(Sip::new(op, plain_sip).expect("set-up")),
+        Box::new(Ilu0::new(op).expect("set-up")),
         Box::new(Multigrid::new(op, MultigridSettings::default()).expect("set-up")),
         Box::new(Multigrid::new(op, lumped).expect("set-up")),
         Box::new(SinglePrecision::new(single, mg32)),
