@@ -21,9 +21,9 @@
 //! the preconditioner's setup (for SOR and SSOR it includes estimating ω from the Jacobi
 //! spectral radius), `solve_s` the iteration.
 //!
-//! Run with `cargo run --release -p quintet-bench --example iterations` (n = 64 … 1024); add
-//! `--large` for n = 2048 (multigrid, IC(0) and MIC(0) only at that size, the rest would hit
-//! their caps).
+//! Run with `cargo run --release -p quintet-bench --example iterations` (n = 64 … 1024; the
+//! advection rows up to 512); add `--large` for n = 2048 (multigrid, IC(0) and MIC(0) only at
+//! that size, the rest would hit their caps), `--only NAME` for one problem.
 
 // The heterogeneous field is the one the multigrid tests use: one definition for both.
 #[path = "../../tests/precond_problems/mod.rs"]
@@ -44,13 +44,23 @@ fn cap(n: usize) -> usize {
 }
 
 fn main() -> Result<(), Error> {
-    let large = std::env::args().skip(1).any(|a| a == "--large");
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    let large = args.iter().any(|a| a == "--large");
+    // `--only NAME` runs one problem (poisson, heterogeneous or advection).
+    let only = args
+        .iter()
+        .position(|a| a == "--only")
+        .and_then(|k| args.get(k + 1).cloned());
+    let wanted = |problem: &str| only.as_deref().is_none_or(|o| o == problem);
     let mut sizes = vec![64, 128, 256, 512, 1024];
     if large {
         sizes.push(2048);
     }
     println!("problem,n,peclet,method,iterations,setup_s,solve_s,rel_residual");
-    for problem in ["poisson", "heterogeneous"] {
+    for problem in ["poisson", "heterogeneous"]
+        .into_iter()
+        .filter(|p| wanted(p))
+    {
         for &n in &sizes {
             let (op, rhs, x0) = if problem == "poisson" {
                 poisson(n)?
@@ -68,7 +78,12 @@ fn main() -> Result<(), Error> {
             }
         }
     }
-    for &peclet in &[0.1, 1.0, 10.0, 100.0] {
+    let pecl: &[f64] = if wanted("advection") {
+        &[0.1, 1.0, 10.0, 100.0]
+    } else {
+        &[]
+    };
+    for &peclet in pecl {
         for &n in sizes.iter().filter(|&&n| n <= 512) {
             let (op, rhs, x0) = precond_problems::advection(n, peclet);
             for method in [

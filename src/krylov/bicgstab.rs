@@ -26,6 +26,12 @@ use crate::{Error, ErrorKind, LinearOperator, Progress, Report, Scalar, StopReas
 /// first half of an iteration already meets the stop rule, the iteration ends there with
 /// `x += α·p̂` (van der Vorst's early exit), which also avoids the `0/0` of a zero `s`.
 ///
+/// **Lost bi-orthogonality.** In floating point the shadow product `r̂·r` can fall to
+/// rounding level against `‖r̂‖·‖r‖` while the residual stagnates; the next recurrences then
+/// rest on noise (a true-residual refresh at that point made the residual explode, measured
+/// on upwind advection at 256²). When `|r̂·r| ≤ √ε·‖r̂‖·‖r‖` the iteration restarts with the
+/// current residual as the new shadow residual (`r̂ = r`, `p = r`), which costs nothing extra.
+///
 /// **Breakdowns** end the solve with a typed error that keeps the iterate of the last
 /// completed iteration in `x` and the history in [`Error::report`]:
 /// [`ErrorKind::ShadowOrthogonal`](crate::ErrorKind::ShadowOrthogonal) when `r̂·r = 0` or
@@ -122,6 +128,8 @@ struct BiCgStabStep<'p, P: ?Sized, T> {
     /// Start the recursion afresh at the next step (`r̂ = r`, `p = r`): at the first step,
     /// after an early exit, and after the loop replaced a drifting residual.
     fresh: bool,
+    /// `r̂·r̂` of the shadow residual in use.
+    shadow_square: T,
     rho: T,
     alpha: T,
     omega: T,
@@ -155,14 +163,24 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for BiCgStabStep<'_, P,
         let (space, op) = (cx.space, cx.op);
         let fixed = op.fixed_cells();
         let all = 0..op.len();
-        let rho = if self.fresh {
-            shadow.copy_from_slice(cx.r);
+        let mut rho = if self.fresh {
             rr
         } else {
             cx.blocks.dot(space, shadow, cx.r)
         };
         if rho == T::zero() || !rho.is_finite() {
             return Err(Breakdown::Shadow(rho, "r̂·r"));
+        }
+        // A shadow residual numerically orthogonal to the residual (|r̂·r| below √ε·‖r̂‖·‖r‖,
+        // where a rounding-level change of r, such as the loop's residual refresh, changes
+        // r̂·r entirely) carries no direction any more: start afresh with r̂ = r.
+        if !self.fresh && rho * rho <= T::epsilon() * self.shadow_square * rr {
+            self.fresh = true;
+            rho = rr;
+        }
+        if self.fresh {
+            shadow.copy_from_slice(cx.r);
+            self.shadow_square = rr;
         }
         if self.fresh {
             p.copy_from_slice(cx.r);
@@ -254,6 +272,7 @@ impl<T: Scalar, P: Preconditioner<T>> IterativeSolver<T> for BiCgStab<P> {
             identity: self.preconditioner.is_identity(),
             pre: &mut self.preconditioner,
             fresh: true,
+            shadow_square: T::one(),
             rho: T::one(),
             alpha: T::one(),
             omega: T::one(),
