@@ -74,7 +74,11 @@
 //! | yes | any | any, memory very tight | [`Pcg`] + [`Jacobi`] | one extra array; the diagonal scaling absorbs much of the contrast |
 //! | yes | any | 10⁶ and up, bandwidth-bound | [`Pcg`] + [`SinglePrecision`] with a [`Multigrid`] on an `f32` copy | the V-cycle moves half the bytes; Krylov vectors and residuals stay `f64` |
 //! | yes | any | 10⁶ and up, to 10⁻¹² | [`MixedRefinement`] | `f32` inner solves move half the bytes, the `f64` outer residual keeps `f64` accuracy |
-//! | no (upwinded advection, one-sided couplings) | any | any | [`Sor`], or [`Sip`] on its own | both need positive centers only; Gauss–Seidel (ω = 1) converges on diagonally dominant rows, and larger ω was measured slower on upwind advection from cell Péclet 10 on ([`estimate_relaxation`] answers ω = 1 for a diagonally dominant non-symmetric operator and refuses one that is not, naming the row) |
+//! | no (advection, upwind / exponential / power-law), cell Péclet up to about 1 | any | 10⁴–10⁶ | [`BiCgStab`] + [`Multigrid`] | 3–5 iterations from 64² to 512², flat with the grid, like multigrid on conduction |
+//! | no, cell Péclet 10 and up | any | any | [`BiCgStab`] + [`Ilu0`], or + [`Sip`] with `symmetrised: false` | 5–35 iterations up to 512²; multigrid with its Gauss–Seidel smoother stops helping here: its count grows with the grid (BiCGSTAB + multigrid 7 → 28 at Pe 100, 64² → 512²) |
+//! | no | any | up to 10⁵, or when unsure | [`BiCgStab`] + [`Ilu0`] (the model's default) | nothing to set; the factor has the operator's pattern; 10–166 iterations on the whole advection table |
+//! | no, BiCGSTAB breaks down or stalls | any | any | [`Gmres`] + [`Sip`] or [`Ilu0`] | cannot break down on a non-singular system and its residual never grows within a cycle; restarts (m = 30) cost iterations (GMRES + ILU(0) 182 against BiCGSTAB's 35 at 512², Pe 10) |
+//! | no, diagonally dominant rows | any | small | [`Sor`] (ω = 1), or [`Sip`] on its own | positive centers only; [`estimate_relaxation`] answers ω = 1 for a diagonally dominant non-symmetric operator and refuses one that is not, naming the row; larger ω was measured slower on upwind advection from cell Péclet 10 on |
 //! | yes | small only | any | [`Pcg`] + [`Sip`] | the symmetrised Stone factor; at high contrast it is not positive definite and PCG stops with [`ErrorKind::PreconditionerNotPositive`] |
 //! | either | — | — | [`Sor::gauss_seidel`] | a smoother, not a solver: iterations grow like `1/h²` |
 //! | yes | — | small | [`SteepestDescent`] | teaching and baselines; iterations grow like `1/h²` |

@@ -113,8 +113,9 @@
 //!
 //! **Solving.** The operator is not symmetric: CG and PCG do not apply
 //! ([`Stepper::with_jacobi`] refuses it). [`SteadySystem::default_solver`] and
-//! [`Stepper::with_default_solver`] pick a method for it; any driver for non-symmetric
-//! systems can be passed instead.
+//! [`Stepper::with_default_solver`] pick BiCGSTAB with ILU(0) for it; any driver for
+//! non-symmetric systems can be passed instead (GMRES, or multigrid or SIP as the
+//! preconditioner: see "Choosing a solver" in the crate docs).
 //!
 //! Results of a model with advection depend on the flow field as much as on the heat
 //! parameters: check the flow model first, compare the carried and conducted lines of the

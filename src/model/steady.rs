@@ -128,14 +128,17 @@ impl SteadySystem {
 
     /// The driver the model picks for this system, with default stopping options (change them
     /// through [`IterativeSolver::options_mut`]): PCG with a Jacobi preconditioner when the
-    /// operator [`is_symmetric`](SteadySystem::is_symmetric), Stone's strongly implicit
-    /// procedure ([`Sip`](crate::Sip), standalone) when a flow field makes it non-symmetric.
-    /// Any other driver works through [`solve`](SteadySystem::solve) as well.
+    /// operator [`is_symmetric`](SteadySystem::is_symmetric), [`BiCgStab`](crate::BiCgStab)
+    /// with [`Ilu0`](crate::Ilu0) when a flow field makes it non-symmetric (see "Choosing a
+    /// solver" in the crate docs for when multigrid or SIP does better). Any other driver
+    /// works through [`solve`](SteadySystem::solve) as well.
     ///
     /// # Errors
     ///
     /// [`ErrorKind::NonPositiveCenter`](crate::ErrorKind::NonPositiveCenter) if a free cell's
-    /// center is not positive (the set-up of either preconditioner refuses it).
+    /// center is not positive (the set-up of either preconditioner refuses it), and
+    /// [`ErrorKind::PivotBreakdown`](crate::ErrorKind::PivotBreakdown) if the ILU(0) factor
+    /// meets a pivot that is not positive (central differencing far above cell Péclet 2).
     ///
     /// ```
     /// use quintet::model::{AdvectionScheme, Conductivity, FaceFlows, Geometry, Model};
