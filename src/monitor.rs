@@ -149,6 +149,11 @@ impl<'a> Monitor<'a> {
         self.check()
     }
 
+    /// `‖r₀‖₂`, the initial residual norm.
+    pub(crate) fn initial_norm(&self) -> f64 {
+        self.initial
+    }
+
     /// Whether the rule would count the next iteration as converged if its residual had
     /// `r·r = rr` (no solution change known), without recording it or calling the observer:
     /// for a method that can finish half way through an iteration (BiCGSTAB).

@@ -310,7 +310,9 @@ pub enum StopReason {
     /// limits the attainable accuracy (about `ε·‖A‖·‖x‖`) above the requested tolerance.
     RoundingFloor,
     /// The residual grew past the allowed factor of its initial value
-    /// ([`Growth`](crate::stop::Growth)).
+    /// ([`Growth`](crate::stop::Growth)), or the true residual, recomputed, was above the
+    /// initial one while the recursively updated residual kept falling (the iteration ran
+    /// away).
     ResidualGrew,
     /// The residual (or a quantity of the iteration) became NaN or infinite.
     NonFinite,
@@ -362,7 +364,7 @@ impl fmt::Display for StopReason {
             StopReason::RoundingFloor => {
                 "true residual stopped falling: rounding limits the accuracy above the tolerance"
             }
-            StopReason::ResidualGrew => "residual grew past the allowed factor",
+            StopReason::ResidualGrew => "residual grew past its allowed bound",
             StopReason::NonFinite => "non-finite value in the iteration",
             StopReason::Breakdown => "breakdown of the iteration",
             StopReason::Custom { label, .. } => label,

@@ -701,3 +701,68 @@ impl NameCache {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::{Banded5, Coeffs5, Grid};
+
+    /// A method whose recursive residual halves every step while its iterate runs away from
+    /// the solution: the recursion has lost track of the true residual, as a numerically
+    /// unstable iteration does.
+    struct RunsAway;
+
+    impl Method<f64> for RunsAway {
+        fn work_vectors(&self) -> usize {
+            1
+        }
+        fn requires(&self) -> Requires {
+            Requires::PositiveCenters
+        }
+        fn step(
+            &mut self,
+            cx: &mut Context<'_, f64>,
+            rr: f64,
+        ) -> Result<Step<f64>, Breakdown<f64>> {
+            for v in cx.r.iter_mut() {
+                *v *= 0.5;
+            }
+            for v in cx.x.iter_mut() {
+                *v = 10.0 * *v + 1.0;
+            }
+            Ok(Step {
+                rr: 0.25 * rr,
+                change: Some(1.0),
+                residual: Residual::Updated,
+            })
+        }
+    }
+
+    /// A true residual that ends above the initial one is reported as grown, not as the
+    /// rounding floor (which promises a residual that stopped falling near `ε·‖A‖·‖x‖`).
+    #[test]
+    fn a_runaway_true_residual_is_not_called_a_rounding_floor() {
+        let grid = Grid::new(8, 8).unwrap();
+        let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j)).unwrap();
+        let rhs = vec![1.0; grid.cells()];
+        let mut x = vec![0.0; grid.cells()];
+        let mut ws = Workspace::new();
+        let options = SolveOptions::default().residual_refresh(1);
+        let task = Task {
+            op: &op,
+            rhs: &rhs,
+            x: &mut x,
+            ws: &mut ws,
+            options: &options,
+            observer: &mut |_| {},
+        };
+        let report = run_to_end(
+            &mut RunsAway,
+            &MethodName::from("runs away".to_string()),
+            task,
+        )
+        .unwrap();
+        assert_eq!(report.reason, StopReason::ResidualGrew, "{report}");
+        assert!(report.residual_norm > report.initial_residual_norm);
+    }
+}

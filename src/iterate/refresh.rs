@@ -7,7 +7,8 @@
 //! not; the two then differ by a large factor. Continuing the recursion from the replaced
 //! residual would mix directions of two different residuals, so the method restarts, and if
 //! the true residual has not improved since the last check, the solve stops with
-//! [`StopReason::RoundingFloor`].
+//! [`StopReason::RoundingFloor`], or with [`StopReason::ResidualGrew`] when the true residual
+//! is then above the initial one (the iteration ran away instead of levelling off).
 
 use super::{Context, Method, Step};
 use crate::monitor::Monitor;
@@ -78,7 +79,12 @@ impl Refresh {
             !(true_norm <= DRIFT_FACTOR * recursive && recursive <= DRIFT_FACTOR * true_norm);
         let converged = verdict.is_some_and(|v| v.converged());
         if restart && !converged && true_norm >= self.best_true {
-            verdict = Some(StopReason::RoundingFloor);
+            // Stuck near what rounding allows, or run away above where the solve started.
+            verdict = Some(if true_norm > monitor.initial_norm() {
+                StopReason::ResidualGrew
+            } else {
+                StopReason::RoundingFloor
+            });
         }
         self.best_true = self.best_true.min(true_norm);
         Recorded {
