@@ -25,11 +25,14 @@
 //!   [`Multigrid`] iterations.
 //! * Drivers for non-symmetric systems (upwinded advection): [`BiCgStab`] (van der Vorst
 //!   1992) and restarted [`Gmres`] (GMRES(m), Saad & Schultz 1986), right-preconditioned with
-//!   any [`Preconditioner`], so their stop rule sees the true `‖b − A·x‖₂`. All of them run through one iteration loop, one [`Monitor`],
-//!   one set of stopping rules ([`stop`]) and end in one [`Report`].
+//!   any [`Preconditioner`], so their stop rule sees the true `‖b − A·x‖₂`.
+//! * All of them run through one iteration loop, one [`Monitor`], one set of stopping rules
+//!   ([`stop`]) and end in one [`Report`].
 //! * [`Preconditioner`]s for PCG: [`Identity`], [`Jacobi`], [`Ssor`], [`IncompleteCholesky`]
 //!   (IC(0) and MIC(0)), Stone's [`Sip`], the geometric [`Multigrid`] V-cycle, and
-//!   [`SinglePrecision`] to run any of them in `f32`.
+//!   [`SinglePrecision`] to run any of them in `f32`; for BiCGSTAB and GMRES also [`Ilu0`]
+//!   (ILU(0)), the plain Stone factor (`SipSettings::symmetrised = false`) and the multigrid
+//!   V-cycle built for a non-symmetric operator.
 //! * [`space`]: where every global reduction happens and whether kernels use threads
 //!   ([`Workspace::with_threads`], [`Workspace::with_space`]); results are the same bits for
 //!   any thread count.
