@@ -103,13 +103,7 @@ impl<T: Scalar> Blocks<T> {
         p: &[T],
         q: &mut [T],
     ) -> T {
-        let fixed = op.fixed_cells();
-        self.map(space, q, |cells, q| {
-            op.apply_block(cells.clone(), p, q);
-            zero_fixed(fixed, &cells, q);
-            (block_dot(slice(p, &cells), q), T::zero())
-        })
-        .0
+        self.apply_free_dot(space, op, p, q, p)
     }
 
     /// `r = b − A·x` on the free cells (zero at fixed cells), returning `r·r`.
