@@ -157,6 +157,7 @@ mod builder;
 mod field;
 mod geometry;
 mod medium;
+mod nonlinear;
 mod solver;
 mod spec;
 mod steady;
@@ -170,6 +171,10 @@ pub use budget::{Budget, BudgetLine, BudgetTable, BudgetWarning, FlowKind};
 pub use field::{Field, Profile};
 pub use geometry::Geometry;
 pub use medium::{Conductivity, ConductivityBasis, Storage};
+pub use nonlinear::{
+    Aquifer, AquiferCheck, AquiferKind, ConductivityLaw, FaceWeighting, NonlinearSystem,
+    OuterMethod, OuterReport, OuterSettings, OuterStep, STEFAN_BOLTZMANN,
+};
 pub use spec::{ConditionId, Model, SingularPolicy};
 pub use steady::SteadySystem;
 pub use transient::{Stepper, TimeScheme, DEFAULT_DAMPED_STEPS};

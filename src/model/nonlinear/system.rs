@@ -1,0 +1,898 @@
+//! [`NonlinearSystem`]: a model whose conductances depend on the solution (an aquifer's
+//! saturated thickness, a temperature-dependent conductivity, radiation), its residual, its
+//! Picard and Newton matrices, and its budget.
+
+use std::sync::Arc;
+
+use super::aquifer::{Aquifer, AquiferCheck, FaceWeighting};
+use super::outer::{run_outer, Equations, OuterMethod, OuterReport, OuterSettings, OuterStep};
+use super::thermal::{ConductivityLaw, STEFAN_BOLTZMANN};
+use crate::model::assemble::resistance;
+use crate::model::book::{Action, Book};
+use crate::model::budget::{Budget, BudgetLine, FlowKind};
+use crate::model::solver::default_solver;
+use crate::model::{Conductivity, ConductivityBasis, Forcing, Model, SingularPolicy, SteadySystem};
+use crate::operator::check_len;
+use crate::space::{total, Space};
+use crate::{Banded5, Error, Grid, IterativeSolver, LinearOperator, Side, Workspace};
+
+/// What sets the conductance factor of a cell.
+#[derive(Clone, Debug)]
+enum Law {
+    /// The saturated thickness (m) multiplies a conductance per metre of thickness.
+    Aquifer(Aquifer),
+    /// `k(T)/k_model`.
+    Heat(ConductivityLaw),
+}
+
+/// An edge that radiates to surroundings at a given temperature.
+#[derive(Clone, Debug)]
+struct RadiatingEdge {
+    label: String,
+    /// `ε·σ·A` per cell.
+    cells: Vec<(usize, f64)>,
+    surroundings: f64,
+    offset: f64,
+}
+
+/// A model whose conductances depend on its solution, solved by an outer iteration (Picard
+/// or Newton, see [`OuterSettings`]) with a linear driver inside:
+///
+/// * [`aquifer`](NonlinearSystem::aquifer): groundwater flow with transmissivity `K·b(h)`
+///   from the saturated thickness of an [`Aquifer`] (unconfined, convertible, or confined
+///   with the checks), storage by specific yield for time steps
+///   ([`set_step`](NonlinearSystem::set_step));
+/// * [`thermal`](NonlinearSystem::thermal): conduction with `k(T)` from a
+///   [`ConductivityLaw`], and radiation at edges ([`add_radiation`](NonlinearSystem::add_radiation)).
+///
+/// Every condition of the [`Model`] keeps its meaning; an edge condition that acts through
+/// half a cell (a prescribed value or an exchange on a cell-centred axis) sees that half
+/// cell's conductance change with the solution as well. Cell exchanges (rivers, drains) keep
+/// their conductance. Budgets close to the nonlinear residual left by the outer tolerances.
+///
+/// # Example
+///
+/// ```
+/// use quintet::model::{Aquifer, Axis, Conductivity, Geometry, Model, NonlinearSystem, OuterSettings};
+/// use quintet::Side;
+///
+/// // A strip aquifer 1 km long between two lakes (10 m and 6 m above its base), K = 1e-4 m/s.
+/// let geometry = Geometry::new(Axis::uniform_nodes(41, 25.0)?, Axis::uniform_cells(1, 25.0)?, 10.0)?;
+/// let mut model = Model::new(geometry, Conductivity::isotropic(1e-4))?;
+/// model.prescribe_edge("west lake", Side::West, 10.0)?;
+/// model.prescribe_edge("east lake", Side::East, 6.0)?;
+/// let mut system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0))?;
+/// let mut h = system.initial_solution(8.0);
+/// let report = system.solve(&mut h, &OuterSettings::default(), &mut |step| println!("{step}"))?;
+/// assert!(report.outer_iterations < 10);
+/// // Dupuit: h² is linear between the lakes; midway h = √((10² + 6²)/2).
+/// assert!((h[20] - 68f64.sqrt()).abs() < 1e-4);
+/// # Ok::<(), quintet::Error>(())
+/// ```
+#[derive(Clone, Debug)]
+pub struct NonlinearSystem {
+    base: SteadySystem,
+    law: Law,
+    faces: FaceWeighting,
+    grid: Grid,
+    /// Half-cell resistances at factor 1 of the east face of each cell (own, neighbour's);
+    /// infinite where no conduction crosses.
+    east: Vec<[f64; 2]>,
+    north: Vec<[f64; 2]>,
+    /// Per book slot: `(r, 1/film)` for conductance slots acting through an edge half cell
+    /// (`r = 0` for slots whose weight does not depend on the solution).
+    slot_half: Vec<(f64, f64)>,
+    radiation: Vec<RadiatingEdge>,
+    /// Plan area and elastic storage coefficient per cell.
+    area: Vec<f64>,
+    elastic: Vec<f64>,
+    fixed: Vec<bool>,
+    active: Vec<bool>,
+    operator: Banded5<f64>,
+    factor: Vec<f64>,
+    slope: Vec<f64>,
+    residual: Vec<f64>,
+    rhs: Vec<f64>,
+    delta: Vec<f64>,
+    scratch: Vec<f64>,
+    step: Option<f64>,
+    previous: Vec<f64>,
+}
+
+impl NonlinearSystem {
+    /// Groundwater flow in `aquifer`: the model's conductivity is the hydraulic conductivity
+    /// `K` (per thickness, m/s), and a face conducts `K·b` with `b` the saturated thickness by
+    /// the aquifer's [`FaceWeighting`]. The geometry's thickness only serves the face areas
+    /// of edge conditions and the volumes of volumetric sources: set it to the aquifer's full
+    /// thickness.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for a conductivity
+    /// given as transmissivity, a model with a flow field or a singular policy other than
+    /// [`SingularPolicy::Reject`]; the aquifer's field errors
+    /// ([`ErrorKind::InvalidProperty`](crate::ErrorKind::InvalidProperty) naming the cell);
+    /// and every error of [`Model::assemble`].
+    ///
+    /// ```
+    /// use quintet::model::{Aquifer, Conductivity, Geometry, Model, NonlinearSystem};
+    /// let model = Model::new(Geometry::cell_centered(4, 4, 10.0, 10.0, 5.0)?, Conductivity::transmissivity(1e-3))?;
+    /// assert!(NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0)).is_err());
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn aquifer(model: &Model, aquifer: Aquifer) -> Result<NonlinearSystem, Error> {
+        if model.conductivity.basis() != ConductivityBasis::PerThickness {
+            return Err(Error::setting(
+                "conductivity",
+                f64::NAN,
+                "a hydraulic conductivity per thickness (Conductivity::isotropic or anisotropic): the aquifer sets the thickness",
+            ));
+        }
+        aquifer.validate(model.grid(), &model.active)?;
+        let mut per_metre = model.clone();
+        per_metre.conductivity = Conductivity::transmissivity_anisotropic(
+            model.conductivity.x().clone(),
+            model.conductivity.y().clone(),
+        );
+        let faces = aquifer.face_weighting();
+        NonlinearSystem::build(&per_metre, Law::Aquifer(aquifer), faces)
+    }
+
+    /// Heat conduction with `k(T) = k_model·f(T)`, `f` from `law`; faces take the two
+    /// half-cells in series, each at its own temperature.
+    ///
+    /// # Errors
+    ///
+    /// As for [`aquifer`](NonlinearSystem::aquifer), without the aquifer's.
+    ///
+    /// ```
+    /// use quintet::model::{Axis, Conductivity, ConductivityLaw, Geometry, Model, NonlinearSystem, OuterSettings};
+    /// use quintet::Side;
+    /// let mut model = Model::new(Geometry::new(Axis::uniform_nodes(11, 0.01)?, Axis::uniform_cells(1, 0.01)?, 1.0)?, Conductivity::isotropic(20.0))?;
+    /// model.prescribe_edge("hot", Side::West, 400.0)?;
+    /// model.prescribe_edge("cold", Side::East, 300.0)?;
+    /// let mut system = NonlinearSystem::thermal(&model, ConductivityLaw::linear(1e-3, 300.0)?)?;
+    /// let mut t = system.initial_solution(350.0);
+    /// system.solve(&mut t, &OuterSettings::default(), &mut |_| {})?;
+    /// assert!(t[5] > 350.0); // k grows with T: the hot half needs less gradient
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn thermal(model: &Model, law: ConductivityLaw) -> Result<NonlinearSystem, Error> {
+        NonlinearSystem::build(model, Law::Heat(law), FaceWeighting::Harmonic)
+    }
+
+    fn build(model: &Model, law: Law, faces: FaceWeighting) -> Result<NonlinearSystem, Error> {
+        if model.advection.is_some() {
+            return Err(Error::setting(
+                "flow field",
+                f64::NAN,
+                "a model without a flow field (nonlinear models with advection are not supported)",
+            ));
+        }
+        if model.singular != SingularPolicy::Reject {
+            return Err(Error::setting(
+                "singular policy",
+                f64::NAN,
+                "SingularPolicy::Reject: every region of a nonlinear model needs a prescribed value or an exchange",
+            ));
+        }
+        let base = SteadySystem::new(model)?;
+        let grid = model.grid();
+        let n = grid.cells();
+        let active = model.active.clone();
+        let halves = |side: Side| -> Vec<[f64; 2]> {
+            (0..n)
+                .map(|k| match grid.neighbour(k, side) {
+                    Some(nb) if active[k] && active[nb] => [
+                        resistance(model, k, side),
+                        resistance(model, nb, side.opposite()),
+                    ],
+                    _ => [f64::INFINITY; 2],
+                })
+                .collect()
+        };
+        let (east, north) = (halves(Side::East), halves(Side::North));
+        let book = base.book();
+        let mut slot_half = vec![(0.0, 0.0); book.cells.len()];
+        for term in &book.terms {
+            let (Action::Conductance, Some(side)) = (term.action, term.edge) else {
+                continue;
+            };
+            for s in term.slots.clone() {
+                let r = resistance(model, book.cells[s], side);
+                let w0 = book.weights[s];
+                if r > 0.0 && r.is_finite() && w0 > 0.0 {
+                    slot_half[s] = (r, (1.0 / w0 - r).max(0.0));
+                }
+            }
+        }
+        let g = &model.geometry;
+        let area: Vec<f64> = (0..n).map(|k| g.plan_area(k)).collect();
+        let elastic = (0..n)
+            .map(|k| match &model.storage {
+                Some(st) if st.is_per_volume() => st.values().at(k) * g.thickness(k),
+                Some(st) => st.values().at(k),
+                None => 0.0,
+            })
+            .collect();
+        let operator = base.operator().clone();
+        let fixed = (0..n)
+            .map(|k| operator.fixed_cells().is_some_and(|f| f.contains(k)))
+            .collect();
+        Ok(NonlinearSystem {
+            base,
+            law,
+            faces,
+            grid,
+            east,
+            north,
+            slot_half,
+            radiation: Vec::new(),
+            area,
+            elastic,
+            fixed,
+            active,
+            operator,
+            factor: vec![1.0; n],
+            slope: vec![0.0; n],
+            residual: vec![0.0; n],
+            rhs: vec![0.0; n],
+            delta: vec![0.0; n],
+            scratch: vec![0.0; n],
+            step: None,
+            previous: vec![0.0; n],
+        })
+    }
+
+    /// Let the free cells along `side` radiate to surroundings at temperature `surroundings`:
+    /// net flow out `ε·σ·A·((T + offset)⁴ − (T_s + offset)⁴)` per cell, `A` the edge face
+    /// area, σ = [`STEFAN_BOLTZMANN`]. Radiation needs absolute temperatures: with
+    /// temperatures in kelvin `offset` is 0, in °C it is 273.15. On a node-centred axis the
+    /// edge nodes sit on the surface; on a cell-centred one the cell's own temperature
+    /// radiates (the half cell to the surface is neglected, a first-order error in the cell
+    /// width). Cells held at a prescribed value do not radiate.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for an emissivity
+    /// outside `[0, 1]` or a temperature or offset that is not finite, or an aquifer system.
+    ///
+    /// ```
+    /// use quintet::model::{Conductivity, ConductivityLaw, Geometry, Model, NonlinearSystem};
+    /// use quintet::Side;
+    /// let mut model = Model::new(Geometry::node_centered(5, 5, 0.01, 0.01, 0.002)?, Conductivity::isotropic(200.0))?;
+    /// model.prescribe_edge("heater", Side::West, 120.0)?;
+    /// let mut fin = NonlinearSystem::thermal(&model, ConductivityLaw::linear(0.0, 0.0)?)?;
+    /// fin.add_radiation("to the enclosure", Side::East, 0.85, 25.0, 273.15)?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn add_radiation(
+        &mut self,
+        label: &str,
+        side: Side,
+        emissivity: f64,
+        surroundings: f64,
+        offset: f64,
+    ) -> Result<(), Error> {
+        if matches!(self.law, Law::Aquifer(_)) {
+            return Err(Error::setting(
+                "radiation",
+                f64::NAN,
+                "a thermal system (NonlinearSystem::thermal)",
+            ));
+        }
+        if !(emissivity.is_finite() && (0.0..=1.0).contains(&emissivity)) {
+            return Err(Error::setting("emissivity", emissivity, "between 0 and 1"));
+        }
+        if !surroundings.is_finite() {
+            return Err(Error::setting(
+                "surroundings temperature",
+                surroundings,
+                "finite",
+            ));
+        }
+        if !offset.is_finite() {
+            return Err(Error::setting("temperature offset", offset, "finite (K)"));
+        }
+        let g = self.base.model().geometry.clone();
+        let cells = g
+            .edge(side)
+            .into_iter()
+            .filter(|&k| self.active[k] && !self.fixed[k])
+            .map(|k| (k, emissivity * STEFAN_BOLTZMANN * g.face_area(k, side)))
+            .collect();
+        self.radiation.push(RadiatingEdge {
+            label: label.to_string(),
+            cells,
+            surroundings,
+            offset,
+        });
+        Ok(())
+    }
+
+    /// A solution vector to start from: prescribed and inactive values where they hold,
+    /// `start` elsewhere.
+    ///
+    /// ```
+    /// # use quintet::model::{Aquifer, Conductivity, Geometry, Model, NonlinearSystem};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// model.prescribe_cells("lake", [0], 5.0)?;
+    /// let system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0))?;
+    /// assert_eq!(system.initial_solution(4.0), vec![5.0, 4.0, 4.0]);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn initial_solution(&self, start: f64) -> Vec<f64> {
+        self.base.initial_solution(start)
+    }
+
+    /// The grid.
+    ///
+    /// ```
+    /// # use quintet::model::{Aquifer, Conductivity, Geometry, Model, NonlinearSystem};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 2, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.prescribe_cells("lake", [0], 5.0)?;
+    /// let system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0))?;
+    /// assert_eq!(system.grid().cells(), 6);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn grid(&self) -> Grid {
+        self.grid
+    }
+
+    /// Change condition levels through a [`Forcing`] (see [`SteadySystem::force`]).
+    ///
+    /// # Errors
+    ///
+    /// As for [`SteadySystem::force`].
+    ///
+    /// ```
+    /// # use quintet::model::{Aquifer, Conductivity, Geometry, Model, NonlinearSystem};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.prescribe_cells("lake", [0], 5.0)?;
+    /// let well = model.point_source("well", 2, -1e-4)?;
+    /// let mut system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0))?;
+    /// system.force(|f| f.set(well, -2e-4))?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn force(
+        &mut self,
+        change: impl FnOnce(&mut Forcing<'_>) -> Result<(), Error>,
+    ) -> Result<(), Error> {
+        self.base.force(change)
+    }
+
+    /// Solve a backward-Euler time step of length `dt` (s) from the heads `previous` with the
+    /// next [`solve`](NonlinearSystem::solve) (stored water per plan area `S_y·b(h)` plus the
+    /// elastic storage of the model's [`Storage`](crate::model::Storage) above the top of a
+    /// convertible aquifer, or `S·h` for a confined one: the change of stored water is exact,
+    /// so the budget closes); `None` goes back to steady solves. Aquifer systems only.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for a `dt` that is not
+    /// finite and positive or a thermal system; length and finiteness errors for `previous`.
+    ///
+    /// ```
+    /// # use quintet::model::{Aquifer, Conductivity, Geometry, Model, NonlinearSystem, OuterSettings};
+    /// # let mut model = Model::new(Geometry::cell_centered(5, 1, 10.0, 10.0, 10.0)?, Conductivity::isotropic(1e-4))?;
+    /// # model.prescribe_cells("lake", [0], 8.0)?;
+    /// let mut system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0).specific_yield(0.2))?;
+    /// let old = system.initial_solution(5.0);
+    /// system.set_step(Some((3600.0, &old)))?;
+    /// let mut h = old.clone();
+    /// system.solve(&mut h, &OuterSettings::default(), &mut |_| {})?;
+    /// assert!(h[1] > 5.0 && h[1] < 8.0); // the lake fills the aquifer
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn set_step(&mut self, step: Option<(f64, &[f64])>) -> Result<(), Error> {
+        match step {
+            None => self.step = None,
+            Some((dt, previous)) => {
+                if !matches!(self.law, Law::Aquifer(_)) {
+                    return Err(Error::setting(
+                        "time step",
+                        dt,
+                        "an aquifer system (thermal time steps are not supported yet)",
+                    ));
+                }
+                if !(dt.is_finite() && dt > 0.0) {
+                    return Err(Error::setting("time step", dt, "finite and > 0 (s)"));
+                }
+                check_len("previous", self.grid.cells(), previous.len())?;
+                if let Some(k) = previous.iter().position(|v| !v.is_finite()) {
+                    return Err(Error::non_finite(
+                        "previous",
+                        crate::Location::on(self.grid, k),
+                    ));
+                }
+                self.previous.copy_from_slice(previous);
+                self.step = Some(dt);
+            }
+        }
+        Ok(())
+    }
+
+    /// Run the outer iteration from `x` with the model's driver for each linear solve,
+    /// rebuilt from every new matrix (PCG with Jacobi for Picard's symmetric matrices,
+    /// BiCGSTAB with ILU(0) for Newton's), calling `observer` after every outer iteration.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::OuterNotConverged`](crate::ErrorKind::OuterNotConverged) when the
+    /// tolerances are not met (the last iterate is in `x`), invalid settings, a length
+    /// mismatch, and the errors of the linear solves (breakdowns, pivots) with the outer
+    /// iteration in their context.
+    ///
+    /// ```
+    /// # use quintet::model::{Aquifer, Axis, Conductivity, Geometry, Model, NonlinearSystem, OuterSettings, OuterMethod};
+    /// # use quintet::Side;
+    /// # let mut model = Model::new(Geometry::new(Axis::uniform_nodes(21, 50.0)?, Axis::uniform_cells(1, 50.0)?, 10.0)?, Conductivity::isotropic(1e-4))?;
+    /// # model.prescribe_edge("west lake", Side::West, 10.0)?;
+    /// # model.prescribe_edge("east lake", Side::East, 6.0)?;
+    /// let mut system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0))?;
+    /// let mut h = system.initial_solution(8.0);
+    /// let mut log = Vec::new();
+    /// let report = system.solve(&mut h, &OuterSettings::new(OuterMethod::Picard), &mut |s| log.push(*s))?;
+    /// assert_eq!(log.len(), report.outer_iterations);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn solve(
+        &mut self,
+        x: &mut [f64],
+        settings: &OuterSettings,
+        observer: &mut dyn FnMut(&OuterStep),
+    ) -> Result<OuterReport, Error> {
+        let symmetric = settings.method == OuterMethod::Picard;
+        let mut ws = Workspace::new();
+        let mut inner = |op: &Banded5<f64>, rhs: &[f64], d: &mut [f64], eta: f64| {
+            let mut solver = default_solver(op, symmetric)?;
+            solver.options_mut().tolerances.relative = eta;
+            solver.solve_with(op, rhs, d, &mut ws)
+        };
+        self.run(x, settings, &mut inner, observer)
+    }
+
+    /// [`solve`](NonlinearSystem::solve) with the caller's driver for every linear solve
+    /// (its relative tolerance is set for each and restored after; its preconditioner stays
+    /// as it was built, from whatever matrix: rebuild it between runs if the coefficients
+    /// changed much). A Newton matrix is not symmetric: use a driver for non-symmetric
+    /// systems ([`BiCgStab`](crate::BiCgStab), [`Gmres`](crate::Gmres)). After the first
+    /// outer iteration nothing is allocated but what the driver allocates.
+    ///
+    /// # Errors
+    ///
+    /// As for [`solve`](NonlinearSystem::solve).
+    ///
+    /// ```
+    /// # use quintet::model::{Aquifer, Axis, Conductivity, Geometry, Model, NonlinearSystem, OuterSettings, OuterMethod};
+    /// # use quintet::Side;
+    /// use quintet::{BiCgStab, Identity, Workspace};
+    /// # let mut model = Model::new(Geometry::new(Axis::uniform_nodes(21, 50.0)?, Axis::uniform_cells(1, 50.0)?, 10.0)?, Conductivity::isotropic(1e-4))?;
+    /// # model.prescribe_edge("west lake", Side::West, 10.0)?;
+    /// # model.prescribe_edge("east lake", Side::East, 6.0)?;
+    /// let mut system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0))?;
+    /// let mut h = system.initial_solution(8.0);
+    /// let mut driver = BiCgStab::new(Identity);
+    /// system.solve_with(&mut driver, &mut Workspace::new(), &mut h, &OuterSettings::default(), &mut |_| {})?;
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn solve_with(
+        &mut self,
+        solver: &mut dyn IterativeSolver<f64>,
+        ws: &mut Workspace<f64>,
+        x: &mut [f64],
+        settings: &OuterSettings,
+        observer: &mut dyn FnMut(&OuterStep),
+    ) -> Result<OuterReport, Error> {
+        let mut inner = |op: &Banded5<f64>, rhs: &[f64], d: &mut [f64], eta: f64| {
+            let saved = solver.options().tolerances.relative;
+            solver.options_mut().tolerances.relative = eta;
+            let result = solver.solve_with(op, rhs, d, ws);
+            solver.options_mut().tolerances.relative = saved;
+            result
+        };
+        self.run(x, settings, &mut inner, observer)
+    }
+
+    fn run(
+        &mut self,
+        x: &mut [f64],
+        settings: &OuterSettings,
+        inner: &mut super::outer::Inner<'_>,
+        observer: &mut dyn FnMut(&OuterStep),
+    ) -> Result<OuterReport, Error> {
+        self.base.prepare(x)?;
+        if let Some(k) = x.iter().position(|v| !v.is_finite()) {
+            return Err(Error::non_finite("x", crate::Location::on(self.grid, k)));
+        }
+        let mut scratch = std::mem::take(&mut self.scratch);
+        let result = run_outer(self, x, &mut scratch, settings, inner, observer);
+        self.scratch = scratch;
+        result
+    }
+
+    /// The budget of solution `x`: one line per condition (in the model's order), then one
+    /// per radiating edge, then storage during a time step; in W or m³/s. It closes to the
+    /// nonlinear residual the outer iteration left.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch).
+    ///
+    /// ```
+    /// # use quintet::model::{Aquifer, Conductivity, Geometry, Model, NonlinearSystem, OuterSettings};
+    /// # use quintet::Side;
+    /// # let mut model = Model::new(Geometry::new(Axis::uniform_nodes(21, 50.0)?, Axis::uniform_cells(1, 50.0)?, 10.0)?, Conductivity::isotropic(1e-4))?;
+    /// # model.prescribe_edge("west lake", Side::West, 10.0)?;
+    /// # model.prescribe_edge("east lake", Side::East, 6.0)?;
+    /// let mut system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0))?;
+    /// let mut h = system.initial_solution(8.0);
+    /// system.solve(&mut h, &OuterSettings::default(), &mut |_| {})?;
+    /// assert!(system.budget(&h)?.imbalance_percent().abs() < 1e-6);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn budget(&self, x: &[f64]) -> Result<Budget, Error> {
+        let n = self.grid.cells();
+        check_len("x", n, x.len())?;
+        let fs: Vec<(f64, f64)> = (0..n).map(|k| self.cell_factor(k, x[k])).collect();
+        let mut book: Book = self.base.book().clone();
+        for t in 0..book.terms.len() {
+            let (action, slots) = (book.terms[t].action, book.terms[t].slots.clone());
+            for s in slots {
+                let k = book.cells[s];
+                match action {
+                    Action::Conductance => book.weights[s] = self.slot_weight(s, fs[k].0).0,
+                    Action::Fixed => {
+                        for l in book.link_ranges[s].clone() {
+                            let nb = book.links[l].free;
+                            book.links[l].conductance = self.face_between(k, nb, x, &fs);
+                            book.links[l].carried = 0.0;
+                        }
+                    }
+                    _ => {}
+                }
+            }
+        }
+        let space = &*self.base.model().space;
+        let uptake = |k: usize| self.storage_rate(k, x[k]);
+        let stepping = self.step.is_some();
+        let mut lines = book.lines(
+            space,
+            (x, &book.levels),
+            None,
+            stepping.then_some(&uptake as &dyn Fn(usize) -> f64),
+        );
+        let mut sums = Vec::with_capacity(2 * self.radiation.len() + 2);
+        for edge in &self.radiation {
+            let (mut inflow, mut outflow) = (0.0, 0.0);
+            for &(k, esa) in &edge.cells {
+                let q = esa
+                    * ((edge.surroundings + edge.offset).powi(4) - (x[k] + edge.offset).powi(4));
+                if q >= 0.0 {
+                    inflow += q;
+                } else {
+                    outflow -= q;
+                }
+            }
+            sums.extend([inflow, outflow]);
+        }
+        if stepping {
+            let (mut release, mut uptake_sum) = (0.0, 0.0);
+            for k in (0..n).filter(|&k| self.active[k] && !self.fixed[k]) {
+                let q = -self.storage_rate(k, x[k]);
+                if q >= 0.0 {
+                    release += q;
+                } else {
+                    uptake_sum -= q;
+                }
+            }
+            sums.extend([release, uptake_sum]);
+        }
+        total(space, &mut sums);
+        for (edge, pair) in self.radiation.iter().zip(sums.chunks_exact(2)) {
+            lines.push(BudgetLine {
+                label: edge.label.clone(),
+                kind: FlowKind::Exchange,
+                inflow: pair[0],
+                outflow: pair[1],
+            });
+        }
+        if stepping {
+            let pair = &sums[sums.len() - 2..];
+            lines.push(BudgetLine {
+                label: "storage".to_string(),
+                kind: FlowKind::Storage,
+                inflow: pair[0],
+                outflow: pair[1],
+            });
+        }
+        Ok(Budget::from_lines(lines))
+    }
+
+    /// [`Aquifer::check`] of heads `x` (cells below the top, dry cells), over active cells.
+    ///
+    /// # Errors
+    ///
+    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch), and
+    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for a thermal system.
+    ///
+    /// ```
+    /// # use quintet::model::{Aquifer, Conductivity, Geometry, Model, NonlinearSystem};
+    /// # let mut model = Model::new(Geometry::cell_centered(3, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
+    /// # model.prescribe_cells("lake", [0], 5.0)?;
+    /// let system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0))?;
+    /// assert_eq!(system.check(&[5.0, 2.0, -0.5])?.dry, vec![2]);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    pub fn check(&self, x: &[f64]) -> Result<AquiferCheck, Error> {
+        let Law::Aquifer(aquifer) = &self.law else {
+            return Err(Error::setting(
+                "aquifer check",
+                f64::NAN,
+                "an aquifer system (NonlinearSystem::aquifer)",
+            ));
+        };
+        let mut check = aquifer.check(self.grid, x)?;
+        check.below_top.retain(|&k| self.active[k]);
+        check.dry.retain(|&k| self.active[k]);
+        check.first_dry = check
+            .dry
+            .first()
+            .map(|&k| crate::Location::on(self.grid, k));
+        Ok(check)
+    }
+
+    /// The factor on a cell's base conductances, and its slope.
+    fn cell_factor(&self, k: usize, v: f64) -> (f64, f64) {
+        match &self.law {
+            Law::Aquifer(a) => a.thickness(k, v),
+            Law::Heat(law) => law.factor_and_slope(v),
+        }
+    }
+
+    /// Weight of conductance slot `s` at factor `m`, and its slope `dw/dm`.
+    fn slot_weight(&self, s: usize, m: f64) -> (f64, f64) {
+        let (r, inv_film) = self.slot_half[s];
+        if r == 0.0 {
+            return (self.base.book().weights[s], 0.0);
+        }
+        let w = 1.0 / (inv_film + r / m);
+        (w, w * w * r / (m * m))
+    }
+
+    /// Storage uptake of cell `k` during the step (m³/s), 0 when steady.
+    fn storage_rate(&self, k: usize, v: f64) -> f64 {
+        match (self.step, &self.law) {
+            (Some(dt), Law::Aquifer(a)) => {
+                let now = a.stored(k, v, self.elastic[k]).0;
+                let before = a.stored(k, self.previous[k], self.elastic[k]).0;
+                self.area[k] * (now - before) / dt
+            }
+            _ => 0.0,
+        }
+    }
+
+    /// The conductance between neighbours `k` and `nb` at `x` (factors `fs`).
+    fn face_between(&self, k: usize, nb: usize, x: &[f64], fs: &[(f64, f64)]) -> f64 {
+        let (low, high, halves) = if nb == k + 1 {
+            (k, nb, &self.east)
+        } else if k == nb + 1 {
+            (nb, k, &self.east)
+        } else if nb > k {
+            (k, nb, &self.north)
+        } else {
+            (nb, k, &self.north)
+        };
+        face(self.faces, halves[low], fs[low], fs[high], x[low], x[high]).0
+    }
+}
+
+/// Conductance of a face between `p` and `n` with half-resistances `[r_p, r_n]` at factor 1,
+/// factors and slopes `fp`, `fn_`, values `xp`, `xn`; and its derivatives with respect to
+/// `xp` and `xn` through the factors.
+#[inline]
+fn face(
+    rule: FaceWeighting,
+    [rp, rn]: [f64; 2],
+    (mp, sp): (f64, f64),
+    (mn, sn): (f64, f64),
+    xp: f64,
+    xn: f64,
+) -> (f64, f64, f64) {
+    if !(rp.is_finite() && rn.is_finite()) {
+        return (0.0, 0.0, 0.0);
+    }
+    match rule {
+        FaceWeighting::Upstream => {
+            let c0 = 1.0 / (rp + rn);
+            if xp >= xn {
+                (c0 * mp, c0 * sp, 0.0)
+            } else {
+                (c0 * mn, 0.0, c0 * sn)
+            }
+        }
+        FaceWeighting::Harmonic => {
+            let c = 1.0 / (rp / mp + rn / mn);
+            (c, c * c * rp / (mp * mp) * sp, c * c * rn / (mn * mn) * sn)
+        }
+    }
+}
+
+impl Equations for NonlinearSystem {
+    fn residual(&mut self, x: &[f64]) -> f64 {
+        let n = self.grid.cells();
+        for k in 0..n {
+            let (m, s) = self.cell_factor(k, x[k]);
+            self.factor[k] = m;
+            self.slope[k] = s;
+        }
+        let mut r = std::mem::take(&mut self.residual);
+        r.fill(0.0);
+        for (halves, side) in [(&self.east, Side::East), (&self.north, Side::North)] {
+            for k in 0..n {
+                if let Some(nb) = self.grid.neighbour(k, side) {
+                    let fk = (self.factor[k], self.slope[k]);
+                    let fnb = (self.factor[nb], self.slope[nb]);
+                    let (c, _, _) = face(self.faces, halves[k], fk, fnb, x[k], x[nb]);
+                    let q = c * (x[k] - x[nb]);
+                    r[k] += q;
+                    r[nb] -= q;
+                }
+            }
+        }
+        let book = self.base.book();
+        for term in &book.terms {
+            for s in term.slots.clone() {
+                let k = book.cells[s];
+                let level = book.levels[s];
+                match term.action {
+                    Action::Source => r[k] -= book.weights[s] * level,
+                    Action::Conductance => {
+                        r[k] += self.slot_weight(s, self.factor[k]).0 * (x[k] - level)
+                    }
+                    _ => {}
+                }
+            }
+        }
+        for edge in &self.radiation {
+            for &(k, esa) in &edge.cells {
+                r[k] += esa
+                    * ((x[k] + edge.offset).powi(4) - (edge.surroundings + edge.offset).powi(4));
+            }
+        }
+        let mut sum = 0.0;
+        for k in 0..n {
+            if self.fixed[k] {
+                r[k] = 0.0;
+                continue;
+            }
+            r[k] += self.storage_rate(k, x[k]);
+            sum += r[k] * r[k];
+        }
+        self.residual = r;
+        sum
+    }
+
+    fn linearise(&mut self, x: &[f64], method: OuterMethod) -> Result<(), Error> {
+        let newton = method == OuterMethod::Newton;
+        let n = self.grid.cells();
+        // Extra diagonal terms first (slots, radiation, storage), into the rhs vector as
+        // scratch; the rhs is written last.
+        let mut extra = std::mem::take(&mut self.rhs);
+        extra.fill(0.0);
+        {
+            let book = self.base.book();
+            for term in book
+                .terms
+                .iter()
+                .filter(|t| t.action == Action::Conductance)
+            {
+                for s in term.slots.clone() {
+                    let k = book.cells[s];
+                    let (w, dw) = self.slot_weight(s, self.factor[k]);
+                    extra[k] += w;
+                    if newton {
+                        extra[k] += dw * self.slope[k] * (x[k] - book.levels[s]);
+                    }
+                }
+            }
+            for edge in &self.radiation {
+                for &(k, esa) in &edge.cells {
+                    let (t, ts) = (x[k] + edge.offset, edge.surroundings + edge.offset);
+                    extra[k] += if newton {
+                        4.0 * esa * t.powi(3)
+                    } else {
+                        esa * (t * t + ts * ts) * (t + ts)
+                    };
+                }
+            }
+            if let (Some(dt), Law::Aquifer(a)) = (self.step, &self.law) {
+                for k in 0..n {
+                    extra[k] += self.area[k] * a.stored(k, x[k], self.elastic[k]).1 / dt;
+                }
+            }
+        }
+        let Self {
+            operator,
+            factor,
+            slope,
+            east,
+            north,
+            fixed,
+            faces,
+            grid,
+            ..
+        } = self;
+        operator.refill(|[c, w, e, s, no]| {
+            for band in [&mut *c, &mut *w, &mut *e, &mut *s, &mut *no] {
+                band.fill(0.0);
+            }
+            for (halves, side) in [(&*east, Side::East), (&*north, Side::North)] {
+                for k in 0..n {
+                    let Some(nb) = grid.neighbour(k, side) else {
+                        continue;
+                    };
+                    let (cf, ap, an) = face(
+                        *faces,
+                        halves[k],
+                        (factor[k], slope[k]),
+                        (factor[nb], slope[nb]),
+                        x[k],
+                        x[nb],
+                    );
+                    let d = x[k] - x[nb];
+                    let (own, towards, back, theirs) = if newton {
+                        (cf + ap * d, -cf + an * d, -cf - ap * d, cf - an * d)
+                    } else {
+                        (cf, -cf, -cf, cf)
+                    };
+                    c[k] += own;
+                    c[nb] += theirs;
+                    match side {
+                        Side::East => {
+                            e[k] = towards;
+                            w[nb] = back;
+                        }
+                        _ => {
+                            no[k] = towards;
+                            s[nb] = back;
+                        }
+                    }
+                }
+            }
+            for k in 0..n {
+                if fixed[k] {
+                    c[k] = 1.0;
+                    w[k] = 0.0;
+                    e[k] = 0.0;
+                    s[k] = 0.0;
+                    no[k] = 0.0;
+                } else {
+                    c[k] += extra[k];
+                }
+            }
+        })?;
+        for (b, r) in extra.iter_mut().zip(&self.residual) {
+            *b = -r;
+        }
+        self.rhs = extra;
+        Ok(())
+    }
+
+    fn correction(&mut self) -> (&Banded5<f64>, &[f64], &mut [f64]) {
+        self.delta.fill(0.0);
+        (&self.operator, &self.rhs, &mut self.delta)
+    }
+
+    fn delta(&self) -> &[f64] {
+        &self.delta
+    }
+
+    fn is_fixed(&self, k: usize) -> bool {
+        self.fixed[k]
+    }
+
+    fn space(&self) -> &Arc<dyn Space> {
+        &self.base.model().space
+    }
+}
