@@ -52,8 +52,9 @@ impl OuterMethod {
 /// which keeps Newton quadratic (Dembo, Eisenstat & Steihaug 1982, "Inexact Newton methods",
 /// *SIAM J. Numer. Anal.* 19(2), from memory: η = O(‖F‖) suffices).
 ///
-/// **Backtracking.** If a full step raises the residual, the step is halved up to
-/// `backtracking` times (the halvings are not counted as outer iterations).
+/// **Step control.** A correction longer than `max_change` anywhere is scaled down to it;
+/// if the step then raises the residual, it is halved up to `backtracking` times (the
+/// halvings are not counted as outer iterations). The step length taken is in the record.
 ///
 /// ```
 /// use quintet::model::{OuterMethod, OuterSettings};
@@ -80,6 +81,11 @@ pub struct OuterSettings {
     pub inner_min: f64,
     /// Step halvings allowed per outer iteration when the residual grows (default 6).
     pub backtracking: usize,
+    /// Largest change of any cell in one outer iteration (m or K, default ∞): a longer
+    /// correction is scaled down to it before backtracking. Near drying cells the Newton
+    /// correction can be far too long (the slopes of a nearly dry cell vanish); a limit of
+    /// a fraction of the aquifer thickness keeps the iterates in range.
+    pub max_change: f64,
 }
 
 impl Default for OuterSettings {
@@ -94,6 +100,7 @@ impl Default for OuterSettings {
             inner_max: 1e-2,
             inner_min: 1e-11,
             backtracking: 6,
+            max_change: f64::INFINITY,
         }
     }
 }
@@ -130,6 +137,9 @@ impl OuterSettings {
                 self.inner_min,
                 "0 < inner_min <= inner_max < 1",
             ));
+        }
+        if !(self.max_change > 0.0) {
+            return Err(Error::setting("max_change", self.max_change, "> 0"));
         }
         if self.max_outer == 0 {
             return Err(Error::setting("max_outer", 0.0, "at least 1"));
@@ -299,7 +309,11 @@ pub(crate) fn run_outer<E: Equations + ?Sized>(
         let mut out = [0.0];
         space.combine_f64(&[largest], &[Combine::Max], &mut out);
         let largest = out[0];
-        let mut length = 1.0;
+        let mut length = if largest > settings.max_change {
+            settings.max_change / largest
+        } else {
+            1.0
+        };
         let mut new_residual;
         let mut halvings = 0;
         loop {
