@@ -131,10 +131,10 @@ fn unconfined_thiem() {
             let mut h = system.initial_solution(h_r);
             system.solve(&mut h, &tight(), &mut |_| {}).unwrap();
             let mut max_rel: f64 = 0.0;
-            for c in 0..grid.cells() {
+            for (c, &hc) in h.iter().enumerate() {
                 let r = r_of(c);
                 if r >= 3.0 * a - 1e-9 {
-                    max_rel = max_rel.max((h[c] - exact(r)).abs() / (h_r - exact(r)));
+                    max_rel = max_rel.max((hc - exact(r)).abs() / (h_r - exact(r)));
                 }
             }
             println!(

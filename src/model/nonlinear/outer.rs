@@ -138,7 +138,7 @@ impl OuterSettings {
                 "0 < inner_min <= inner_max < 1",
             ));
         }
-        if !(self.max_change > 0.0) {
+        if self.max_change.is_nan() || self.max_change <= 0.0 {
             return Err(Error::setting("max_change", self.max_change, "> 0"));
         }
         if self.max_outer == 0 {
@@ -153,7 +153,7 @@ impl OuterSettings {
 /// ```
 /// use quintet::model::OuterStep;
 /// let step = OuterStep { outer: 3, inner_iterations: 12, inner_tolerance: 1e-4, change: 0.02, residual: 1e-7, step_length: 1.0 };
-/// assert!(step.to_string().starts_with("outer 3"));
+/// assert!(step.to_string().starts_with("outer   3:   12 inner iterations"));
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct OuterStep {
