@@ -182,7 +182,7 @@ impl std::fmt::Display for OuterStep {
             self.change,
             self.residual,
             if self.step_length < 1.0 {
-                format!(", step {}", self.step_length)
+                format!(", step {:.3}", self.step_length)
             } else {
                 String::new()
             }
