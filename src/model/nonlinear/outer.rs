@@ -286,6 +286,9 @@ pub(crate) fn run_outer<E: Equations + ?Sized>(
             .map_err(|e| e.while_doing(format!("outer iteration {outer}")))?;
         let eta =
             (settings.forcing * residual / initial).clamp(settings.inner_min, settings.inner_max);
+        // Drop the last inner report first: its history buffer is then free for the driver
+        // to reuse, and the solve allocates nothing for it.
+        drop(last_inner.take());
         let (op, rhs, delta) = eq.correction();
         let inner_report = match inner(op, rhs, delta, eta) {
             Ok(r) => r,
