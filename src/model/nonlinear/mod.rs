@@ -2,6 +2,8 @@
 //! solves them (see the [module docs](crate::model#nonlinear-models)).
 
 mod aquifer;
+mod budget;
+mod equations;
 mod outer;
 mod system;
 mod thermal;

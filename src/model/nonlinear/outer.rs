@@ -6,7 +6,8 @@
 //! `∂F/∂x` (Newton). Since the residual is always the true one, both converge to the same
 //! solution; they differ in speed: linearly for Picard, quadratically near the solution for
 //! Newton (Kelley 1995, *Iterative Methods for Linear and Nonlinear Equations*, SIAM,
-//! ch. 4–5).
+//! ch. 4–5). Each linear solve starts from `δ = 0`, that is from the last outer iterate: a
+//! warm start, whose initial residual is the nonlinear residual itself.
 
 use crate::error::Error;
 use crate::report::Report;

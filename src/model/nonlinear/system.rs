@@ -2,23 +2,20 @@
 //! saturated thickness, a temperature-dependent conductivity, radiation), its residual, its
 //! Picard and Newton matrices, and its budget.
 
-use std::sync::Arc;
-
-use super::aquifer::{Aquifer, AquiferCheck, FaceWeighting};
-use super::outer::{run_outer, Equations, OuterMethod, OuterReport, OuterSettings, OuterStep};
+use super::aquifer::{Aquifer, FaceWeighting};
+use super::outer::{run_outer, OuterMethod, OuterReport, OuterSettings, OuterStep};
 use super::thermal::{ConductivityLaw, STEFAN_BOLTZMANN};
 use crate::model::assemble::resistance;
-use crate::model::book::{Action, Book};
-use crate::model::budget::{Budget, BudgetLine, FlowKind};
+use crate::model::book::Action;
+use crate::model::budget::FlowKind;
 use crate::model::solver::default_solver;
 use crate::model::{Conductivity, ConductivityBasis, Forcing, Model, SingularPolicy, SteadySystem};
 use crate::operator::check_len;
-use crate::space::{total, Space};
 use crate::{Banded5, Error, Grid, IterativeSolver, LinearOperator, Side, Workspace};
 
 /// What sets the conductance factor of a cell.
 #[derive(Clone, Debug)]
-enum Law {
+pub(super) enum Law {
     /// The saturated thickness (m) multiplies a conductance per metre of thickness.
     Aquifer(Aquifer),
     /// `k(T)/k_model`.
@@ -27,12 +24,12 @@ enum Law {
 
 /// An edge that radiates to surroundings at a given temperature.
 #[derive(Clone, Debug)]
-struct RadiatingEdge {
-    label: String,
+pub(super) struct RadiatingEdge {
+    pub(super) label: String,
     /// `ε·σ·A` per cell.
-    cells: Vec<(usize, f64)>,
-    surroundings: f64,
-    offset: f64,
+    pub(super) cells: Vec<(usize, f64)>,
+    pub(super) surroundings: f64,
+    pub(super) offset: f64,
 }
 
 /// A model whose conductances depend on its solution, solved by an outer iteration (Picard
@@ -75,32 +72,32 @@ struct RadiatingEdge {
 /// ```
 #[derive(Clone, Debug)]
 pub struct NonlinearSystem {
-    base: SteadySystem,
-    law: Law,
-    faces: FaceWeighting,
-    grid: Grid,
+    pub(super) base: SteadySystem,
+    pub(super) law: Law,
+    pub(super) faces: FaceWeighting,
+    pub(super) grid: Grid,
     /// Half-cell resistances at factor 1 of the east face of each cell (own, neighbour's);
     /// infinite where no conduction crosses.
-    east: Vec<[f64; 2]>,
-    north: Vec<[f64; 2]>,
+    pub(super) east: Vec<[f64; 2]>,
+    pub(super) north: Vec<[f64; 2]>,
     /// Per book slot: `(r, 1/film)` for conductance slots acting through an edge half cell
     /// (`r = 0` for slots whose weight does not depend on the solution).
-    slot_half: Vec<(f64, f64)>,
-    radiation: Vec<RadiatingEdge>,
+    pub(super) slot_half: Vec<(f64, f64)>,
+    pub(super) radiation: Vec<RadiatingEdge>,
     /// Plan area and elastic storage coefficient per cell.
-    area: Vec<f64>,
-    elastic: Vec<f64>,
-    fixed: Vec<bool>,
-    active: Vec<bool>,
-    operator: Banded5<f64>,
-    factor: Vec<f64>,
-    slope: Vec<f64>,
-    residual: Vec<f64>,
-    rhs: Vec<f64>,
-    delta: Vec<f64>,
-    scratch: Vec<f64>,
-    step: Option<f64>,
-    previous: Vec<f64>,
+    pub(super) area: Vec<f64>,
+    pub(super) elastic: Vec<f64>,
+    pub(super) fixed: Vec<bool>,
+    pub(super) active: Vec<bool>,
+    pub(super) operator: Banded5<f64>,
+    pub(super) factor: Vec<f64>,
+    pub(super) slope: Vec<f64>,
+    pub(super) residual: Vec<f64>,
+    pub(super) rhs: Vec<f64>,
+    pub(super) delta: Vec<f64>,
+    pub(super) scratch: Vec<f64>,
+    pub(super) step: Option<f64>,
+    pub(super) previous: Vec<f64>,
 }
 
 impl NonlinearSystem {
@@ -515,144 +512,8 @@ impl NonlinearSystem {
         result
     }
 
-    /// The budget of solution `x`: one line per condition (in the model's order), then one
-    /// per radiating edge, then storage during a time step; in W or m³/s. It closes to the
-    /// nonlinear residual the outer iteration left.
-    ///
-    /// # Errors
-    ///
-    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch).
-    ///
-    /// ```
-    /// # use quintet::model::{Aquifer, Axis, Conductivity, Geometry, Model, NonlinearSystem, OuterSettings};
-    /// # use quintet::Side;
-    /// # let mut model = Model::new(Geometry::new(Axis::uniform_nodes(21, 50.0)?, Axis::uniform_cells(1, 50.0)?, 10.0)?, Conductivity::isotropic(1e-4))?;
-    /// # model.prescribe_edge("west lake", Side::West, 10.0)?;
-    /// # model.prescribe_edge("east lake", Side::East, 6.0)?;
-    /// let mut system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0))?;
-    /// let mut h = system.initial_solution(8.0);
-    /// system.solve(&mut h, &OuterSettings::default(), &mut |_| {})?;
-    /// assert!(system.budget(&h)?.imbalance_percent().abs() < 1e-6);
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    pub fn budget(&self, x: &[f64]) -> Result<Budget, Error> {
-        let n = self.grid.cells();
-        check_len("x", n, x.len())?;
-        let fs: Vec<(f64, f64)> = (0..n).map(|k| self.cell_factor(k, x[k])).collect();
-        let mut book: Book = self.base.book().clone();
-        for t in 0..book.terms.len() {
-            let term = &book.terms[t];
-            let (action, kind, slots) = (term.action, term.kind, term.slots.clone());
-            for s in slots {
-                let k = book.cells[s];
-                match action {
-                    Action::Source => {
-                        let level = book.levels[s];
-                        book.weights[s] *= self.pumping_at(kind, level, k, fs[k]).0;
-                    }
-                    Action::Conductance => book.weights[s] = self.slot_weight(s, fs[k].0).0,
-                    Action::Fixed => {
-                        for l in book.link_ranges[s].clone() {
-                            let nb = book.links[l].free;
-                            book.links[l].conductance = self.face_between(k, nb, x, &fs);
-                            book.links[l].carried = 0.0;
-                        }
-                    }
-                    _ => {}
-                }
-            }
-        }
-        let space = &*self.base.model().space;
-        let uptake = |k: usize| self.storage_rate(k, x[k]);
-        let stepping = self.step.is_some();
-        let mut lines = book.lines(
-            space,
-            (x, &book.levels),
-            None,
-            stepping.then_some(&uptake as &dyn Fn(usize) -> f64),
-        );
-        let mut sums = Vec::with_capacity(2 * self.radiation.len() + 2);
-        for edge in &self.radiation {
-            let (mut inflow, mut outflow) = (0.0, 0.0);
-            for &(k, esa) in &edge.cells {
-                let q = esa
-                    * ((edge.surroundings + edge.offset).powi(4) - (x[k] + edge.offset).powi(4));
-                if q >= 0.0 {
-                    inflow += q;
-                } else {
-                    outflow -= q;
-                }
-            }
-            sums.extend([inflow, outflow]);
-        }
-        if stepping {
-            let (mut release, mut uptake_sum) = (0.0, 0.0);
-            for k in (0..n).filter(|&k| self.active[k] && !self.fixed[k]) {
-                let q = -self.storage_rate(k, x[k]);
-                if q >= 0.0 {
-                    release += q;
-                } else {
-                    uptake_sum -= q;
-                }
-            }
-            sums.extend([release, uptake_sum]);
-        }
-        total(space, &mut sums);
-        for (edge, pair) in self.radiation.iter().zip(sums.chunks_exact(2)) {
-            lines.push(BudgetLine {
-                label: edge.label.clone(),
-                kind: FlowKind::Exchange,
-                inflow: pair[0],
-                outflow: pair[1],
-            });
-        }
-        if stepping {
-            let pair = &sums[sums.len() - 2..];
-            lines.push(BudgetLine {
-                label: "storage".to_string(),
-                kind: FlowKind::Storage,
-                inflow: pair[0],
-                outflow: pair[1],
-            });
-        }
-        Ok(Budget::from_lines(lines))
-    }
-
-    /// [`Aquifer::check`] of heads `x` (cells below the top, dry cells), over active cells.
-    ///
-    /// # Errors
-    ///
-    /// [`ErrorKind::LengthMismatch`](crate::ErrorKind::LengthMismatch), and
-    /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for a thermal system.
-    ///
-    /// ```
-    /// # use quintet::model::{Aquifer, Conductivity, Geometry, Model, NonlinearSystem};
-    /// # let mut model = Model::new(Geometry::cell_centered(3, 1, 1.0, 1.0, 1.0)?, Conductivity::isotropic(1.0))?;
-    /// # model.prescribe_cells("lake", [0], 5.0)?;
-    /// let system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0))?;
-    /// assert_eq!(system.check(&[5.0, 2.0, -0.5])?.dry, vec![2]);
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    pub fn check(&self, x: &[f64]) -> Result<AquiferCheck, Error> {
-        let Law::Aquifer(aquifer) = &self.law else {
-            return Err(Error::setting(
-                "aquifer check",
-                f64::NAN,
-                "an aquifer system (NonlinearSystem::aquifer)",
-            ));
-        };
-        let mut check = aquifer.check(self.grid, x)?;
-        check.below_top.retain(|&k| self.active[k]);
-        check.dry.retain(|&k| self.active[k]);
-        check.first_dry = check
-            .dry
-            .first()
-            .map(|&k| crate::Location::on(self.grid, k));
-        Ok(check)
-    }
-
     /// The factor on a cell's base conductances, and its slope.
-    fn cell_factor(&self, k: usize, v: f64) -> (f64, f64) {
+    pub(super) fn cell_factor(&self, k: usize, v: f64) -> (f64, f64) {
         match &self.law {
             Law::Aquifer(a) => a.thickness(k, v),
             Law::Heat(law) => law.factor_and_slope(v),
@@ -662,11 +523,12 @@ impl NonlinearSystem {
     /// The factor on source slot of `kind` with `level` at cell `k` (pumping from an aquifer
     /// is reduced as the cell dries, see [`Aquifer::pumping_reduction`]) and its slope with
     /// respect to the cell's value, from the current factors.
-    fn pumping(&self, kind: FlowKind, level: f64, k: usize) -> (f64, f64) {
-        self.pumping_at(kind, level, k, (self.factor[k], self.slope[k]))
+    pub(super) fn pumping(&self, kind: FlowKind, level: f64, k: usize) -> (f64, f64) {
+        self.pumping_at(kind, level, (self.factor[k], self.slope[k]))
     }
 
-    fn pumping_at(&self, kind: FlowKind, level: f64, _k: usize, (b, db): (f64, f64)) -> (f64, f64) {
+    /// As [`NonlinearSystem::pumping`], with the cell's thickness and slope given.
+    pub(super) fn pumping_at(&self, kind: FlowKind, level: f64, (b, db): (f64, f64)) -> (f64, f64) {
         match &self.law {
             Law::Aquifer(a) if kind == FlowKind::PointSource && level < 0.0 => {
                 a.pumping_factor(b, db)
@@ -676,7 +538,7 @@ impl NonlinearSystem {
     }
 
     /// Weight of conductance slot `s` at factor `m`, and its slope `dw/dm`.
-    fn slot_weight(&self, s: usize, m: f64) -> (f64, f64) {
+    pub(super) fn slot_weight(&self, s: usize, m: f64) -> (f64, f64) {
         let (r, inv_film) = self.slot_half[s];
         if r == 0.0 {
             return (self.base.book().weights[s], 0.0);
@@ -686,7 +548,7 @@ impl NonlinearSystem {
     }
 
     /// Storage uptake of cell `k` during the step (m³/s), 0 when steady.
-    fn storage_rate(&self, k: usize, v: f64) -> f64 {
+    pub(super) fn storage_rate(&self, k: usize, v: f64) -> f64 {
         match (self.step, &self.law) {
             (Some(dt), Law::Aquifer(a)) => {
                 let now = a.stored(k, v, self.elastic[k]).0;
@@ -698,7 +560,7 @@ impl NonlinearSystem {
     }
 
     /// The conductance between neighbours `k` and `nb` at `x` (factors `fs`).
-    fn face_between(&self, k: usize, nb: usize, x: &[f64], fs: &[(f64, f64)]) -> f64 {
+    pub(super) fn face_between(&self, k: usize, nb: usize, x: &[f64], fs: &[(f64, f64)]) -> f64 {
         let (low, high, halves) = if nb == k + 1 {
             (k, nb, &self.east)
         } else if k == nb + 1 {
@@ -708,291 +570,6 @@ impl NonlinearSystem {
         } else {
             (nb, k, &self.north)
         };
-        face(self.faces, halves[low], fs[low], fs[high], x[low], x[high]).0
-    }
-}
-
-/// Conductance of a face between `p` and `n` with half-resistances `[r_p, r_n]` at factor 1,
-/// factors and slopes `fp`, `fn_`, values `xp`, `xn`; and its derivatives with respect to
-/// `xp` and `xn` through the factors.
-#[inline]
-fn face(
-    rule: FaceWeighting,
-    [rp, rn]: [f64; 2],
-    (mp, sp): (f64, f64),
-    (mn, sn): (f64, f64),
-    xp: f64,
-    xn: f64,
-) -> (f64, f64, f64) {
-    if !(rp.is_finite() && rn.is_finite()) {
-        return (0.0, 0.0, 0.0);
-    }
-    match rule {
-        FaceWeighting::Upstream => {
-            let c0 = 1.0 / (rp + rn);
-            if xp >= xn {
-                (c0 * mp, c0 * sp, 0.0)
-            } else {
-                (c0 * mn, 0.0, c0 * sn)
-            }
-        }
-        FaceWeighting::Harmonic => {
-            let c = 1.0 / (rp / mp + rn / mn);
-            (c, c * c * rp / (mp * mp) * sp, c * c * rn / (mn * mn) * sn)
-        }
-    }
-}
-
-impl Equations for NonlinearSystem {
-    fn residual(&mut self, x: &[f64]) -> f64 {
-        let n = self.grid.cells();
-        for (k, &v) in x.iter().enumerate() {
-            let (m, s) = self.cell_factor(k, v);
-            self.factor[k] = m;
-            self.slope[k] = s;
-        }
-        let mut r = std::mem::take(&mut self.residual);
-        r.fill(0.0);
-        for (halves, side) in [(&self.east, Side::East), (&self.north, Side::North)] {
-            for k in 0..n {
-                if let Some(nb) = self.grid.neighbour(k, side) {
-                    let fk = (self.factor[k], self.slope[k]);
-                    let fnb = (self.factor[nb], self.slope[nb]);
-                    let (c, _, _) = face(self.faces, halves[k], fk, fnb, x[k], x[nb]);
-                    let q = c * (x[k] - x[nb]);
-                    r[k] += q;
-                    r[nb] -= q;
-                }
-            }
-        }
-        let book = self.base.book();
-        for term in &book.terms {
-            for s in term.slots.clone() {
-                let k = book.cells[s];
-                let level = book.levels[s];
-                match term.action {
-                    Action::Source => {
-                        r[k] -= book.weights[s] * level * self.pumping(term.kind, level, k).0
-                    }
-                    Action::Conductance => {
-                        r[k] += self.slot_weight(s, self.factor[k]).0 * (x[k] - level)
-                    }
-                    _ => {}
-                }
-            }
-        }
-        for edge in &self.radiation {
-            for &(k, esa) in &edge.cells {
-                r[k] += esa
-                    * ((x[k] + edge.offset).powi(4) - (edge.surroundings + edge.offset).powi(4));
-            }
-        }
-        let mut sum = 0.0;
-        for k in 0..n {
-            if self.fixed[k] {
-                r[k] = 0.0;
-                continue;
-            }
-            r[k] += self.storage_rate(k, x[k]);
-            sum += r[k] * r[k];
-        }
-        self.residual = r;
-        sum
-    }
-
-    fn linearise(&mut self, x: &[f64], method: OuterMethod) -> Result<(), Error> {
-        let newton = method == OuterMethod::Newton;
-        let n = self.grid.cells();
-        // Extra diagonal terms first (slots, radiation, storage), into the rhs vector as
-        // scratch; the rhs is written last.
-        let mut extra = std::mem::take(&mut self.rhs);
-        extra.fill(0.0);
-        {
-            let book = self.base.book();
-            for term in book.terms.iter().filter(|t| t.action == Action::Source) {
-                for s in term.slots.clone() {
-                    let (k, level) = (book.cells[s], book.levels[s]);
-                    extra[k] -= book.weights[s] * level * self.pumping(term.kind, level, k).1;
-                }
-            }
-            for term in book
-                .terms
-                .iter()
-                .filter(|t| t.action == Action::Conductance)
-            {
-                for s in term.slots.clone() {
-                    let k = book.cells[s];
-                    let (w, dw) = self.slot_weight(s, self.factor[k]);
-                    extra[k] += w;
-                    if newton {
-                        extra[k] += dw * self.slope[k] * (x[k] - book.levels[s]);
-                    }
-                }
-            }
-            for edge in &self.radiation {
-                for &(k, esa) in &edge.cells {
-                    let (t, ts) = (x[k] + edge.offset, edge.surroundings + edge.offset);
-                    extra[k] += if newton {
-                        4.0 * esa * t.powi(3)
-                    } else {
-                        esa * (t * t + ts * ts) * (t + ts)
-                    };
-                }
-            }
-            if let (Some(dt), Law::Aquifer(a)) = (self.step, &self.law) {
-                for k in 0..n {
-                    extra[k] += self.area[k] * a.stored(k, x[k], self.elastic[k]).1 / dt;
-                }
-            }
-        }
-        let Self {
-            operator,
-            factor,
-            slope,
-            east,
-            north,
-            fixed,
-            faces,
-            grid,
-            ..
-        } = self;
-        operator.refill(|[c, w, e, s, no]| {
-            for band in [&mut *c, &mut *w, &mut *e, &mut *s, &mut *no] {
-                band.fill(0.0);
-            }
-            for (halves, side) in [(&*east, Side::East), (&*north, Side::North)] {
-                for k in 0..n {
-                    let Some(nb) = grid.neighbour(k, side) else {
-                        continue;
-                    };
-                    let (cf, ap, an) = face(
-                        *faces,
-                        halves[k],
-                        (factor[k], slope[k]),
-                        (factor[nb], slope[nb]),
-                        x[k],
-                        x[nb],
-                    );
-                    let d = x[k] - x[nb];
-                    let (own, towards, back, theirs) = if newton {
-                        (cf + ap * d, -cf + an * d, -cf - ap * d, cf - an * d)
-                    } else {
-                        (cf, -cf, -cf, cf)
-                    };
-                    c[k] += own;
-                    c[nb] += theirs;
-                    match side {
-                        Side::East => {
-                            e[k] = towards;
-                            w[nb] = back;
-                        }
-                        _ => {
-                            no[k] = towards;
-                            s[nb] = back;
-                        }
-                    }
-                }
-            }
-            for k in 0..n {
-                if fixed[k] {
-                    c[k] = 1.0;
-                    w[k] = 0.0;
-                    e[k] = 0.0;
-                    s[k] = 0.0;
-                    no[k] = 0.0;
-                } else {
-                    c[k] += extra[k];
-                }
-            }
-        })?;
-        for (b, r) in extra.iter_mut().zip(&self.residual) {
-            *b = -r;
-        }
-        self.rhs = extra;
-        Ok(())
-    }
-
-    fn correction(&mut self) -> (&Banded5<f64>, &[f64], &mut [f64]) {
-        self.delta.fill(0.0);
-        (&self.operator, &self.rhs, &mut self.delta)
-    }
-
-    fn delta(&self) -> &[f64] {
-        &self.delta
-    }
-
-    fn is_fixed(&self, k: usize) -> bool {
-        self.fixed[k]
-    }
-
-    fn space(&self) -> &Arc<dyn Space> {
-        &self.base.model().space
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use crate::model::{Geometry, Storage};
-
-    /// The Newton matrix is the Jacobian of the residual: `J·v` against the central
-    /// difference `(F(x + εv) − F(x − εv))/(2ε)` (common practice), with dry cells, a
-    /// pumping well, edge half cells, and storage.
-    #[test]
-    fn newton_matrix_is_the_jacobian() {
-        let geometry = Geometry::cell_centered(7, 6, 20.0, 20.0, 8.0).unwrap();
-        let mut model = Model::new(geometry, Conductivity::isotropic(5e-5)).unwrap();
-        model.prescribe_edge("lake", Side::West, 6.0).unwrap();
-        model
-            .edge_exchange("river", Side::North, 1e-6, 5.0)
-            .unwrap();
-        model.areal_source("recharge", 5e-9).unwrap();
-        model.point_source("well", 25, -2.0e-3).unwrap();
-        model.set_storage(Storage::per_area(1e-4)).unwrap();
-        for faces in [FaceWeighting::Upstream, FaceWeighting::Harmonic] {
-            let aquifer = Aquifer::convertible(8.0, 0.0)
-                .smoothing_width(0.5)
-                .specific_yield(0.2)
-                .faces(faces);
-            let mut system = NonlinearSystem::aquifer(&model, aquifer).unwrap();
-            let n = system.grid.cells();
-            let mut x = system.initial_solution(0.0);
-            for (k, v) in x.iter_mut().enumerate() {
-                if !system.fixed[k] {
-                    *v = 4.0 + 5.0 * ((k as f64) * 0.7).sin(); // wet, dry and confined cells
-                }
-            }
-            let old: Vec<f64> = x.iter().map(|v| v + 0.3).collect();
-            system.set_step(Some((3600.0, &old))).unwrap();
-            system.residual(&x);
-            system.linearise(&x, OuterMethod::Newton).unwrap();
-            let v: Vec<f64> = (0..n)
-                .map(|k| {
-                    if system.fixed[k] {
-                        0.0
-                    } else {
-                        ((k * 7 % 5) as f64 - 2.0) * 0.5
-                    }
-                })
-                .collect();
-            let mut jv = vec![0.0; n];
-            system.operator.apply_block(0..n, &v, &mut jv);
-            let eps = 1e-6;
-            let shifted = |s: f64, system: &mut NonlinearSystem| -> Vec<f64> {
-                let xs: Vec<f64> = x.iter().zip(&v).map(|(a, b)| a + s * b).collect();
-                system.residual(&xs);
-                system.residual.clone()
-            };
-            let plus = shifted(eps, &mut system);
-            let minus = shifted(-eps, &mut system);
-            let mut worst: f64 = 0.0;
-            let mut scale: f64 = 0.0;
-            for k in (0..n).filter(|&k| !system.fixed[k]) {
-                let fd = (plus[k] - minus[k]) / (2.0 * eps);
-                worst = worst.max((fd - jv[k]).abs());
-                scale = scale.max(fd.abs());
-            }
-            assert!(worst < 1e-5 * scale, "{faces:?}: {worst} against {scale}");
-        }
+        super::equations::face(self.faces, halves[low], fs[low], fs[high], x[low], x[high]).0
     }
 }
