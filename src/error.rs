@@ -100,6 +100,13 @@ pub enum ErrorKind {
     /// than the sum of its couplings' magnitudes, or a weakly dominant row from which no
     /// strictly dominant row can be reached.
     NotDiagonallyDominant,
+    /// A nonlinear model's outer iteration (Picard or Newton,
+    /// [`NonlinearSystem`](crate::model::NonlinearSystem)) stopped before both its change and
+    /// its residual met their tolerances: outer limit reached, or the residual not finite. The
+    /// last outer iterate is left in `x`, and the error carries the report of the last inner
+    /// (linear) solve ([`Error::report`]), the outer iterations done ([`Error::iteration`])
+    /// and the last nonlinear residual ([`Error::value`]).
+    OuterNotConverged,
 }
 
 impl ErrorKind {
@@ -143,6 +150,7 @@ impl ErrorKind {
                 | ErrorKind::StabilisingStepZero
                 | ErrorKind::HessenbergSingular
                 | ErrorKind::NotConverged
+                | ErrorKind::OuterNotConverged
         )
     }
 }
@@ -314,6 +322,17 @@ enum Detail {
     PivotBreakdown { at: Location, value: f64 },
     #[error("{report}")]
     NotConverged { report: Box<Report> },
+    #[error("the {method} outer iteration stopped after {outer} outer iterations without converging ({why}): last change {} against {}, nonlinear residual {} against {}; x holds the last outer iterate", Sig4(*change), Sig4(*change_tolerance), Sig4(*residual), Sig4(*residual_target))]
+    OuterNotConverged {
+        method: &'static str,
+        outer: usize,
+        why: &'static str,
+        change: f64,
+        change_tolerance: f64,
+        residual: f64,
+        residual_target: f64,
+        report: Option<Box<Report>>,
+    },
     #[error("{what} {index} is {value}; spacings must be positive and finite")]
     InvalidSpacing {
         what: &'static str,
@@ -449,6 +468,7 @@ impl Error {
             Detail::HessenbergSingular { .. } => ErrorKind::HessenbergSingular,
             Detail::PivotBreakdown { .. } => ErrorKind::PivotBreakdown,
             Detail::NotConverged { .. } => ErrorKind::NotConverged,
+            Detail::OuterNotConverged { .. } => ErrorKind::OuterNotConverged,
             Detail::InvalidSpacing { .. } => ErrorKind::InvalidSpacing,
             Detail::InvalidProperty { .. } => ErrorKind::InvalidProperty,
             Detail::InactiveCell { .. } => ErrorKind::InactiveCell,
@@ -492,6 +512,7 @@ impl Error {
             | Detail::StabilisingStepZero { report, .. }
             | Detail::HessenbergSingular { report, .. }
             | Detail::NotConverged { report } => Some(report),
+            Detail::OuterNotConverged { report, .. } => report.as_deref(),
             _ => None,
         }
     }
@@ -548,6 +569,7 @@ impl Error {
             | Detail::StabilisingStepZero { iteration, .. }
             | Detail::HessenbergSingular { iteration, .. } => Some(*iteration),
             Detail::NotConverged { report } => Some(report.iterations),
+            Detail::OuterNotConverged { outer, .. } => Some(*outer),
             _ => None,
         }
     }
@@ -577,6 +599,7 @@ impl Error {
             Detail::Asymmetric { forward, .. } => Some(*forward),
             Detail::UnbalancedSources { net_inflow, .. } => Some(*net_inflow),
             Detail::NoInflowValue { flow, .. } => Some(*flow),
+            Detail::OuterNotConverged { residual, .. } => Some(*residual),
             Detail::BudgetImbalance {
                 imbalance_percent, ..
             } => Some(*imbalance_percent),
@@ -794,6 +817,26 @@ impl Error {
     pub(crate) fn not_converged(report: Report) -> Error {
         Error::new(Detail::NotConverged {
             report: Box::new(report),
+        })
+    }
+
+    pub(crate) fn outer_not_converged(
+        method: &'static str,
+        outer: usize,
+        why: &'static str,
+        (change, change_tolerance): (f64, f64),
+        (residual, residual_target): (f64, f64),
+        report: Option<Report>,
+    ) -> Error {
+        Error::new(Detail::OuterNotConverged {
+            method,
+            outer,
+            why,
+            change,
+            change_tolerance,
+            residual,
+            residual_target,
+            report: report.map(Box::new),
         })
     }
 

@@ -137,3 +137,45 @@ fn steps_with_advection_allocate_nothing() {
         }
     }
 }
+
+/// The outer iteration of a nonlinear model allocates nothing per outer iteration beyond what
+/// its driver's solves allocate (their `Report`): two more outer iterations cost exactly two
+/// more solves' allocations.
+#[test]
+fn outer_iterations_allocate_nothing_beyond_the_driver() {
+    use quintet::model::{Aquifer, NonlinearSystem, OuterMethod, OuterSettings};
+    let (model, well) = model();
+    let mut linear = model.assemble().unwrap();
+    linear.force(|f| f.set(well, -2e-3)).unwrap();
+    let op = linear.operator().clone();
+    let mut cg = Cg::default();
+    let mut ws = Workspace::for_grid(op.grid());
+    let n = op.grid().cells();
+    let rhs = vec![1e-3; n];
+    let mut x = vec![5.0; n];
+    cg.solve_with(&op, &rhs, &mut x, &mut ws).unwrap();
+    let per_solve = allocations_during(|| {
+        x.fill(5.0);
+        cg.solve_with(&op, &rhs, &mut x, &mut ws).unwrap();
+    });
+
+    let mut system = NonlinearSystem::aquifer(&model, Aquifer::unconfined(0.0)).unwrap();
+    system.force(|f| f.set(well, -2e-3)).unwrap();
+    let mut run = |outer: usize| {
+        let settings = OuterSettings {
+            max_outer: outer,
+            change_tolerance: 0.0,
+            residual_tolerance: 0.0,
+            ..OuterSettings::new(OuterMethod::Picard)
+        };
+        let mut h = system.initial_solution(5.0);
+        allocations_during(|| {
+            let result = system.solve_with(&mut cg, &mut ws, &mut h, &settings, &mut |_| {});
+            assert!(result.is_err()); // tolerances of zero are never met
+        })
+    };
+    run(2); // warm-up
+    let (two, four) = (run(2), run(4));
+    println!("allocations: 2 outer {two}, 4 outer {four}, one solve {per_solve}");
+    assert_eq!(four - two, 2 * per_solve);
+}

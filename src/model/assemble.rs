@@ -427,7 +427,7 @@ fn fill(
 
 /// Resistance of the half-cell between the node of `k` and its face on `side`: `d/(k·b·L)`;
 /// 0 when the node sits on the face, infinite when the cell does not conduct that way.
-fn resistance(model: &Model, k: usize, side: Side) -> f64 {
+pub(crate) fn resistance(model: &Model, k: usize, side: Side) -> f64 {
     let g: &Geometry = &model.geometry;
     let d = g.to_face(k, side);
     if d == 0.0 {

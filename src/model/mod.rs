@@ -1,7 +1,7 @@
-//! Model assembly for heat conduction and confined groundwater flow, and for heat carried by a
-//! given flow field: cell properties and boundary conditions in, a 5-point operator
-//! (symmetric unless a flow field carries the heat) and right-hand side out, with the
-//! bookkeeping for a flow budget and a transient stepper.
+//! Model assembly for heat conduction and groundwater flow (confined, or unconfined as a
+//! nonlinear model), and for heat carried by a given flow field: cell properties and boundary
+//! conditions in, a 5-point operator (symmetric unless a flow field carries the heat) and
+//! right-hand side out, with the bookkeeping for a flow budget and a transient stepper.
 //!
 //! **Caution.** Results support, and do not replace, engineering judgement. A model is only as
 //! good as its conceptualisation, parameters and boundary conditions: check it against field
@@ -28,6 +28,9 @@
 //!   [`SteadySystem::default_solver`]), and [`Budget`]s of its solutions.
 //! * [`Stepper`]: backward Euler or Crank–Nicolson in time, levels changed through a
 //!   [`Forcing`] closure.
+//! * [`NonlinearSystem`]: unconfined and convertible aquifers, temperature-dependent
+//!   conduction and radiation, solved by a Picard or Newton outer iteration; see
+//!   [Nonlinear models](#nonlinear-models).
 //!
 //! # Units
 //!
@@ -121,6 +124,58 @@
 //! parameters: check the flow model first, compare the carried and conducted lines of the
 //! budget, and judge the results with the caution above.
 //!
+//! # Nonlinear models
+//!
+//! [`NonlinearSystem`] holds a model whose conductances depend on its solution:
+//!
+//! * **Unconfined and convertible aquifers** ([`NonlinearSystem::aquifer`] with an
+//!   [`Aquifer`]): the model's conductivity is the hydraulic conductivity `K`, and a face
+//!   conducts `K·b` with `b` the saturated thickness between the cell's bottom and, for a
+//!   convertible aquifer, its top. Faces take the thickness of the cell with the higher head
+//!   ([`FaceWeighting::Upstream`], the default: first order, lets dry cells rewet from a wet
+//!   neighbour, symmetric Picard matrices) or the half-cells' `K·b` in series
+//!   ([`FaceWeighting::Harmonic`]: second order on smooth water tables, but a face next to a
+//!   nearly dry cell nearly closes). Time steps ([`NonlinearSystem::set_step`]) store water
+//!   by specific yield below the top and elastically above it; the change of stored water is
+//!   computed exactly, so step budgets close.
+//! * **Temperature-dependent conduction** ([`NonlinearSystem::thermal`]): `k(T)` from a
+//!   [`ConductivityLaw`] (linear or a table), half-cells in series at their own temperatures;
+//!   radiation at an edge ([`NonlinearSystem::add_radiation`], σ = [`STEFAN_BOLTZMANN`]).
+//!
+//! **The outer iteration** ([`OuterSettings`]) solves `M·δ = −F(x)` with the true nonlinear
+//! residual `F` on the right, `M` the lagged-coefficient matrix (Picard: symmetric, PCG with
+//! Jacobi by default) or the Jacobian (Newton: not symmetric, BiCGSTAB with ILU(0) by
+//! default); any driver can be given ([`NonlinearSystem::solve_with`]). The inner tolerance
+//! tightens with the nonlinear residual; a correction longer than
+//! [`OuterSettings::max_change`] is scaled down, and one that raises the residual is halved.
+//! It stops when both the last change and the residual meet their tolerances; otherwise
+//! [`ErrorKind::OuterNotConverged`](crate::ErrorKind::OuterNotConverged) with the last
+//! iterate in `x`. Each outer iteration is reported to an observer as an [`OuterStep`]
+//! (outer count, inner iterations and tolerance, change, residual, step length).
+//!
+//! **Drying and rewetting.** A saturated thickness `h − bottom` that is cut off at zero
+//! would make a cell's row vanish as it dries, and cells would flip between wet and dry from
+//! one outer iteration to the next. quintet uses a smooth thickness instead (see
+//! [`Aquifer`]): `b(h) = w·ln(1 + e^((h − bottom)/w))`, `w` the smoothing width (default
+//! 5 cm), which equals `h − bottom` a few `w` above the bottom and falls off exponentially
+//! below it, with a floor of `10⁻⁶·w`; its slope is continuous, so the Newton matrix stays
+//! regular and no cell changes state abruptly. A cell whose head lies within `w` of its
+//! bottom is reported dry ([`AquiferCheck`], [`NonlinearSystem::check`]). Pumping wells (point
+//! sources with a negative rate) deliver less as their cell dries
+//! ([`Aquifer::pumping_reduction`]); the budget shows the rate delivered.
+//!
+//! **Limits.** The model is two-dimensional under the Dupuit–Forchheimer assumption (no
+//! vertical flow, no seepage faces: near a pumped well the computed water table lies below
+//! the real one, and the head in a well cell is a cell average, not the level in the well).
+//! Dry cells are a numerical device: their heads are poorly determined (their conductances
+//! nearly vanish) and mean only "below the bottom"; most of the late outer iterations of a
+//! drying model settle them. The smoothing misstates the thickness of cells within a few `w`
+//! of their bottom. Heads below the top of a [`AquiferKind::Confined`] aquifer keep the full
+//! transmissivity: [`Aquifer::check`] warns of it, on the heads of a linear model as well.
+//! Radiation on a cell-centred axis acts at the cell's temperature, not the surface's.
+//! As everywhere in this module: results support, and do not replace, engineering judgement;
+//! design to local codes and licensed professional practice.
+//!
 //! # Example
 //!
 //! ```
@@ -157,6 +212,7 @@ mod builder;
 mod field;
 mod geometry;
 mod medium;
+mod nonlinear;
 mod solver;
 mod spec;
 mod steady;
@@ -170,6 +226,10 @@ pub use budget::{Budget, BudgetLine, BudgetTable, BudgetWarning, FlowKind};
 pub use field::{Field, Profile};
 pub use geometry::Geometry;
 pub use medium::{Conductivity, ConductivityBasis, Storage};
+pub use nonlinear::{
+    Aquifer, AquiferCheck, AquiferKind, ConductivityLaw, FaceWeighting, NonlinearSystem,
+    OuterMethod, OuterReport, OuterSettings, OuterStep, STEFAN_BOLTZMANN,
+};
 pub use spec::{ConditionId, Model, SingularPolicy};
 pub use steady::SteadySystem;
 pub use transient::{Stepper, TimeScheme, DEFAULT_DAMPED_STEPS};

@@ -463,6 +463,16 @@ impl SteadySystem {
         self.regions.len()
     }
 
+    /// The budget bookkeeping (for the nonlinear systems built on this one).
+    pub(crate) fn book(&self) -> &Book {
+        &self.book
+    }
+
+    /// The model record the system was assembled from.
+    pub(crate) fn model(&self) -> &Model {
+        &self.model
+    }
+
     fn write_fixed(&self, x: &mut [f64]) {
         self.book.write_fixed(x);
         for &k in &self.inactive {
