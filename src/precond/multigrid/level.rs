@@ -457,24 +457,85 @@ impl Transfer<'_> {
     /// of the four coarse cells it interpolates from.
     #[inline]
     pub(crate) fn stencil<T: Scalar>(&self, i: usize, j: usize, k: usize) -> [(usize, T); 4] {
-        let ncx = self.ncx;
-        let (pi, qi, pj, qj) = (
-            self.ax.parent(i),
-            self.ax.neighbour(i),
-            self.ay.parent(j),
-            self.ay.neighbour(j),
-        );
-        let ((ux, wx), (uy, wy)) = (
-            split::<T>(lit(f64::from(self.wx[k]))),
-            split::<T>(lit(f64::from(self.wy[k]))),
-        );
+        let (pj, qj) = (self.ay.parent(j), self.ay.neighbour(j));
+        self.cell(i, pj * self.ncx, qj * self.ncx, self.wx[k], self.wy[k])
+    }
+
+    /// The stencil of fine cell `i` of a row whose coarse rows start at `p` (own) and `q`
+    /// (neighbour), from its two stored weights.
+    #[inline(always)]
+    fn cell<T: Scalar>(&self, i: usize, p: usize, q: usize, wx: f32, wy: f32) -> [(usize, T); 4] {
+        let (pi, qi) = (self.ax.parent(i), self.ax.neighbour(i));
+        let ((ux, wx), (uy, wy)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
         [
-            (pi + ncx * pj, ux * uy),
-            (qi + ncx * pj, wx * uy),
-            (pi + ncx * qj, ux * wy),
-            (qi + ncx * qj, wx * wy),
+            (p + pi, ux * uy),
+            (p + qi, wx * uy),
+            (q + pi, ux * wy),
+            (q + qi, wx * wy),
         ]
     }
+
+    /// `coarse_b += Pᵀ·r` for the fine row `j` (`r` that row's residual), cells where
+    /// `!active(k)` left out; cells in order, each cell's four targets in the order of
+    /// [`stencil`](Self::stencil).
+    #[inline]
+    pub(crate) fn restrict_row<T: Scalar>(
+        &self,
+        j: usize,
+        r: &[T],
+        active: impl Fn(usize) -> bool,
+        coarse_b: &mut [T],
+    ) {
+        let nx = r.len();
+        let base = j * nx;
+        let (p, q) = (
+            self.ay.parent(j) * self.ncx,
+            self.ay.neighbour(j) * self.ncx,
+        );
+        let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
+        for (i, ((&r, &wx), &wy)) in r.iter().zip(wx).zip(wy).enumerate() {
+            if !active(base + i) {
+                continue;
+            }
+            for (kc, w) in self.cell::<T>(i, p, q, wx, wy) {
+                coarse_b[kc] = coarse_b[kc] + w * r;
+            }
+        }
+    }
+
+    /// `x += P·coarse_x` on the fine row `j` (`x` that row), cells where `!active(k)` left out.
+    #[inline]
+    pub(crate) fn prolong_row<T: Scalar>(
+        &self,
+        j: usize,
+        x: &mut [T],
+        active: impl Fn(usize) -> bool,
+        coarse_x: &[T],
+    ) {
+        let nx = x.len();
+        let base = j * nx;
+        let (p, q) = (
+            self.ay.parent(j) * self.ncx,
+            self.ay.neighbour(j) * self.ncx,
+        );
+        let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
+        for (i, ((v, &wx), &wy)) in x.iter_mut().zip(wx).zip(wy).enumerate() {
+            if !active(base + i) {
+                continue;
+            }
+            let mut e = T::zero();
+            for (kc, w) in self.cell::<T>(i, p, q, wx, wy) {
+                e = e + w * coarse_x[kc];
+            }
+            *v = *v + e;
+        }
+    }
+}
+
+/// A stored `f32` weight in the level's scalar type (exact: `f32` widens to `f64` exactly).
+#[inline(always)]
+fn widen<T: Scalar>(w: f32) -> T {
+    T::from(w).unwrap_or_else(T::zero)
 }
 
 /// `1/center` of each row where `active(k)`, 0 elsewhere, in `f32`.

@@ -102,18 +102,11 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
             // colour is on row t − 2ν + 1.
             if let Some(j) = at(t, 2 * sweeps) {
                 self.op.apply_rows(j..j + 1, x, buf);
-                let base = j * nx;
-                let b_row = &self.b[base..][..nx];
-                for (i, (&bi, &ax)) in b_row.iter().zip(buf.iter()).enumerate() {
-                    let k = base + i;
-                    if !active(k) {
-                        continue;
-                    }
-                    let r = bi - ax;
-                    for (kc, w) in transfer.stencil::<T>(i, j, k) {
-                        coarse_b[kc] = coarse_b[kc] + w * r;
-                    }
+                let b_row = &self.b[j * nx..][..nx];
+                for (ri, &bi) in buf.iter_mut().zip(b_row) {
+                    *ri = bi - *ri;
                 }
+                transfer.restrict_row(j, buf, &active, coarse_b);
             }
         }
     }
@@ -133,18 +126,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
         let buf = &mut buf[..nx];
         let active = active_cells(self.op);
         let prolong = |x: &mut [T], j: usize| {
-            let base = j * nx;
-            for (i, v) in x[base..][..nx].iter_mut().enumerate() {
-                let k = base + i;
-                if !active(k) {
-                    continue;
-                }
-                let mut e = T::zero();
-                for (kc, w) in transfer.stencil::<T>(i, j, k) {
-                    e = e + w * coarse_x[kc];
-                }
-                *v = *v + e;
-            }
+            transfer.prolong_row(j, &mut x[j * nx..][..nx], &active, coarse_x);
         };
         prolong(x, 0);
         let at = |t: usize, back: usize| t.checked_sub(back).filter(|&j| j < ny);
