@@ -10,6 +10,11 @@
 #[path = "../support/mod.rs"]
 mod support;
 
+// The layered contrast-10⁴ field of the multigrid tests and the iterations example.
+#[path = "../../tests/precond_problems/mod.rs"]
+#[allow(dead_code)]
+mod precond_problems;
+
 use std::alloc::{GlobalAlloc, Layout, System};
 use std::sync::atomic::{AtomicUsize, Ordering};
 use std::time::Instant;
@@ -330,6 +335,9 @@ fn main() {
     drop(op);
     drop(compact);
 
+    mgpcg_iteration(2000);
+    heterogeneous_vs_poisson(1024);
+
     // Scaling of MG-PCG's time per cell from 1024^2 to 4096^2 cells: repeated solves with the
     // hierarchy and workspace built once (the cost that recurs per time step), and, on a
     // `#` line, first solves including setup.
@@ -349,6 +357,100 @@ fn main() {
     println!(
         "time_per_cell_4096_vs_1024={:.2}",
         per_cell(warm4096, 4096) / per_cell(warm1024, 1024)
+    );
+}
+
+/// Model bytes per fine cell of one MG-PCG iteration (f64 PCG on a `Banded5<f64>`, f32 V(ν,ν)
+/// cycle on its `Banded5<f32>` copy), printed by the report.
+///
+/// * Krylov part, f64: `r·z` (16), `p = z + βp` (24), `q = A·p` with `p·q` (56), the `x`/`r`
+///   update with `r·r` (48); rounding `r` to f32 (12) and widening `z` (12): 168.
+/// * Fine level of the cycle, f32, two passes over the rows (see `precond/multigrid/smooth.rs`):
+///   pre-smoothing with the restricted residual reads the operator (20), `b` (4), `1/center`
+///   (4), the interpolation weights (8) and writes `x` (4): 40; prolongation with
+///   post-smoothing reads the same and reads and writes `x` (8): 44. Together 84.
+/// * Each coarse level: the same per coarse cell plus its right-hand side written by the
+///   restriction (8, a read-modify-write), so 92 per coarse cell; the coarse cells of all levels
+///   are a third of the fine cells: about 31 per fine cell.
+fn mgpcg_iteration_bytes() -> (f64, f64, f64) {
+    let krylov = 16.0 + 24.0 + 56.0 + 48.0 + 12.0 + 12.0;
+    let fine = 40.0 + 44.0;
+    let coarse = (fine + 8.0) / 3.0;
+    (krylov, fine, coarse)
+}
+
+/// One MG-PCG iteration against the triad, and the hierarchy's set-up against one iteration,
+/// on `n x n` Poisson cells with the f32 V-cycle at default settings.
+fn mgpcg_iteration(n: usize) {
+    let cells = n * n;
+    let mut warm = WarmMgPcg::new(n);
+    let (tb, tc) = (wave(cells), wave(cells));
+    let mut ta = vec![0.0; cells];
+    let op = poisson(n);
+    let mut setup = || {
+        let single = op.cast::<f32>().expect("finite coefficients");
+        let mg = Multigrid::new(&single, MultigridSettings::default()).expect("setup");
+        std::hint::black_box((single, mg));
+    };
+    let [t_triad, t_solve, t_setup] = interleaved(
+        5,
+        [
+            &mut || triad(&mut ta, &tb, &tc, 3.0),
+            &mut || warm.solve(),
+            &mut setup,
+        ],
+    );
+    let t_iteration = t_solve / warm.iterations as f64;
+    let (krylov, fine, coarse) = mgpcg_iteration_bytes();
+    let bytes = krylov + fine + coarse;
+    let bw = BYTES_TRIAD * cells as f64 / t_triad;
+    let rate = bytes * cells as f64 / t_iteration;
+    println!(
+        "# MG-PCG iteration byte model per fine cell: Krylov f64 {krylov:.0} + fine V-cycle f32 \
+         {fine:.0} + coarse levels {coarse:.0} = {bytes:.0} B"
+    );
+    println!(
+        "# {n}x{n} MG-PCG: {} iterations, {:.2} ns/cell per iteration = {:.2} GB/s by the model \
+         (triad {:.2} GB/s); set-up (cast + hierarchy) {:.3} s",
+        warm.iterations,
+        t_iteration / cells as f64 * 1e9,
+        rate / 1e9,
+        bw / 1e9,
+        t_setup
+    );
+    println!("mgpcg_iteration_vs_triad={:.3}", rate / bw);
+    println!("mgpcg_setup_vs_iteration={:.2}", t_setup / t_iteration);
+}
+
+/// Whole MG-PCG solves (set-up included, f32 V-cycle, default settings) on the layered
+/// contrast-10⁴ field and on Poisson, `n x n` cells each, time per cell against each other.
+fn heterogeneous_vs_poisson(n: usize) {
+    let (field, zero, x0) = precond_problems::heterogeneous(n);
+    let model = poisson(n);
+    let ones = vec![1.0; n * n];
+    let (mut its_field, mut its_model) = (0, 0);
+    let solve = |op: &Banded5<f64>, rhs: &[f64], start: &[f64]| {
+        let mut x = start.to_vec();
+        let single = op.cast::<f32>().expect("finite coefficients");
+        let mg = Multigrid::new(&single, MultigridSettings::default()).expect("setup");
+        let mut pcg = Pcg::new(SinglePrecision::new(single, mg))
+            .with_options(SolveOptions::default().tolerance(1e-8));
+        solved(pcg.solve(op, rhs, &mut x)).iterations
+    };
+    let [t_field, t_model] = interleaved(
+        3,
+        [
+            &mut || its_field = solve(&field, &zero, &x0),
+            &mut || its_model = solve(&model, &ones, &vec![0.0; n * n]),
+        ],
+    );
+    println!(
+        "# {n}x{n} MG-PCG with set-up: contrast-10^4 field {its_field} iterations {t_field:.3} s, \
+         Poisson {its_model} iterations {t_model:.3} s"
+    );
+    println!(
+        "mgpcg_heterogeneous_ns_per_cell_vs_poisson={:.2}",
+        t_field / t_model
     );
 }
 
