@@ -387,6 +387,7 @@ impl<T: Scalar> Multigrid<T> {
             op: fine,
             inv: &self.fine_inverse_centers,
             b: r,
+            stored: None,
         };
         {
             let (transfer, coarse_b) = self.levels[0].transfer_and_rhs();
@@ -402,6 +403,7 @@ impl<T: Scalar> Multigrid<T> {
                 op: &here.op,
                 inv: &here.inverse_centers,
                 b: &here.b,
+                stored: Some(&here.op.rows),
             };
             rows.pre_smooth_restrict(&mut here.x, buf, nu, &transfer, coarse_b);
         }
@@ -416,6 +418,7 @@ impl<T: Scalar> Multigrid<T> {
                 op: &here.op,
                 inv: &here.inverse_centers,
                 b: &here.b,
+                stored: Some(&here.op.rows),
             };
             rows.prolong_smooth(&mut here.x, buf, nu, &below.transfer(), &below.x);
         }

@@ -22,7 +22,7 @@
 
 use super::level::{active_cells, Transfer};
 use crate::operator::Stencil5;
-use crate::Scalar;
+use crate::{Coeffs5, Scalar};
 
 /// The rows of one level being smoothed: operator, `1/center` (zero at inactive cells, so they
 /// keep their zero) and right-hand side.
@@ -30,6 +30,9 @@ pub(crate) struct Rows<'a, T, R: ?Sized> {
     pub(crate) op: &'a R,
     pub(crate) inv: &'a [f32],
     pub(crate) b: &'a [T],
+    /// The operator's rows when the level stores them (coarse levels): the smoother then
+    /// computes the product at the cells of the colour only.
+    pub(crate) stored: Option<&'a [Coeffs5<T>]>,
 }
 
 impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
@@ -38,6 +41,10 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
     #[inline]
     fn relax(&self, x: &mut [T], buf: &mut [T], j: usize, colour: usize) {
         let nx = buf.len();
+        if let Some(rows) = self.stored {
+            relax_stored(rows, self.inv, self.b, x, nx, j, colour);
+            return;
+        }
         self.op.apply_rows(j..j + 1, x, buf);
         let base = j * nx;
         let (x_row, b_row, d_row) = (
@@ -144,6 +151,44 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
                 }
             }
         }
+    }
+}
+
+/// [`Rows::relax`] on stored rows: the product at the cells of `colour` only, each in the
+/// summation order of every row product (center, west, east, south, north; terms towards
+/// missing neighbours left out), so the same bits as the whole-row product.
+fn relax_stored<T: Scalar>(
+    rows: &[Coeffs5<T>],
+    inv: &[f32],
+    b: &[T],
+    x: &mut [T],
+    nx: usize,
+    j: usize,
+    colour: usize,
+) {
+    let base = j * nx;
+    let (below, rest) = x.split_at_mut(base);
+    let (row, above) = rest.split_at_mut(nx);
+    let south = (j > 0).then(|| &below[base - nx..]);
+    let north = (above.len() >= nx).then(|| &above[..nx]);
+    let (coeffs, b, inv) = (&rows[base..][..nx], &b[base..][..nx], &inv[base..][..nx]);
+    let first = (j + colour) % 2;
+    for i in (first..nx).step_by(2) {
+        let c = coeffs[i];
+        let mut s = c.center * row[i];
+        if i > 0 {
+            s = s + c.west * row[i - 1];
+        }
+        if i + 1 < nx {
+            s = s + c.east * row[i + 1];
+        }
+        if let Some(xs) = south {
+            s = s + c.south * xs[i];
+        }
+        if let Some(xn) = north {
+            s = s + c.north * xn[i];
+        }
+        row[i] = row[i] + (b[i] - s) * widen(inv[i]);
     }
 }
 
