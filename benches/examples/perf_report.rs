@@ -360,25 +360,6 @@ fn main() {
     );
 }
 
-/// Model bytes per fine cell of one MG-PCG iteration (f64 PCG on a `Banded5<f64>`, f32 V(ν,ν)
-/// cycle on its `Banded5<f32>` copy), printed by the report.
-///
-/// * Krylov part, f64: `r·z` (16), `p = z + βp` (24), `q = A·p` with `p·q` (56), the `x`/`r`
-///   update with `r·r` (48); rounding `r` to f32 (12) and widening `z` (12): 168.
-/// * Fine level of the cycle, f32, two passes over the rows (see `precond/multigrid/smooth.rs`):
-///   pre-smoothing with the restricted residual reads the operator (20), `b` (4), `1/center`
-///   (4), the interpolation weights (8) and writes `x` (4): 40; prolongation with
-///   post-smoothing reads the same and reads and writes `x` (8): 44. Together 84.
-/// * Each coarse level: the same per coarse cell plus its right-hand side written by the
-///   restriction (8, a read-modify-write), so 92 per coarse cell; the coarse cells of all levels
-///   are a third of the fine cells: about 31 per fine cell.
-fn mgpcg_iteration_bytes() -> (f64, f64, f64) {
-    let krylov = 16.0 + 24.0 + 56.0 + 48.0 + 12.0 + 12.0;
-    let fine = 40.0 + 44.0;
-    let coarse = (fine + 8.0) / 3.0;
-    (krylov, fine, coarse)
-}
-
 /// One MG-PCG iteration against the triad, and the hierarchy's set-up against one iteration,
 /// on `n x n` Poisson cells with the f32 V-cycle at default settings.
 fn mgpcg_iteration(n: usize) {
@@ -401,7 +382,11 @@ fn mgpcg_iteration(n: usize) {
         ],
     );
     let t_iteration = t_solve / warm.iterations as f64;
-    let (krylov, fine, coarse) = mgpcg_iteration_bytes();
+    let (krylov, fine, coarse) = (
+        BYTES_MGPCG_KRYLOV,
+        BYTES_VCYCLE_F32_FINE,
+        BYTES_VCYCLE_F32_COARSE,
+    );
     let bytes = krylov + fine + coarse;
     let bw = BYTES_TRIAD * cells as f64 / t_triad;
     let rate = bytes * cells as f64 / t_iteration;
@@ -439,10 +424,9 @@ fn heterogeneous_vs_poisson(n: usize) {
     };
     let [t_field, t_model] = interleaved(
         3,
-        [
-            &mut || its_field = solve(&field, &zero, &x0),
-            &mut || its_model = solve(&model, &ones, &vec![0.0; n * n]),
-        ],
+        [&mut || its_field = solve(&field, &zero, &x0), &mut || {
+            its_model = solve(&model, &ones, &vec![0.0; n * n])
+        }],
     );
     println!(
         "# {n}x{n} MG-PCG with set-up: contrast-10^4 field {its_field} iterations {t_field:.3} s, \

@@ -158,9 +158,14 @@ impl Default for MultigridSettings {
 /// correction scaled by the energy-minimising step ([`MultigridSettings::energy_step`]).
 ///
 /// Storage beyond the fine operator: the coarse operators (five coefficients per coarse cell,
-/// a third of the fine cell count over all levels), three vectors per coarse cell, one
-/// fine-grid residual vector, and the coarsest factor; under the 1.5 × five-array budget of the
-/// fine operator ([`storage_bytes`](Multigrid::storage_bytes)).
+/// a third of the fine cell count over all levels), two vectors per coarse cell, one row of
+/// the fine grid, and the coarsest factor; under the 1.5 × five-array budget of the fine
+/// operator ([`storage_bytes`](Multigrid::storage_bytes)).
+///
+/// Each level is smoothed in two passes over its rows per cycle (all `ν` red-black sweeps
+/// travel down the grid together, the residual's restriction trailing them, the
+/// prolongation leading the post-smoothing); these passes run on one thread, so the result is
+/// the same for any thread count.
 ///
 /// # Example
 ///
@@ -332,7 +337,7 @@ impl<T: Scalar> Multigrid<T> {
         self.settings
     }
 
-    /// Bytes held by the hierarchy (coarse operators, level vectors, the fine residual vector
+    /// Bytes held by the hierarchy (coarse operators, level vectors, one fine row of scratch
     /// and the coarsest factor), not counting the fine operator itself.
     ///
     /// ```
