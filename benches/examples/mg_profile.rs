@@ -14,7 +14,6 @@
 mod support;
 
 #[path = "../../tests/precond_problems/mod.rs"]
-#[allow(dead_code)]
 mod precond_problems;
 
 use std::time::Instant;
@@ -78,9 +77,7 @@ fn main() {
                 .expect("converges")
                 .iterations;
         });
-        let checksum = x
-            .iter()
-            .fold(0u64, |a, v| a.rotate_left(1) ^ v.to_bits());
+        let checksum = x.iter().fold(0u64, |a, v| a.rotate_left(1) ^ v.to_bits());
         let per_cell = |t: f64| t / cells as f64 * 1e9;
         let t_iteration = t_solve / iterations as f64;
         println!(

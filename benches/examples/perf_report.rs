@@ -12,7 +12,6 @@ mod support;
 
 // The layered contrast-10⁴ field of the multigrid tests and the iterations example.
 #[path = "../../tests/precond_problems/mod.rs"]
-#[allow(dead_code)]
 mod precond_problems;
 
 use std::alloc::{GlobalAlloc, Layout, System};
