@@ -1,7 +1,7 @@
 //! The performance report: every figure a ratio measured inside this one run, so that it holds
 //! on a noisy shared machine where absolute times do not.
 //!
-//! Run with `cargo run --release -p quintet-bench --example perf_report` (about two minutes).
+//! Run with `cargo run --release -p quintet-bench --example perf_report` (three to four minutes).
 //! Prints one `name=value` line per metric, after a few `#` lines describing the machine and
 //! the run.
 //! Memory-bandwidth figures use model bytes per cell (see `benches/support/mod.rs`) divided by
