@@ -1,5 +1,5 @@
 //! Kernel benches: matrix–vector products for every operator kind and a general-purpose CSR
-//! baseline, the vector kernels, and one CG iteration. Throughput is in model bytes
+//! baseline, the vector kernels, one CG iteration and one f32 multigrid V-cycle. Throughput is in model bytes
 //! (`support::BYTES_*`), so criterion prints GB/s; compare with the triad in the same run.
 //!
 //! `cargo bench -p quintet-bench --bench kernels`
@@ -141,10 +141,32 @@ fn bench_cg_iteration(c: &mut Criterion) {
     group.finish();
 }
 
+/// One f32 multigrid V(3,3) cycle (default settings) on Poisson, serial: throughput in the
+/// cycle's model bytes (`BYTES_VCYCLE_F32_*`).
+fn bench_vcycle(c: &mut Criterion) {
+    let mut group = c.benchmark_group("vcycle_f32");
+    group.sample_size(20);
+    for n in SIZES {
+        let cells = n * n;
+        let single = poisson(n).cast::<f32>().expect("finite");
+        let mut mg = Multigrid::new(&single, MultigridSettings::default()).expect("setup");
+        let r: Vec<f32> = wave(cells).iter().map(|&v| v as f32).collect();
+        let mut z = vec![0.0f32; cells];
+        group.throughput(Throughput::Bytes(
+            ((BYTES_VCYCLE_F32_FINE + BYTES_VCYCLE_F32_COARSE) * cells as f64) as u64,
+        ));
+        group.bench_function(BenchmarkId::new("serial", n), |b| {
+            b.iter(|| mg.apply(&single, &quintet::space::Serial, &r, &mut z))
+        });
+    }
+    group.finish();
+}
+
 criterion_group!(
     benches,
     bench_matvec,
     bench_vector_kernels,
-    bench_cg_iteration
+    bench_cg_iteration,
+    bench_vcycle
 );
 criterion_main!(benches);

@@ -162,7 +162,10 @@
 //! performance table gives the measured ratios (each kernel against a memory-bandwidth triad
 //! run beside it, ours against general-purpose alternatives) and the command that reproduces
 //! them. For speed on large grids put the multigrid V-cycle in `f32` inside the `f64` PCG
-//! ([`SinglePrecision`]); for least memory use [`Symmetric5`] storage.
+//! ([`SinglePrecision`]); for least memory use [`Symmetric5`] storage. The V-cycle smooths
+//! each level in two passes over its rows (all red-black sweeps of a phase travel down the
+//! grid together, fused with the grid transfers), on one thread, so its result too is the
+//! same for any thread count.
 //!
 //! ## Feature flags
 //!

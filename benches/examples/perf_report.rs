@@ -1,7 +1,7 @@
 //! The performance report: every figure a ratio measured inside this one run, so that it holds
 //! on a noisy shared machine where absolute times do not.
 //!
-//! Run with `cargo run --release -p quintet-bench --example perf_report` (about two minutes).
+//! Run with `cargo run --release -p quintet-bench --example perf_report` (three to four minutes).
 //! Prints one `name=value` line per metric, after a few `#` lines describing the machine and
 //! the run.
 //! Memory-bandwidth figures use model bytes per cell (see `benches/support/mod.rs`) divided by
@@ -9,6 +9,10 @@
 
 #[path = "../support/mod.rs"]
 mod support;
+
+// The layered contrast-10⁴ field of the multigrid tests and the iterations example.
+#[path = "../../tests/precond_problems/mod.rs"]
+mod precond_problems;
 
 use std::alloc::{GlobalAlloc, Layout, System};
 use std::sync::atomic::{AtomicUsize, Ordering};
@@ -330,6 +334,9 @@ fn main() {
     drop(op);
     drop(compact);
 
+    mgpcg_iteration(2000);
+    heterogeneous_vs_poisson(1024);
+
     // Scaling of MG-PCG's time per cell from 1024^2 to 4096^2 cells: repeated solves with the
     // hierarchy and workspace built once (the cost that recurs per time step), and, on a
     // `#` line, first solves including setup.
@@ -349,6 +356,84 @@ fn main() {
     println!(
         "time_per_cell_4096_vs_1024={:.2}",
         per_cell(warm4096, 4096) / per_cell(warm1024, 1024)
+    );
+}
+
+/// One MG-PCG iteration against the triad, and the hierarchy's set-up against one iteration,
+/// on `n x n` Poisson cells with the f32 V-cycle at default settings.
+fn mgpcg_iteration(n: usize) {
+    let cells = n * n;
+    let mut warm = WarmMgPcg::new(n);
+    let (tb, tc) = (wave(cells), wave(cells));
+    let mut ta = vec![0.0; cells];
+    let op = poisson(n);
+    let mut setup = || {
+        let single = op.cast::<f32>().expect("finite coefficients");
+        let mg = Multigrid::new(&single, MultigridSettings::default()).expect("setup");
+        std::hint::black_box((single, mg));
+    };
+    let [t_triad, t_solve, t_setup] = interleaved(
+        5,
+        [
+            &mut || triad(&mut ta, &tb, &tc, 3.0),
+            &mut || warm.solve(),
+            &mut setup,
+        ],
+    );
+    let t_iteration = t_solve / warm.iterations as f64;
+    let (krylov, fine, coarse) = (
+        BYTES_MGPCG_KRYLOV,
+        BYTES_VCYCLE_F32_FINE,
+        BYTES_VCYCLE_F32_COARSE,
+    );
+    let bytes = krylov + fine + coarse;
+    let bw = BYTES_TRIAD * cells as f64 / t_triad;
+    let rate = bytes * cells as f64 / t_iteration;
+    println!(
+        "# MG-PCG iteration byte model per fine cell: Krylov f64 {krylov:.0} + fine V-cycle f32 \
+         {fine:.0} + coarse levels {coarse:.0} = {bytes:.0} B"
+    );
+    println!(
+        "# {n}x{n} MG-PCG: {} iterations, {:.2} ns/cell per iteration = {:.2} GB/s by the model \
+         (triad {:.2} GB/s); set-up (cast + hierarchy) {:.3} s",
+        warm.iterations,
+        t_iteration / cells as f64 * 1e9,
+        rate / 1e9,
+        bw / 1e9,
+        t_setup
+    );
+    println!("mgpcg_iteration_vs_triad={:.3}", rate / bw);
+    println!("mgpcg_setup_vs_iteration={:.2}", t_setup / t_iteration);
+}
+
+/// Whole MG-PCG solves (set-up included, f32 V-cycle, default settings) on the layered
+/// contrast-10⁴ field and on Poisson, `n x n` cells each, time per cell against each other.
+fn heterogeneous_vs_poisson(n: usize) {
+    let (field, zero, x0) = precond_problems::heterogeneous(n);
+    let model = poisson(n);
+    let ones = vec![1.0; n * n];
+    let (mut its_field, mut its_model) = (0, 0);
+    let solve = |op: &Banded5<f64>, rhs: &[f64], start: &[f64]| {
+        let mut x = start.to_vec();
+        let single = op.cast::<f32>().expect("finite coefficients");
+        let mg = Multigrid::new(&single, MultigridSettings::default()).expect("setup");
+        let mut pcg = Pcg::new(SinglePrecision::new(single, mg))
+            .with_options(SolveOptions::default().tolerance(1e-8));
+        solved(pcg.solve(op, rhs, &mut x)).iterations
+    };
+    let [t_field, t_model] = interleaved(
+        3,
+        [&mut || its_field = solve(&field, &zero, &x0), &mut || {
+            its_model = solve(&model, &ones, &vec![0.0; n * n])
+        }],
+    );
+    println!(
+        "# {n}x{n} MG-PCG with set-up: contrast-10^4 field {its_field} iterations {t_field:.3} s, \
+         Poisson {its_model} iterations {t_model:.3} s"
+    );
+    println!(
+        "mgpcg_heterogeneous_ns_per_cell_vs_poisson={:.2}",
+        t_field / t_model
     );
 }
 

@@ -29,6 +29,19 @@ pub const BYTES_CG_ITERATION: f64 = 128.0;
 /// One iteration of the textbook CG loop over CSR: matvec (104), p·q (16), x and r updates (48),
 /// r·r (8), p = r + βp (24).
 pub const BYTES_CG_CSR_ITERATION: f64 = BYTES_MATVEC_CSR + 16.0 + 48.0 + 8.0 + 24.0;
+/// One f32 V(ν,ν) cycle's fine level (two passes over the rows, see
+/// `precond/multigrid/smooth.rs`): pre-smoothing with the restricted residual reads the
+/// operator (20), `b` (4), `1/center` (4), the interpolation weights (8) and writes `x` (4);
+/// prolongation with post-smoothing reads the same and reads and writes `x` (8): 40 + 44.
+pub const BYTES_VCYCLE_F32_FINE: f64 = 84.0;
+/// The coarse levels of that cycle per fine cell: the fine figure plus the right-hand side
+/// written by the restriction (8, read-modify-write) per coarse cell, and a third as many
+/// coarse cells as fine ones over all levels.
+pub const BYTES_VCYCLE_F32_COARSE: f64 = (BYTES_VCYCLE_F32_FINE + 8.0) / 3.0;
+/// The f64 part of one MG-PCG iteration with the V-cycle in f32: `r·z` (16), `p = z + βp` (24),
+/// `q = A·p` with `p·q` (56), the `x`/`r` update with `r·r` (48), rounding `r` to f32 (12) and
+/// widening `z` (12).
+pub const BYTES_MGPCG_KRYLOV: f64 = 16.0 + 24.0 + 56.0 + 48.0 + 12.0 + 12.0;
 /// The triad a = b + s·c: two reads and one write.
 pub const BYTES_TRIAD: f64 = 24.0;
 

@@ -99,13 +99,15 @@ struct CgStep<'p, P: ?Sized, T> {
 }
 
 impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for CgStep<'_, P, T> {
+    /// `z` and `p`: the product `q = A·p` goes into `z`'s storage, which is dead once `p` has
+    /// taken its new direction (one vector less per cell than `z`, `p`, `q` apart).
     fn work_vectors(&self) -> usize {
-        3
+        2
     }
 
     fn step(&mut self, cx: &mut Context<'_, T>, rr: T) -> Result<Step<T>, Breakdown<T>> {
-        let [z, p, q, ..] = cx.work else {
-            unreachable!("three work vectors were declared")
+        let [z, p, ..] = cx.work else {
+            unreachable!("two work vectors were declared")
         };
         // z = M⁻¹ r, held at zero on fixed cells so they never move.
         let rz = if self.identity {
@@ -126,6 +128,7 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for CgStep<'_, P, T> {
                 .direction_update(cx.space, direction, rz / previous, p),
         }
         self.rz_previous = Some(rz);
+        let q = z;
         let pq = cx.blocks.apply_dot_free(cx.space, cx.op, p, q);
         if !is_positive(pq) {
             return Err(Breakdown::Curvature(pq));

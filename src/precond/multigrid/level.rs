@@ -36,12 +36,10 @@ use super::galerkin::galerkin_lumped;
 use super::CoarseOperator;
 use std::ops::Range;
 
-use crate::blocks::Blocks;
 use crate::error::Location;
 use crate::operator::FixedCells;
 use crate::operator::{row_neighbourhood, row_product, Stencil5};
 use crate::scalar::{lit, to_f64};
-use crate::space::Space;
 use crate::{Coeffs5, Error, Grid, Scalar};
 
 /// Whether cell `k` of `op` is an unknown (false for fixed cells and identity rows), with the
@@ -150,8 +148,6 @@ pub(crate) struct Level<T> {
     pub(crate) x: Vec<T>,
     /// Restricted residual (right-hand side of this level).
     pub(crate) b: Vec<T>,
-    /// Residual scratch.
-    pub(crate) r: Vec<T>,
     /// `1/center` at active cells, 0 at inactive ones (the smoother's scaling; `f32` like the
     /// interpolation weights: the smoother only needs it to a relative 1e-7, and the same
     /// rounded value before and after the coarse correction keeps the cycle symmetric).
@@ -403,90 +399,143 @@ impl<T: Scalar> Level<T> {
             wy: narrow(&wy),
             x: vec![T::zero(); nc],
             b: vec![T::zero(); nc],
-            r: vec![T::zero(); nc],
         })
+    }
+
+    /// The transfers between this level and the next finer one.
+    pub(crate) fn transfer(&self) -> Transfer<'_> {
+        Transfer {
+            ax: self.ax,
+            ay: self.ay,
+            wx: &self.wx,
+            wy: &self.wy,
+            ncx: self.op.grid.nx(),
+        }
+    }
+
+    /// The transfers, and this level's right-hand side to restrict into.
+    pub(crate) fn transfer_and_rhs(&mut self) -> (Transfer<'_>, &mut [T]) {
+        let transfer = Transfer {
+            ax: self.ax,
+            ay: self.ay,
+            wx: &self.wx,
+            wy: &self.wy,
+            ncx: self.op.grid.nx(),
+        };
+        (transfer, &mut self.b)
     }
 
     /// Prolongation weights of fine cell `(i, j)`: coarse indices and weights of the four
     /// coarse cells it interpolates from.
     #[inline]
     pub(super) fn stencil(&self, i: usize, j: usize, k: usize) -> [(usize, T); 4] {
-        let ncx = self.op.grid.nx();
-        let (pi, qi, pj, qj) = (
-            self.ax.parent(i),
-            self.ax.neighbour(i),
-            self.ay.parent(j),
-            self.ay.neighbour(j),
-        );
-        let ((ux, wx), (uy, wy)) = (
-            split::<T>(lit(f64::from(self.wx[k]))),
-            split::<T>(lit(f64::from(self.wy[k]))),
-        );
-        [
-            (pi + ncx * pj, ux * uy),
-            (qi + ncx * pj, wx * uy),
-            (pi + ncx * qj, ux * wy),
-            (qi + ncx * qj, wx * wy),
-        ]
+        self.transfer().stencil(i, j, k)
     }
 
-    /// `self.b = Pᵀ·r_fine` (inactive fine cells left out).
-    pub(crate) fn restrict<R: Stencil5<T> + ?Sized>(&mut self, fine: &R, r_fine: &[T]) {
-        let nx = fine.grid().nx();
-        let active_fine = active_cells(fine);
-        let mut b = std::mem::take(&mut self.b);
-        b.iter_mut().for_each(|v| *v = T::zero());
-        for (j, row) in r_fine.chunks_exact(nx).enumerate() {
-            for (i, &r) in row.iter().enumerate() {
-                let k = i + nx * j;
-                if !active_fine(k) {
-                    continue;
-                }
-                for (kc, w) in self.stencil(i, j, k) {
-                    b[kc] = b[kc] + w * r;
-                }
-            }
-        }
-        self.b = b;
-    }
-
-    /// `x_fine += P·self.x` (inactive fine cells left out), rows in parallel on large grids.
-    pub(crate) fn prolong_add<R: Stencil5<T> + ?Sized>(
-        &self,
-        fine: &R,
-        x_fine: &mut [T],
-        blocks: &mut Blocks<T>,
-        space: &dyn Space,
-    ) {
-        let nx = fine.grid().nx();
-        let x = &self.x;
-        let active_fine = active_cells(fine);
-        blocks.for_each(space, x_fine, |cells, block| {
-            let rows = cells.start / nx..cells.end / nx;
-            for (j, row) in rows.zip(block.chunks_exact_mut(nx)) {
-                for (i, v) in row.iter_mut().enumerate() {
-                    let k = i + nx * j;
-                    if !active_fine(k) {
-                        continue;
-                    }
-                    let mut e = T::zero();
-                    for (kc, w) in self.stencil(i, j, k) {
-                        e = e + w * x[kc];
-                    }
-                    *v = *v + e;
-                }
-            }
-        });
-    }
-
-    /// Bytes held: five coefficients, three vectors, the inverse center and the mask per coarse
+    /// Bytes held: five coefficients, two vectors, the inverse center and the mask per coarse
     /// cell, and two interpolation weights per fine cell.
     pub(crate) fn bytes(&self) -> usize {
         let t = std::mem::size_of::<T>();
         let n = self.op.grid.cells();
         let mask = n.div_ceil(64) * 8 + self.op.inactive.len() * std::mem::size_of::<usize>();
-        n * (8 * t + 4) + mask + (self.wx.len() + self.wy.len()) * std::mem::size_of::<f32>()
+        n * (7 * t + 4) + mask + (self.wx.len() + self.wy.len()) * std::mem::size_of::<f32>()
     }
+}
+
+/// The interpolation between a level and the next finer one, borrowed apart from the level's
+/// vectors (`P` from its weights; restriction is `Pᵀ`).
+pub(crate) struct Transfer<'a> {
+    ax: Axis,
+    ay: Axis,
+    wx: &'a [f32],
+    wy: &'a [f32],
+    ncx: usize,
+}
+
+impl Transfer<'_> {
+    /// Prolongation weights of fine cell `(i, j)` (`k = i + nx·j`): coarse indices and weights
+    /// of the four coarse cells it interpolates from.
+    #[inline]
+    pub(crate) fn stencil<T: Scalar>(&self, i: usize, j: usize, k: usize) -> [(usize, T); 4] {
+        let (pj, qj) = (self.ay.parent(j), self.ay.neighbour(j));
+        self.cell(i, pj * self.ncx, qj * self.ncx, self.wx[k], self.wy[k])
+    }
+
+    /// The stencil of fine cell `i` of a row whose coarse rows start at `p` (own) and `q`
+    /// (neighbour), from its two stored weights.
+    #[inline(always)]
+    fn cell<T: Scalar>(&self, i: usize, p: usize, q: usize, wx: f32, wy: f32) -> [(usize, T); 4] {
+        let (pi, qi) = (self.ax.parent(i), self.ax.neighbour(i));
+        let ((ux, wx), (uy, wy)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
+        [
+            (p + pi, ux * uy),
+            (p + qi, wx * uy),
+            (q + pi, ux * wy),
+            (q + qi, wx * wy),
+        ]
+    }
+
+    /// `coarse_b += Pᵀ·r` for the fine row `j` (`r` that row's residual), cells where
+    /// `!active(k)` left out; cells in order, each cell's four targets in the order of
+    /// [`stencil`](Self::stencil).
+    #[inline]
+    pub(crate) fn restrict_row<T: Scalar>(
+        &self,
+        j: usize,
+        r: &[T],
+        active: impl Fn(usize) -> bool,
+        coarse_b: &mut [T],
+    ) {
+        let nx = r.len();
+        let base = j * nx;
+        let (p, q) = (
+            self.ay.parent(j) * self.ncx,
+            self.ay.neighbour(j) * self.ncx,
+        );
+        let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
+        for (i, ((&r, &wx), &wy)) in r.iter().zip(wx).zip(wy).enumerate() {
+            if !active(base + i) {
+                continue;
+            }
+            for (kc, w) in self.cell::<T>(i, p, q, wx, wy) {
+                coarse_b[kc] = coarse_b[kc] + w * r;
+            }
+        }
+    }
+
+    /// `x += P·coarse_x` on the fine row `j` (`x` that row), cells where `!active(k)` left out.
+    #[inline]
+    pub(crate) fn prolong_row<T: Scalar>(
+        &self,
+        j: usize,
+        x: &mut [T],
+        active: impl Fn(usize) -> bool,
+        coarse_x: &[T],
+    ) {
+        let nx = x.len();
+        let base = j * nx;
+        let (p, q) = (
+            self.ay.parent(j) * self.ncx,
+            self.ay.neighbour(j) * self.ncx,
+        );
+        let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
+        for (i, ((v, &wx), &wy)) in x.iter_mut().zip(wx).zip(wy).enumerate() {
+            if !active(base + i) {
+                continue;
+            }
+            let mut e = T::zero();
+            for (kc, w) in self.cell::<T>(i, p, q, wx, wy) {
+                e = e + w * coarse_x[kc];
+            }
+            *v = *v + e;
+        }
+    }
+}
+
+/// A stored `f32` weight in the level's scalar type (exact: `f32` widens to `f64` exactly).
+#[inline(always)]
+fn widen<T: Scalar>(w: f32) -> T {
+    T::from(w).unwrap_or_else(T::zero)
 }
 
 /// `1/center` of each row where `active(k)`, 0 elsewhere, in `f32`.

@@ -64,10 +64,9 @@ mod smooth;
 
 use direct::{CoarsestSolve, MAX_DIRECT_CELLS};
 use level::Level;
-use smooth::{red_black_sweep, residual, smooth_from_zero};
+use smooth::Rows;
 
 use super::{check_built_for, Preconditioner};
-use crate::blocks::Blocks;
 use crate::iterate::{IterativeSolver, NameCache, Requires, SolveOptions, Task, Workspace};
 use crate::operator::Stencil5;
 use crate::relax::correction_solve;
@@ -159,9 +158,14 @@ impl Default for MultigridSettings {
 /// correction scaled by the energy-minimising step ([`MultigridSettings::energy_step`]).
 ///
 /// Storage beyond the fine operator: the coarse operators (five coefficients per coarse cell,
-/// a third of the fine cell count over all levels), three vectors per coarse cell, one
-/// fine-grid residual vector, and the coarsest factor; under the 1.5 × five-array budget of the
-/// fine operator ([`storage_bytes`](Multigrid::storage_bytes)).
+/// a third of the fine cell count over all levels), two vectors per coarse cell, one row of
+/// the fine grid, and the coarsest factor; under the 1.5 × five-array budget of the fine
+/// operator ([`storage_bytes`](Multigrid::storage_bytes)).
+///
+/// Each level is smoothed in two passes over its rows per cycle (all `ν` red-black sweeps
+/// travel down the grid together, the residual's restriction trailing them, the
+/// prolongation leading the post-smoothing); these passes run on one thread, so the result is
+/// the same for any thread count.
 ///
 /// # Example
 ///
@@ -187,12 +191,11 @@ pub struct Multigrid<T> {
     /// Whether the fine operator's eliminated couplings were symmetric (to a relative 1e-10)
     /// when the hierarchy was built (otherwise the non-symmetric construction of `skew.rs`).
     symmetric: bool,
-    fine_residual: Vec<T>,
+    /// One row of the fine grid: the smoother's row products on every level.
+    row_buffer: Vec<T>,
     /// `1/center` of the fine operator at free cells, 0 at fixed cells (`f32`, see
     /// `Level::inverse_centers`).
     fine_inverse_centers: Vec<f32>,
-    /// Blocks of the fine level (index 0) and of each coarse level.
-    blocks: Vec<Blocks<T>>,
     /// Stopping rule for the standalone solver.
     pub options: SolveOptions,
     name: NameCache,
@@ -275,19 +278,14 @@ impl<T: Scalar> Multigrid<T> {
                 }
             })
             .collect();
-        let blocks = std::iter::once(grid)
-            .chain(levels.iter().map(|l| l.op.grid))
-            .map(Blocks::for_grid)
-            .collect();
         Ok(Multigrid {
             grid,
             settings,
             levels,
             direct,
             symmetric,
-            fine_residual: vec![T::zero(); grid.cells()],
+            row_buffer: vec![T::zero(); grid.nx()],
             fine_inverse_centers,
-            blocks,
             options: SolveOptions::default(),
             name: NameCache::default(),
         })
@@ -339,7 +337,7 @@ impl<T: Scalar> Multigrid<T> {
         self.settings
     }
 
-    /// Bytes held by the hierarchy (coarse operators, level vectors, the fine residual vector
+    /// Bytes held by the hierarchy (coarse operators, level vectors, one fine row of scratch
     /// and the coarsest factor), not counting the fine operator itself.
     ///
     /// ```
@@ -353,7 +351,7 @@ impl<T: Scalar> Multigrid<T> {
     /// ```
     pub fn storage_bytes(&self) -> usize {
         self.levels.iter().map(Level::bytes).sum::<usize>() // local: bytes held by the levels
-            + self.fine_residual.len() * std::mem::size_of::<T>()
+            + self.row_buffer.len() * std::mem::size_of::<T>()
             + self.fine_inverse_centers.len() * std::mem::size_of::<f32>()
             + self.direct.bytes()
     }
@@ -374,7 +372,11 @@ impl<T: Scalar> Multigrid<T> {
     }
 
     /// One V-cycle from a zero initial guess, `z = B·r`, with `fine` the fine-level operator.
-    fn cycle(&mut self, fine: &dyn Stencil5<T>, space: &dyn Space, r: &[T], z: &mut [T]) {
+    /// Each level is smoothed in two passes over its rows (see `smooth.rs`): pre-smoothing
+    /// with the residual's restriction, and the prolongation with post-smoothing. The passes
+    /// are serial, so `_space` decides nothing here and the result is the same for any
+    /// thread count.
+    fn cycle(&mut self, fine: &dyn Stencil5<T>, _space: &dyn Space, r: &[T], z: &mut [T]) {
         let n = self.grid.cells();
         if r.len() < n || z.len() < n || fine.grid() != self.grid {
             return;
@@ -385,32 +387,30 @@ impl<T: Scalar> Multigrid<T> {
             return;
         }
         let nu = self.settings.smoothing_sweeps;
-        // The fine residual buffer doubles as the smoother's scratch on the fine level, and
-        // each level's residual buffer on its own level: neither is in use while smoothing.
-        let (fine_blocks, level_blocks) = self.blocks.split_at_mut(1);
-        let inv = &self.fine_inverse_centers;
-        let fb = &mut fine_blocks[0];
-        smooth_from_zero(fine, inv, r, z, &mut self.fine_residual, nu, fb, space);
-        residual(fine, r, z, &mut self.fine_residual, fb, space);
-        self.levels[0].restrict(fine, &self.fine_residual);
+        let buf = &mut self.row_buffer;
+        let top = Rows {
+            op: fine,
+            inv: &self.fine_inverse_centers,
+            b: r,
+            stored: None,
+        };
+        {
+            let (transfer, coarse_b) = self.levels[0].transfer_and_rhs();
+            top.pre_smooth_restrict(z, buf, nu, &transfer, coarse_b);
+        }
         // Down the hierarchy.
         let last = self.levels.len() - 1;
         for l in 0..last {
             let (upper, lower) = self.levels.split_at_mut(l + 1);
             let here = &mut upper[l];
-            let blocks = &mut level_blocks[l];
-            smooth_from_zero(
-                &here.op,
-                &here.inverse_centers,
-                &here.b,
-                &mut here.x,
-                &mut here.r,
-                nu,
-                blocks,
-                space,
-            );
-            residual(&here.op, &here.b, &here.x, &mut here.r, blocks, space);
-            lower[0].restrict(&here.op, &here.r);
+            let (transfer, coarse_b) = lower[0].transfer_and_rhs();
+            let rows = Rows {
+                op: &here.op,
+                inv: &here.inverse_centers,
+                b: &here.b,
+                stored: Some(&here.op.rows),
+            };
+            rows.pre_smooth_restrict(&mut here.x, buf, nu, &transfer, coarse_b);
         }
         let coarsest = &mut self.levels[last];
         self.direct.solve(&coarsest.b, &mut coarsest.x);
@@ -418,25 +418,17 @@ impl<T: Scalar> Multigrid<T> {
         for l in (0..last).rev() {
             let (upper, lower) = self.levels.split_at_mut(l + 1);
             let here = &mut upper[l];
-            let blocks = &mut level_blocks[l];
-            lower[0].prolong_add(&here.op, &mut here.x, blocks, space);
-            for _ in 0..nu {
-                red_black_sweep(
-                    &here.op,
-                    &here.inverse_centers,
-                    &here.b,
-                    &mut here.x,
-                    &mut here.r,
-                    1,
-                    blocks,
-                    space,
-                );
-            }
+            let below = &lower[0];
+            let rows = Rows {
+                op: &here.op,
+                inv: &here.inverse_centers,
+                b: &here.b,
+                stored: Some(&here.op.rows),
+            };
+            rows.prolong_smooth(&mut here.x, buf, nu, &below.transfer(), &below.x);
         }
-        self.levels[0].prolong_add(fine, z, fb, space);
-        for _ in 0..nu {
-            red_black_sweep(fine, inv, r, z, &mut self.fine_residual, 1, fb, space);
-        }
+        let below = &self.levels[0];
+        top.prolong_smooth(z, buf, nu, &below.transfer(), &below.x);
     }
 }
 

@@ -1,123 +1,195 @@
-//! The red-black Gauss–Seidel smoother and the residual, on any level.
+//! The red-black Gauss–Seidel smoother fused with the grid transfers, in one pass over the rows
+//! of a level per smoothing phase.
 //!
-//! Cells of one colour do not couple to each other in a 5-point stencil, so updating all of
-//! them at once from the current values of the other colour *is* the Gauss–Seidel half-sweep.
-//! That lets every half-sweep run as a data-parallel pass: the level's row product gives
-//! `A·x`, and each cell of the colour takes `x + (b − A·x)/center` (with `1/center` stored, and
-//! zero at inactive cells so they keep their zero), written into a second buffer. A full sweep
-//! goes `x → scratch → x`. Rows are cut into the fixed blocks of the level, so results do not
-//! depend on the thread count.
+//! Cells of one colour do not couple to each other in a 5-point stencil, so a half-sweep may
+//! update its cells in place, in any order, from the current values of the other colour: the
+//! result is the same as computing every update from the values before the half-sweep. That
+//! lets all the half-sweeps of one smoothing phase travel down the grid together, as a
+//! wavefront: at row step `t`, sweep `s` does its first colour on row `t − 2s` and its second
+//! colour on row `t − 2s − 1`. Each update then reads rows that the previous half-sweep has
+//! finished and the next has not touched yet (the neighbours of row `t − 2s` are final for
+//! sweep `s − 1`, whose second colour is on row `t − 2s + 1`; sweep `s + 1` is two rows
+//! behind). The residual and its restriction trail the last sweep by one row, and the
+//! prolongation of the coarse correction runs one row ahead of the first sweep.
+//!
+//! So a pre-smoothing phase with its residual and restriction reads the operator, `b`,
+//! `1/center` and `x` once and writes `x` once, instead of once per half-sweep; the rows in
+//! flight (about `2ν + 2` of them) stay in cache. Every cell update is the same expression as a
+//! half-sweep computed from a whole product — `x + (b − A·x)/center` with the row product in
+//! the operator's fixed summation order — so the results are the same bits as smoothing one
+//! half-sweep at a time, and the pass is serial, which keeps them independent of the thread
+//! count.
 
-use super::level::active_cells;
-use crate::blocks::Blocks;
+use super::level::{active_cells, Transfer};
 use crate::operator::Stencil5;
-use crate::space::Space;
-use crate::Scalar;
+use crate::{Coeffs5, Scalar};
 
-/// Half a sweep: `y` takes the Gauss–Seidel update of `x` at the cells of `colour`
-/// (`(i + j) % 2 == colour`) and the value of `x` everywhere else. `inv` is `1/center`, zero at
-/// inactive cells.
-#[allow(clippy::too_many_arguments)]
-fn half_sweep<T: Scalar, R: Stencil5<T> + ?Sized>(
-    op: &R,
-    inv: &[f32],
-    b: &[T],
-    x: &[T],
-    y: &mut [T],
-    colour: usize,
-    blocks: &mut Blocks<T>,
-    space: &dyn Space,
-) {
-    let nx = op.grid().nx();
-    blocks.for_each(space, y, |cells, block| {
-        let rows = cells.start / nx..cells.end / nx;
-        op.apply_rows(rows.clone(), x, block);
-        for (j, y_row) in rows.zip(block.chunks_exact_mut(nx)) {
-            let base = j * nx;
-            let (x_row, b_row, d_row) = (&x[base..][..nx], &b[base..][..nx], &inv[base..][..nx]);
-            // Cells of the colour sit at i ≡ j + colour (mod 2): update those from the product
-            // now in `y_row`, and give the others back their value from `x`.
-            let first = (j + colour) % 2;
-            for i in (first..nx).step_by(2) {
-                y_row[i] = x_row[i] + (b_row[i] - y_row[i]) * widen(d_row[i]);
-            }
-            for i in (1 - first..nx).step_by(2) {
-                y_row[i] = x_row[i];
-            }
-        }
-    });
+/// The rows of one level being smoothed: operator, `1/center` (zero at inactive cells, so they
+/// keep their zero) and right-hand side.
+pub(crate) struct Rows<'a, T, R: ?Sized> {
+    pub(crate) op: &'a R,
+    pub(crate) inv: &'a [f32],
+    pub(crate) b: &'a [T],
+    /// The operator's rows when the level stores them (coarse levels): the smoother then
+    /// computes the product at the cells of the colour only.
+    pub(crate) stored: Option<&'a [Coeffs5<T>]>,
 }
 
-/// One red-black Gauss–Seidel sweep on `x` for `A·x = b`: colour `first` (cells with
-/// `(i + j) % 2 == first`), then the other. `scratch` is overwritten. `x` must be zero at
-/// inactive cells, and stays so.
-#[allow(clippy::too_many_arguments)]
-pub(crate) fn red_black_sweep<T: Scalar, R: Stencil5<T> + ?Sized>(
-    op: &R,
-    inv: &[f32],
-    b: &[T],
-    x: &mut [T],
-    scratch: &mut [T],
-    first: usize,
-    blocks: &mut Blocks<T>,
-    space: &dyn Space,
-) {
-    half_sweep(op, inv, b, x, scratch, first, blocks, space);
-    half_sweep(op, inv, b, scratch, x, 1 - first, blocks, space);
-}
+impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
+    /// The Gauss–Seidel update of the cells of `colour` (`(i + j) % 2 == colour`) on row `j`,
+    /// in place; `buf` (one row) is overwritten with the row's product.
+    #[inline]
+    fn relax(&self, x: &mut [T], buf: &mut [T], j: usize, colour: usize) {
+        let nx = buf.len();
+        if let Some(rows) = self.stored {
+            relax_stored(rows, self.inv, self.b, x, nx, j, colour);
+            return;
+        }
+        self.op.apply_rows(j..j + 1, x, buf);
+        let base = j * nx;
+        let (x_row, b_row, d_row) = (
+            &mut x[base..][..nx],
+            &self.b[base..][..nx],
+            &self.inv[base..][..nx],
+        );
+        let first = (j + colour) % 2;
+        for i in (first..nx).step_by(2) {
+            x_row[i] = x_row[i] + (b_row[i] - buf[i]) * widen(d_row[i]);
+        }
+    }
 
-/// `ν` pre-smoothing sweeps from `x = 0`, the result in `x` (`scratch` overwritten). The first
-/// half-sweep needs no product: from zero, the cells of the first colour take `b/center`.
-#[allow(clippy::too_many_arguments)]
-pub(crate) fn smooth_from_zero<T: Scalar, R: Stencil5<T> + ?Sized>(
-    op: &R,
-    inv: &[f32],
-    b: &[T],
-    x: &mut [T],
-    scratch: &mut [T],
-    sweeps: usize,
-    blocks: &mut Blocks<T>,
-    space: &dyn Space,
-) {
-    let nx = op.grid().nx();
-    blocks.for_each(space, scratch, |cells, block| {
-        let rows = cells.start / nx..cells.end / nx;
-        let (b, inv) = (&b[cells.clone()], &inv[cells]);
-        for (jj, j) in rows.enumerate() {
-            let first = j % 2;
-            let at = jj * nx;
-            let (y_row, b_row, d_row) = (&mut block[at..][..nx], &b[at..][..nx], &inv[at..][..nx]);
-            for i in (first..nx).step_by(2) {
-                y_row[i] = b_row[i] * widen(d_row[i]);
+    /// The first half-sweep from `x = 0` on row `j`: colour 0 takes `b/center`, colour 1 zero.
+    #[inline]
+    fn relax_from_zero(&self, x: &mut [T], nx: usize, j: usize) {
+        let base = j * nx;
+        let (x_row, b_row, d_row) = (
+            &mut x[base..][..nx],
+            &self.b[base..][..nx],
+            &self.inv[base..][..nx],
+        );
+        let first = j % 2;
+        for i in (first..nx).step_by(2) {
+            x_row[i] = b_row[i] * widen(d_row[i]);
+        }
+        for i in (1 - first..nx).step_by(2) {
+            x_row[i] = T::zero();
+        }
+    }
+
+    /// `ν` red-black sweeps from `x = 0` (red then black), then `coarse_b = Pᵀ·(b − A·x)` with
+    /// the inactive cells left out, in one pass. `buf` holds one row of the level.
+    pub(crate) fn pre_smooth_restrict(
+        &self,
+        x: &mut [T],
+        buf: &mut [T],
+        sweeps: usize,
+        transfer: &Transfer<'_>,
+        coarse_b: &mut [T],
+    ) {
+        let grid = self.op.grid();
+        let (nx, ny) = (grid.nx(), grid.ny());
+        let buf = &mut buf[..nx];
+        let active = active_cells(self.op);
+        coarse_b.iter_mut().for_each(|v| *v = T::zero());
+        let at = |t: usize, back: usize| t.checked_sub(back).filter(|&j| j < ny);
+        for t in 0..ny + 2 * sweeps {
+            for s in 0..sweeps {
+                if let Some(j) = at(t, 2 * s) {
+                    if s == 0 {
+                        self.relax_from_zero(x, nx, j);
+                    } else {
+                        self.relax(x, buf, j, 0);
+                    }
+                }
+                if let Some(j) = at(t, 2 * s + 1) {
+                    self.relax(x, buf, j, 1);
+                }
             }
-            for i in (1 - first..nx).step_by(2) {
-                y_row[i] = T::zero();
+            // The residual of row j needs rows j − 1 … j + 1 final: the last sweep's second
+            // colour is on row t − 2ν + 1.
+            if let Some(j) = at(t, 2 * sweeps) {
+                self.op.apply_rows(j..j + 1, x, buf);
+                let b_row = &self.b[j * nx..][..nx];
+                for (ri, &bi) in buf.iter_mut().zip(b_row) {
+                    *ri = bi - *ri;
+                }
+                transfer.restrict_row(j, buf, &active, coarse_b);
             }
         }
-    });
-    half_sweep(op, inv, b, scratch, x, 1, blocks, space);
-    for _ in 1..sweeps {
-        red_black_sweep(op, inv, b, x, scratch, 0, blocks, space);
+    }
+
+    /// `x += P·coarse_x` (inactive cells left out), then `ν` red-black sweeps (black then
+    /// red, the mirror image of the pre-smoothing), in one pass. `buf` holds one row.
+    pub(crate) fn prolong_smooth(
+        &self,
+        x: &mut [T],
+        buf: &mut [T],
+        sweeps: usize,
+        transfer: &Transfer<'_>,
+        coarse_x: &[T],
+    ) {
+        let grid = self.op.grid();
+        let (nx, ny) = (grid.nx(), grid.ny());
+        let buf = &mut buf[..nx];
+        let active = active_cells(self.op);
+        let prolong = |x: &mut [T], j: usize| {
+            transfer.prolong_row(j, &mut x[j * nx..][..nx], &active, coarse_x);
+        };
+        prolong(x, 0);
+        let at = |t: usize, back: usize| t.checked_sub(back).filter(|&j| j < ny);
+        for t in 0..ny + 2 * sweeps {
+            // The first sweep reads row t + 1 at this step.
+            if t + 1 < ny {
+                prolong(x, t + 1);
+            }
+            for s in 0..sweeps {
+                if let Some(j) = at(t, 2 * s) {
+                    self.relax(x, buf, j, 1);
+                }
+                if let Some(j) = at(t, 2 * s + 1) {
+                    self.relax(x, buf, j, 0);
+                }
+            }
+        }
     }
 }
 
-/// `r = b − A·x` with the eliminated rows, zero at inactive cells (`x` zero there).
-pub(crate) fn residual<T: Scalar, R: Stencil5<T> + ?Sized>(
-    op: &R,
+/// [`Rows::relax`] on stored rows: the product at the cells of `colour` only, each in the
+/// summation order of every row product (center, west, east, south, north; terms towards
+/// missing neighbours left out), so the same bits as the whole-row product.
+fn relax_stored<T: Scalar>(
+    rows: &[Coeffs5<T>],
+    inv: &[f32],
     b: &[T],
-    x: &[T],
-    r: &mut [T],
-    blocks: &mut Blocks<T>,
-    space: &dyn Space,
+    x: &mut [T],
+    nx: usize,
+    j: usize,
+    colour: usize,
 ) {
-    let nx = op.grid().nx();
-    let active = active_cells(op);
-    blocks.for_each(space, r, |cells, block| {
-        op.apply_rows(cells.start / nx..cells.end / nx, x, block);
-        for ((ri, &bi), k) in block.iter_mut().zip(&b[cells.clone()]).zip(cells) {
-            *ri = if active(k) { bi - *ri } else { T::zero() };
+    let base = j * nx;
+    let (below, rest) = x.split_at_mut(base);
+    let (row, above) = rest.split_at_mut(nx);
+    let south = (j > 0).then(|| &below[base - nx..]);
+    let north = (above.len() >= nx).then(|| &above[..nx]);
+    let (coeffs, b, inv) = (&rows[base..][..nx], &b[base..][..nx], &inv[base..][..nx]);
+    let first = (j + colour) % 2;
+    for i in (first..nx).step_by(2) {
+        let c = coeffs[i];
+        let mut s = c.center * row[i];
+        if i > 0 {
+            s = s + c.west * row[i - 1];
         }
-    });
+        if i + 1 < nx {
+            s = s + c.east * row[i + 1];
+        }
+        if let Some(xs) = south {
+            s = s + c.south * xs[i];
+        }
+        if let Some(xn) = north {
+            s = s + c.north * xn[i];
+        }
+        row[i] = row[i] + (b[i] - s) * widen(inv[i]);
+    }
 }
 
 /// `v` in the level's scalar type.
