@@ -548,7 +548,8 @@ pub(crate) fn run_to_end<T: Scalar, M: Method<T> + ?Sized>(
         *history = Arc::new(Vec::new());
     }
     let buffer = Arc::get_mut(history).expect("a fresh or unshared history");
-    let mut monitor = Monitor::start(options.stop_rule(), buffer, observer, n, bb, rr);
+    let unknowns = space.global_len(n);
+    let mut monitor = Monitor::start(options.stop_rule(), buffer, observer, unknowns, bb, rr);
     let (ending, summary) = match iterate(method, &mut cx, &mut monitor, options, rr) {
         Ok(ending) => (ending, monitor.close()),
         Err(e) => return Err(e),
