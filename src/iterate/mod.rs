@@ -628,8 +628,10 @@ fn initial_residual<T: Scalar>(cx: &mut Context<'_, T>) -> (T, T) {
         blocks,
         space,
     } = cx;
+    // An exact space may span processes, some with fixed cells and some without: all of them
+    // take the first path then (with no fixed cell it gives `rhs·rhs`, the same bits).
     let bb = match op.fixed_cells() {
-        Some(fixed) if !fixed.is_empty() => {
+        Some(fixed) if !fixed.is_empty() || space.exact_sums() => {
             let scratch = &mut work[0];
             scratch.fill(T::zero());
             for &k in fixed.cells() {
