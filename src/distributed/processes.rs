@@ -37,7 +37,7 @@ pub(crate) trait Transport: Send + Sync + fmt::Debug {
 ///
 /// [`Processes::single`] is one process without MPI: the same distributed operator, space and
 /// reductions as on many processes, so its results are the bits every process count gives.
-/// With the `mpi` feature, [`Processes::mpi_world`] starts MPI and spans every process that
+/// With the `mpi` feature, `Processes::mpi_world` starts MPI and spans every process that
 /// `mpirun` started.
 ///
 /// ```

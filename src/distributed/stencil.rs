@@ -9,6 +9,7 @@ use super::partition::{Layout, Partition};
 use super::processes::HaloLink;
 use super::space::ExactSpace;
 use crate::operator::{check_len, row_sums_to_zero};
+use crate::scalar::is_positive;
 use crate::space::{first_flagged, Combine, Space};
 use crate::{Coeffs5, Error, FixedCells, LinearOperator, Location};
 
@@ -31,9 +32,8 @@ struct Edges {
 /// exchange before every product, and fixed cells anywhere (also next to a block's edge).
 ///
 /// Its vectors are the process's own cells ([`Partition::local_len`]); solve it with any
-/// driver that needs only a `LinearOperator` (CG, PCG with
-/// [`DistributedJacobi`](super::DistributedJacobi), steepest descent, BiCGSTAB, GMRES) in the
-/// partition's workspace ([`Partition::workspace`]). The product of one row adds its terms in
+/// CG or PCG with [`DistributedJacobi`](super::DistributedJacobi) in the partition's workspace
+/// ([`Partition::workspace`]). The product of one row adds its terms in
 /// the order of every other operator of the crate (center, west, east, south, north), so it
 /// equals the product of a [`Banded5`](crate::Banded5) with the same coefficients bit for bit.
 ///
@@ -359,10 +359,10 @@ impl LinearOperator<f64> for DistributedStencil {
             }
         }
         self.part.layout.processes.transport.exchange(&mut links);
-        drop(links);
-        for side in 0..4 {
-            if self.neighbours[side].is_some() {
-                for (h, &v) in self.halo[side].iter().zip(&recv[side]) {
+        let sides = self.halo.iter().zip(recv.iter()).zip(self.neighbours);
+        for ((halo, values), peer) in sides {
+            if peer.is_some() {
+                for (h, &v) in halo.iter().zip(values) {
                     h.store(v.to_bits(), Ordering::Relaxed);
                 }
             }
@@ -384,7 +384,7 @@ impl LinearOperator<f64> for DistributedStencil {
     fn first_nonpositive_diagonal(&self) -> Option<(usize, f64)> {
         let fixed = self.fixed.as_ref();
         let c = &self.bands[0];
-        let bad = |k: usize| !fixed.is_some_and(|f| f.contains(k)) && !(c[k] > 0.0);
+        let bad = |k: usize| !fixed.is_some_and(|f| f.contains(k)) && !is_positive(c[k]);
         let k = first_flagged(&self.space, self.len(), bad)?;
         let (_, value) = self.agree(k, |l| (0, c[l]));
         Some((k, value))
