@@ -71,7 +71,7 @@ impl ExactSpace {
                     sum.pack(&mut send[at..at + PACKED]);
                 }
                 Combine::Max | Combine::Min => {
-                    let folded = column.reduce(|a, b| fold(op, a, b));
+                    let folded = column.reduce(|a, b| extreme(op, a, b)); // local: this space's combine
                     send[at] = folded.map_or(0, |v| v.to_bits() as i64);
                     send[at + 1] = i64::from(folded.is_some());
                 }
@@ -96,7 +96,7 @@ impl ExactSpace {
                 Combine::Max | Combine::Min => parts
                     .filter(|p| p[1] != 0)
                     .map(|p| f64::from_bits(p[0] as u64))
-                    .reduce(|a, b| fold(op, a, b))
+                    .reduce(|a, b| extreme(op, a, b)) // local: this space's combine
                     .unwrap_or(0.0),
             };
             out(c, value);
@@ -105,7 +105,8 @@ impl ExactSpace {
     }
 }
 
-fn fold(op: Combine, a: f64, b: f64) -> f64 {
+/// The larger or smaller of two values (NaN-ignoring, as `f64::max` and `f64::min`).
+fn extreme(op: Combine, a: f64, b: f64) -> f64 {
     match op {
         Combine::Max => a.max(b),
         Combine::Min => a.min(b),
