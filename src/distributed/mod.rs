@@ -47,7 +47,7 @@
 //!     .solve_with(&op, &rhs, &mut x, &mut part.workspace(true))?;
 //! let whole = part.gather(&x)?; // Some(field) on process 0
 //! assert_eq!(whole.map(|w| w.len()), Some(grid.cells()));
-//! println!("{} iterations", report.iterations());
+//! println!("{} iterations", report.iterations);
 //! # Ok::<(), quintet::Error>(())
 //! ```
 
