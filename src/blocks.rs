@@ -59,6 +59,22 @@ impl<T: Scalar> Blocks<T> {
         }
     }
 
+    /// Blocks of one entry each for vectors of `len` entries: every reduction partial is one
+    /// rounded value, for spaces whose sums are exact ([`Space::exact_sums`]).
+    pub(crate) fn per_entry(len: usize) -> Blocks<T> {
+        Blocks {
+            len,
+            grid: None,
+            block: 1,
+            partials: vec![T::zero(); WIDTH * len],
+        }
+    }
+
+    /// Whether these blocks hold one entry each.
+    pub(crate) fn is_per_entry(&self) -> bool {
+        self.block == 1
+    }
+
     /// Blocks for the vectors of `op`.
     pub(crate) fn for_operator(op: &(impl LinearOperator<T> + ?Sized)) -> Blocks<T> {
         Blocks::new(op.len(), op.on_grid())
@@ -91,6 +107,7 @@ impl<T: Scalar> Blocks<T> {
         x: &[T],
         y: &mut [T],
     ) {
+        op.exchange_halo(x);
         self.for_each(space, y, |cells, y| op.apply_block(cells, x, y));
     }
 
@@ -116,6 +133,7 @@ impl<T: Scalar> Blocks<T> {
         r: &mut [T],
     ) -> T {
         let fixed = op.fixed_cells();
+        op.exchange_halo(x);
         self.map(space, r, |cells, r| {
             op.apply_block(cells.clone(), x, r);
             for (ri, &bi) in r.iter_mut().zip(slice(b, &cells)) {
@@ -195,6 +213,7 @@ impl<T: Scalar> Blocks<T> {
         other: &[T],
     ) -> T {
         let fixed = op.fixed_cells();
+        op.exchange_halo(x);
         self.map(space, y, |cells, y| {
             op.apply_block(cells.clone(), x, y);
             zero_fixed(fixed, &cells, y);
@@ -215,6 +234,7 @@ impl<T: Scalar> Blocks<T> {
     ) -> (T, T) {
         let fixed = op.fixed_cells();
         let sums = [Combine::Sum, Combine::Sum];
+        op.exchange_halo(x);
         self.map_with(
             space,
             y,
@@ -236,6 +256,7 @@ impl<T: Scalar> Blocks<T> {
         y: &mut [T],
     ) {
         let fixed = op.fixed_cells();
+        op.exchange_halo(x);
         self.for_each(space, y, |cells, y| {
             op.apply_block(cells.clone(), x, y);
             zero_fixed(fixed, &cells, y);

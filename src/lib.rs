@@ -235,6 +235,7 @@
 mod balance;
 mod blocks;
 mod capacity;
+pub mod distributed;
 mod error;
 mod format;
 mod grid;

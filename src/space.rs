@@ -124,6 +124,42 @@ pub trait Space: Send + Sync + fmt::Debug {
     fn combine_f32(&self, partials: &[f32], ops: &[Combine], out: &mut [f32]) {
         combine_in_order(partials, ops, out);
     }
+
+    /// Whether the sums of this space are exact (rounded once, whatever the order of the
+    /// partials). A workspace then cuts the vectors of an operator without a grid into blocks
+    /// of one entry, so that every partial is one rounded product and the result does not
+    /// depend on how the vector is cut over threads or processes (see
+    /// [`crate::distributed`]). Default: `false`.
+    ///
+    /// ```
+    /// use quintet::space::{Serial, Space};
+    /// assert!(!Serial.exact_sums());
+    /// ```
+    fn exact_sums(&self) -> bool {
+        false
+    }
+
+    /// The index in the whole problem of this process's entry `local` (the entry itself on one
+    /// process): errors found by a scan name the same cell on every process.
+    ///
+    /// ```
+    /// use quintet::space::{Serial, Space};
+    /// assert_eq!(Serial.global_index(7), 7);
+    /// ```
+    fn global_index(&self, local: usize) -> usize {
+        local
+    }
+
+    /// The number of unknowns of the whole problem when this process holds `local` of them
+    /// (the stop rules' iteration bounds count the whole problem).
+    ///
+    /// ```
+    /// use quintet::space::{Serial, Space};
+    /// assert_eq!(Serial.global_len(100), 100);
+    /// ```
+    fn global_len(&self, local: usize) -> usize {
+        local
+    }
 }
 
 /// The combining rule of the built-in spaces: each column folded over the blocks in block
@@ -236,7 +272,7 @@ pub(crate) fn first_flagged(
 ) -> Option<usize> {
     let local = (0..len).find(|&k| flagged(k));
     let mut out = [0.0f64];
-    let partial = [local.map_or(f64::INFINITY, |k| k as f64)];
+    let partial = [local.map_or(f64::INFINITY, |k| space.global_index(k) as f64)];
     space.combine_f64(&partial, &[Combine::Min], &mut out);
     out[0].is_finite().then_some(out[0] as usize)
 }

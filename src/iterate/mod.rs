@@ -548,7 +548,8 @@ pub(crate) fn run_to_end<T: Scalar, M: Method<T> + ?Sized>(
         *history = Arc::new(Vec::new());
     }
     let buffer = Arc::get_mut(history).expect("a fresh or unshared history");
-    let mut monitor = Monitor::start(options.stop_rule(), buffer, observer, n, bb, rr);
+    let unknowns = space.global_len(n);
+    let mut monitor = Monitor::start(options.stop_rule(), buffer, observer, unknowns, bb, rr);
     let (ending, summary) = match iterate(method, &mut cx, &mut monitor, options, rr) {
         Ok(ending) => (ending, monitor.close()),
         Err(e) => return Err(e),
@@ -627,8 +628,10 @@ fn initial_residual<T: Scalar>(cx: &mut Context<'_, T>) -> (T, T) {
         blocks,
         space,
     } = cx;
+    // An exact space may span processes, some with fixed cells and some without: all of them
+    // take the first path then (with no fixed cell it gives `rhs·rhs`, the same bits).
     let bb = match op.fixed_cells() {
-        Some(fixed) if !fixed.is_empty() => {
+        Some(fixed) if !fixed.is_empty() || space.exact_sums() => {
             let scratch = &mut work[0];
             scratch.fill(T::zero());
             for &k in fixed.cells() {

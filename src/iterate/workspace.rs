@@ -92,6 +92,9 @@ impl<T: Scalar> Workspace<T> {
     /// # let _ = ws;
     /// ```
     pub fn with_space(mut self, space: Arc<dyn Space>) -> Workspace<T> {
+        if space.exact_sums() != self.space.exact_sums() {
+            self.blocks = None; // the blocks are cut for the other kind of sums
+        }
         self.space = space;
         self
     }
@@ -125,8 +128,19 @@ impl<T: Scalar> Workspace<T> {
 
     /// Blocks cut for `op`, rebuilt if the last solve was on another shape.
     pub(crate) fn blocks_for(&mut self, op: &(impl LinearOperator<T> + ?Sized)) {
-        if !self.blocks.as_ref().is_some_and(|b| b.fits(op)) {
-            self.blocks = Some(Blocks::for_operator(op));
+        // An exact space cuts an operator without a grid per entry, so that its sums do not
+        // depend on the cut (`Space::exact_sums`); grid operators keep whole rows.
+        let per_entry = self.space.exact_sums() && op.on_grid().is_none();
+        if !self
+            .blocks
+            .as_ref()
+            .is_some_and(|b| b.fits(op) && (!per_entry || b.is_per_entry()))
+        {
+            self.blocks = Some(if per_entry {
+                Blocks::per_entry(op.len())
+            } else {
+                Blocks::for_operator(op)
+            });
         }
     }
 

@@ -216,6 +216,37 @@ pub trait LinearOperator<T: Scalar>: Sync {
         None
     }
 
+    /// Make the values of `x` that this process's rows read but does not hold available to
+    /// [`apply_block`](LinearOperator::apply_block). The crate calls it once before every
+    /// product over the blocks of `x`, on every process of a distributed solve, so a
+    /// distributed operator fetches its neighbours' boundary values here (a collective call).
+    /// Default: nothing to do.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(3, 1)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::<f64>::laplacian(grid, i, j))?;
+    /// op.exchange_halo(&[1.0, 2.0, 3.0]); // one process holds everything
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    fn exchange_halo(&self, x: &[T]) {
+        let _ = x;
+    }
+
+    /// Where the unknown numbered `k` in the whole problem sits, for error messages. Default:
+    /// cell `k` of [`on_grid`](LinearOperator::on_grid), or entry `k`.
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(3, 2)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::<f64>::laplacian(grid, i, j))?;
+    /// assert_eq!(op.cell_location(4).coords, Some((1, 1)));
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    fn cell_location(&self, k: usize) -> Location {
+        Location::of(self.on_grid(), k)
+    }
+
     /// Checked product `y = A·x` (fixed cells' rows included as they are), on the calling
     /// thread.
     ///
@@ -237,6 +268,7 @@ pub trait LinearOperator<T: Scalar>: Sync {
         let n = self.len();
         check_len("x", n, x.len())?;
         check_len("y", n, y.len())?;
+        self.exchange_halo(x);
         self.apply_block(0..n, x, y);
         Ok(())
     }
@@ -551,7 +583,7 @@ pub(crate) fn check_shape(what: &'static str, expected: Shape, found: Shape) -> 
 
 /// The location of unknown `k` of `op`.
 pub(crate) fn locate<T: Scalar>(op: &(impl LinearOperator<T> + ?Sized), k: usize) -> Location {
-    Location::of(op.on_grid(), k)
+    op.cell_location(k)
 }
 
 /// `Err(Singular)` for a pure no-flow system (the constant vector in the null space), as far
