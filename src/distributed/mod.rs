@@ -53,12 +53,14 @@
 
 mod exact;
 mod jacobi;
+mod layout;
 #[cfg(feature = "mpi")]
 mod mpi_world;
 mod partition;
 mod processes;
 mod space;
 mod stencil;
+mod transport;
 
 pub use jacobi::DistributedJacobi;
 pub use partition::Partition;

@@ -8,7 +8,7 @@ use mpi::request::{scope, Request};
 use mpi::topology::{Communicator, SimpleCommunicator};
 use mpi::Count;
 
-use super::processes::{setup_error, HaloLink, Transport};
+use super::transport::{setup_error, HaloLink, Transport};
 use crate::Error;
 
 /// The started MPI environment (finalised when dropped) and this process's place in it.

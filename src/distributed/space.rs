@@ -11,7 +11,7 @@
 use std::sync::{Arc, Mutex, PoisonError};
 
 use super::exact::{ExactSum, PACKED};
-use super::partition::Layout;
+use super::layout::Layout;
 use crate::space::{Combine, Space};
 
 /// The most columns one reduction combines (`space::total` works in chunks of 16).

@@ -5,9 +5,10 @@ use std::ops::Range;
 use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::{Arc, Mutex, PoisonError};
 
-use super::partition::{Layout, Partition};
-use super::processes::HaloLink;
+use super::layout::Layout;
+use super::partition::Partition;
 use super::space::ExactSpace;
+use super::transport::HaloLink;
 use crate::operator::{check_len, row_sums_to_zero};
 use crate::scalar::is_positive;
 use crate::space::{first_flagged, Combine, Space};

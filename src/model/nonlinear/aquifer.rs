@@ -450,3 +450,34 @@ fn logistic(u: f64) -> f64 {
         e / (1.0 + e)
     }
 }
+
+/// Conductance of a face between `p` and `n` with half-resistances `[r_p, r_n]` at factor 1,
+/// factors and slopes `fp`, `fn_`, values `xp`, `xn`; and its derivatives with respect to
+/// `xp` and `xn` through the factors.
+#[inline]
+pub(super) fn face(
+    rule: FaceWeighting,
+    [rp, rn]: [f64; 2],
+    (mp, sp): (f64, f64),
+    (mn, sn): (f64, f64),
+    xp: f64,
+    xn: f64,
+) -> (f64, f64, f64) {
+    if !(rp.is_finite() && rn.is_finite()) {
+        return (0.0, 0.0, 0.0);
+    }
+    match rule {
+        FaceWeighting::Upstream => {
+            let c0 = 1.0 / (rp + rn);
+            if xp >= xn {
+                (c0 * mp, c0 * sp, 0.0)
+            } else {
+                (c0 * mn, 0.0, c0 * sn)
+            }
+        }
+        FaceWeighting::Harmonic => {
+            let c = 1.0 / (rp / mp + rn / mn);
+            (c, c * c * rp / (mp * mp) * sp, c * c * rn / (mn * mn) * sn)
+        }
+    }
+}

@@ -570,6 +570,6 @@ impl NonlinearSystem {
         } else {
             (nb, k, &self.north)
         };
-        super::equations::face(self.faces, halves[low], fs[low], fs[high], x[low], x[high]).0
+        super::aquifer::face(self.faces, halves[low], fs[low], fs[high], x[low], x[high]).0
     }
 }
