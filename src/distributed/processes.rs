@@ -6,7 +6,6 @@
 use std::sync::Arc;
 
 use super::transport::{HaloLink, Transport};
-use crate::Error;
 
 /// The processes of a distributed solve.
 ///
@@ -71,7 +70,7 @@ impl Processes {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     #[cfg(feature = "mpi")]
-    pub fn mpi_world() -> Result<Processes, Error> {
+    pub fn mpi_world() -> Result<Processes, crate::Error> {
         Ok(Processes {
             transport: Arc::new(super::mpi_world::MpiWorld::start()?),
         })
