@@ -56,6 +56,7 @@ mod jacobi;
 mod layout;
 #[cfg(feature = "mpi")]
 mod mpi_world;
+mod multigrid;
 mod partition;
 mod processes;
 mod space;
@@ -63,6 +64,7 @@ mod stencil;
 mod transport;
 
 pub use jacobi::DistributedJacobi;
+pub use multigrid::DistributedMultigrid;
 pub use partition::Partition;
 pub use processes::Processes;
 pub use stencil::DistributedStencil;

@@ -495,7 +495,10 @@ impl Transfer<'_> {
             self.ay.neighbour(j) * self.ncx,
         );
         let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
-        let cells = r[cols.clone()].iter().zip(&wx[cols.clone()]).zip(&wy[cols.clone()]);
+        let cells = r[cols.clone()]
+            .iter()
+            .zip(&wx[cols.clone()])
+            .zip(&wy[cols.clone()]);
         for (i, ((&r, &wx), &wy)) in cols.zip(cells) {
             if !active(base + i) {
                 continue;

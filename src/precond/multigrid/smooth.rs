@@ -44,7 +44,12 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
     fn relax(&self, x: &mut [T], buf: &mut [T], j: usize, colour: usize) {
         let nx = buf.len();
         if let Some(rows) = self.stored {
-            relax_stored(rows, self.inv, self.b, x, nx, j, colour, 0..nx);
+            let stored = StoredRows {
+                rows,
+                inv: self.inv,
+                b: self.b,
+            };
+            stored.relax(x, nx, j, colour, 0..nx);
             return;
         }
         self.op.apply_rows(j..j + 1, x, buf);
@@ -138,29 +143,42 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
     }
 }
 
-/// [`Rows::relax`] on stored rows, for the cells of `colour` in the columns `cols` of row `j`:
-/// the product at those cells only, by the crate's one-cell product (same bits as the
-/// whole-row product). Distributed levels pass their own columns; the serial cycle all.
-pub(crate) fn relax_stored<T: Scalar>(
-    rows: &[Coeffs5<T>],
-    inv: &[f32],
-    b: &[T],
-    x: &mut [T],
-    nx: usize,
-    j: usize,
-    colour: usize,
-    cols: Range<usize>,
-) {
-    let base = j * nx;
-    let (below, rest) = x.split_at_mut(base);
-    let (row, above) = rest.split_at_mut(nx);
-    let south = (j > 0).then(|| &below[base - nx..]);
-    let north = (above.len() >= nx).then(|| &above[..nx]);
-    let (coeffs, b, inv) = (&rows[base..][..nx], &b[base..][..nx], &inv[base..][..nx]);
-    let first = cols.start + (cols.start + j + colour) % 2;
-    for i in (first..cols.end).step_by(2) {
-        let s = cell_product(&|i| coeffs[i], i, south, row, north);
-        row[i] = row[i] + (b[i] - s) * widen(inv[i]);
+/// A level's stored rows, `1/center` and right-hand side, for the smoother's product at the
+/// cells of one colour only.
+pub(crate) struct StoredRows<'a, T> {
+    pub(crate) rows: &'a [Coeffs5<T>],
+    pub(crate) inv: &'a [f32],
+    pub(crate) b: &'a [T],
+}
+
+impl<T: Scalar> StoredRows<'_, T> {
+    /// [`Rows::relax`] on stored rows, for the cells of `colour` in the columns `cols` of row
+    /// `j` (`nx` wide): the product at those cells only, by the crate's one-cell product
+    /// (same bits as the whole-row product). Distributed levels pass their own columns; the
+    /// serial cycle all.
+    pub(crate) fn relax(
+        &self,
+        x: &mut [T],
+        nx: usize,
+        j: usize,
+        colour: usize,
+        cols: Range<usize>,
+    ) {
+        let base = j * nx;
+        let (below, rest) = x.split_at_mut(base);
+        let (row, above) = rest.split_at_mut(nx);
+        let south = (j > 0).then(|| &below[base - nx..]);
+        let north = (above.len() >= nx).then(|| &above[..nx]);
+        let (coeffs, b, inv) = (
+            &self.rows[base..][..nx],
+            &self.b[base..][..nx],
+            &self.inv[base..][..nx],
+        );
+        let first = cols.start + (cols.start + j + colour) % 2;
+        for i in (first..cols.end).step_by(2) {
+            let s = cell_product(&|i| coeffs[i], i, south, row, north);
+            row[i] = row[i] + (b[i] - s) * widen(inv[i]);
+        }
     }
 }
 
