@@ -460,6 +460,20 @@ fn failures(procs: &Processes) {
         Some(Some((last_i, last_j)))
     );
 
+    // An asymmetric coupling on the last process: distributed multigrid refuses it
+    // everywhere, naming the same cell and neighbour.
+    let lopsided = DistributedStencil::from_fn(&part, |i, j| {
+        let mut c = field.coeffs(i, j);
+        if (i, j) == (last_i - 1, last_j) {
+            c.east *= 1.5;
+        }
+        c
+    })
+    .unwrap();
+    let err = DistributedMultigrid::new(&lopsided, MultigridSettings::default()).unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::Asymmetric);
+    assert_eq!(err.location().map(|at| at.cell), Some(corner - 1));
+
     // Non-convergence: the iteration limit stops every process at the same place.
     let limited = SolveOptions::default().tolerance(1e-10).max_iterations(7);
     let reference = Partition::new(grid, Processes::single()).unwrap();

@@ -1,25 +1,4 @@
-//! The multigrid V-cycle of a [`DistributedStencil`]: the crate's hierarchy (2 × 2
-//! aggregation, operator-dependent interpolation, red-black Gauss–Seidel, see
-//! [`Multigrid`](crate::Multigrid)) with its finer levels split over the processes and its
-//! coarser ones gathered and solved on every process.
-//!
-//! * **Distributed levels.** Every level keeps the fine split, halved: a coarse cell belongs to
-//!   the process that owns its aggregate's first fine cell. A process stores its block with a
-//!   margin of [`MARGIN`](split::MARGIN) cells (filled once by a neighbour exchange) and builds
-//!   the next level's rows for its own coarse cells with the serial code on that window; the
-//!   margin is wide enough that they are the whole grid's rows, bit for bit. Each half-sweep
-//!   of the smoother, the residual and the prolongation's coarse values exchange a one- or
-//!   two-cell margin first.
-//! * **Gathered levels.** A level stays distributed while every block keeps at least
-//!   `MARGIN` cells along both axes (and the level is not the coarsest). The first level that
-//!   does not is gathered onto every process, which runs the serial V-cycle from there down
-//!   (the same hierarchy and arithmetic the whole grid has): one all-gather of its right-hand
-//!   side per cycle, no other collective.
-//! * **Same bits for any process count.** Every cell update is the serial cycle's expression
-//!   (one-cell products in the crate's summation order, restriction contributions in the
-//!   whole grid's row order), so the preconditioned residual, and with the partition's exact
-//!   sums the whole PCG solve, are the same bits on 1, 2, 3 or 4 processes — and on one
-//!   process with [`Processes::single`](super::Processes::single).
+//! The multigrid V-cycle of a [`DistributedStencil`] (see [`DistributedMultigrid`]).
 
 mod split;
 
@@ -43,11 +22,27 @@ use crate::{Coeffs5, Error, FixedCells, LinearOperator, Multigrid, MultigridSett
 const SYMMETRY_TOLERANCE: f64 = 1e-10;
 
 /// A multigrid V-cycle for a [`DistributedStencil`], as a PCG preconditioner: the hierarchy of
-/// [`Multigrid`] (same coarse operators, transfers and smoother), with the finer levels split
-/// over the processes and the coarser ones gathered (see the [module notes](self)). The result
-/// is the same bits for any number of processes and threads.
+/// [`Multigrid`] (2 × 2 aggregation, operator-dependent interpolation, red-black Gauss–Seidel;
+/// same coarse operators, transfers and smoother), with the finer levels split over the
+/// processes and the coarser ones gathered. The operator must be symmetric (PCG's use);
+/// applying the cycle allocates nothing.
 ///
-/// The operator must be symmetric (PCG's use); applying the cycle allocates nothing.
+/// * **Split levels.** Every level keeps the fine split, halved: a coarse cell belongs to the
+///   process that owns its aggregate's first fine cell. A process stores its block with a
+///   margin of 8 cells (filled once by a neighbour exchange) and builds the next level's rows
+///   for its own coarse cells with the serial code on that window; the margin is wide enough
+///   that they are the whole grid's rows, bit for bit. Each half-sweep of the smoother, the
+///   residual and the prolongation's coarse values exchange a one- or two-cell margin first.
+/// * **Gathered levels.** A level stays split while every block keeps at least 8 cells along
+///   both axes (and it is not the coarsest). The first level that does not is gathered onto
+///   every process, which runs the serial V-cycle from there down: one all-gather of its
+///   right-hand side per cycle, no other collective.
+/// * **Same bits for any process count.** Every cell update is the serial cycle's expression
+///   (one-cell products in the crate's summation order, restriction contributions in the whole
+///   grid's row order), so the preconditioned residual, and with the partition's exact sums the
+///   whole PCG solve, are the same bits on any number of processes and threads, and on one
+///   process with [`Processes::single`](super::Processes::single). PCG needs the iteration
+///   count of the serial MG-PCG.
 ///
 /// ```
 /// use quintet::distributed::{DistributedMultigrid, DistributedStencil, Partition, Processes};
@@ -111,7 +106,7 @@ impl DistributedMultigrid {
     /// The same on every process:
     /// [`ErrorKind::InvalidSetting`](crate::ErrorKind::InvalidSetting) for settings out of
     /// range; [`ErrorKind::NonPositiveCenter`](crate::ErrorKind::NonPositiveCenter) or
-    /// [`ErrorKind::NotSymmetric`](crate::ErrorKind::NotSymmetric) naming the first such cell
+    /// [`ErrorKind::Asymmetric`](crate::ErrorKind::Asymmetric) naming the first such cell
     /// of the whole grid; [`ErrorKind::PivotBreakdown`](crate::ErrorKind::PivotBreakdown) if a
     /// coarse center comes out non-positive.
     ///
@@ -126,7 +121,7 @@ impl DistributedMultigrid {
     ///     c
     /// })?;
     /// let err = DistributedMultigrid::new(&op, MultigridSettings::default()).unwrap_err();
-    /// assert_eq!(err.kind(), ErrorKind::NotSymmetric);
+    /// assert_eq!(err.kind(), ErrorKind::Asymmetric);
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn new(
@@ -381,7 +376,7 @@ fn fine_rows(
     Ok((rows, active))
 }
 
-/// `Err(NotSymmetric)` on every process, naming the first owned cell of the whole grid whose
+/// `Err(Asymmetric)` on every process, naming the first owned cell of the whole grid whose
 /// eliminated coupling towards its east or north neighbour differs from the neighbour's back
 /// (to a relative [`SYMMETRY_TOLERANCE`]).
 fn check_symmetric(op: &DistributedStencil, win: &Window, rows: &Rows) -> Result<(), Error> {
