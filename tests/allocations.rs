@@ -18,6 +18,7 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 
 use common::engines::{engines, preconditioners, Engine};
 use common::random_sdd;
+use quintet::distributed::{DistributedMultigrid, DistributedStencil, Partition, Processes};
 use quintet::prelude::*;
 use quintet::space::Threaded;
 use quintet::stop::RuleFn;
@@ -195,5 +196,19 @@ fn preconditioner_application_allocates_nothing() {
             });
             assert_eq!(n, 0, "{} allocated {n} times on {cells:?}", pre.name());
         }
+        // The distributed V-cycle (one process: every margin exchange and gather is a copy).
+        let part = Partition::new(op.grid(), Processes::single()).unwrap();
+        let dop = DistributedStencil::from_fn(&part, |i, j| op.coeffs(i, j)).unwrap();
+        let mut mg = DistributedMultigrid::new(&dop, MultigridSettings::default()).unwrap();
+        mg.apply(&dop, &Threaded, &r, &mut z);
+        let n = allocations_during(|| {
+            for _ in 0..3 {
+                mg.apply(&dop, &Threaded, &r, &mut z);
+            }
+        });
+        assert_eq!(
+            n, 0,
+            "distributed multigrid allocated {n} times on {cells:?}"
+        );
     }
 }

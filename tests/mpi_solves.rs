@@ -12,7 +12,9 @@
 //! the same order (they are collective), and a failed check panics, which ends the process
 //! with an error status that mpirun reports.
 
-use quintet::distributed::{DistributedJacobi, DistributedStencil, Partition, Processes};
+use quintet::distributed::{
+    DistributedJacobi, DistributedMultigrid, DistributedStencil, Partition, Processes,
+};
 use quintet::prelude::*;
 
 /// A deterministic generator (xorshift64, common practice): the same numbers on every process.
@@ -157,11 +159,19 @@ impl Field {
     }
 }
 
+/// The drivers run distributed.
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum Method {
+    Cg,
+    PcgJacobi,
+    PcgMultigrid(CoarseOperator),
+}
+
 /// One solve of `field` on `part`: the gathered solution (process 0) and the report.
 fn solve(
     field: &Field,
     part: &Partition,
-    pcg: bool,
+    method: Method,
     threads: usize,
     options: SolveOptions,
 ) -> (Option<Vec<f64>>, Result<Report, Error>) {
@@ -176,12 +186,22 @@ fn solve(
         .build()
         .unwrap();
     let mut ws = part.workspace(threads > 1);
-    let result = pool.install(|| {
-        if pcg {
+    let result = pool.install(|| match method {
+        Method::PcgJacobi => {
             let mut solver = Pcg::new(DistributedJacobi::new(&op).unwrap());
             *IterativeSolver::<f64>::options_mut(&mut solver) = options.clone();
             solver.solve_with(&op, &rhs, &mut x, &mut ws)
-        } else {
+        }
+        Method::PcgMultigrid(coarse_operator) => {
+            let settings = MultigridSettings {
+                coarse_operator,
+                ..Default::default()
+            };
+            let mut solver = Pcg::new(DistributedMultigrid::new(&op, settings).unwrap());
+            *IterativeSolver::<f64>::options_mut(&mut solver) = options.clone();
+            solver.solve_with(&op, &rhs, &mut x, &mut ws)
+        }
+        Method::Cg => {
             let mut solver = Cg::default();
             *IterativeSolver::<f64>::options_mut(&mut solver) = options.clone();
             solver.solve_with(&op, &rhs, &mut x, &mut ws)
@@ -214,20 +234,24 @@ fn bit_identical_solves(procs: &Processes) {
     for (nx, ny, storage, threads) in [(37, 29, 0.5, vec![1]), (400, 330, 0.05, vec![1, 2])] {
         let field = Field::new(nx, ny, storage);
         let reference = Partition::new(field.grid, single.clone()).unwrap();
-        for pcg in [false, true] {
-            if nx > 100 && !pcg {
-                continue; // the large case checks the threads with PCG only
+        let multigrid = [CoarseOperator::Upscaled, CoarseOperator::LumpedGalerkin];
+        let methods = [Method::Cg, Method::PcgJacobi]
+            .into_iter()
+            .chain(multigrid.map(Method::PcgMultigrid));
+        for method in methods {
+            if nx > 100 && method == Method::Cg {
+                continue; // the large case checks the threads with preconditioned CG only
             }
-            let (x_ref, r_ref) = solve(&field, &reference, pcg, 1, options.clone());
+            let (x_ref, r_ref) = solve(&field, &reference, method, 1, options.clone());
             let r_ref = r_ref.expect("the reference solve converges");
             let x_ref = x_ref.expect("one process gathers");
             for (px, py) in process_grids(field.grid, procs.count()) {
                 let part = Partition::with_process_grid(field.grid, procs.clone(), px, py).unwrap();
                 for &t in &threads {
-                    let (x, report) = solve(&field, &part, pcg, t, options.clone());
+                    let (x, report) = solve(&field, &part, method, t, options.clone());
                     let report = report.expect("the distributed solve converges");
                     let what =
-                        format!("{nx} x {ny}, pcg {pcg}, {px} x {py} processes, {t} threads");
+                        format!("{nx} x {ny}, {method:?}, {px} x {py} processes, {t} threads");
                     assert!(same_report(&report, &r_ref), "report: {what}");
                     if let Some(x) = x {
                         assert!(same_bits(&x, &x_ref), "solution: {what}");
@@ -236,12 +260,55 @@ fn bit_identical_solves(procs: &Processes) {
             }
             if procs.rank() == 0 {
                 println!(
-                    "{nx} x {ny} {}: {} iterations, identical on {} processes",
-                    if pcg { "PCG + Jacobi" } else { "CG" },
+                    "{nx} x {ny} {method:?}: {} iterations, identical on {} processes",
                     r_ref.iterations,
                     procs.count()
                 );
             }
+        }
+    }
+}
+
+/// Distributed MG-PCG needs as many iterations as the serial MG-PCG (`Multigrid<f64>` on a
+/// `Banded5` with the same rows and fixed cells): the same hierarchy, the same cycle.
+fn multigrid_counts(procs: &Processes) {
+    let options = SolveOptions::default().tolerance(1e-10);
+    for (nx, ny) in [(37, 29), (200, 150)] {
+        let field = Field::new(nx, ny, 0.0);
+        let grid = field.grid;
+        let banded = Banded5::from_fn(grid, |i, j| field.coeffs(i, j))
+            .unwrap()
+            .with_fixed(
+                FixedCells::new(
+                    grid,
+                    (0..grid.cells()).filter(|&k| {
+                        let (i, j) = grid.coords(k);
+                        field.fixed(i, j)
+                    }),
+                )
+                .unwrap(),
+            )
+            .unwrap();
+        let rhs: Vec<f64> = (0..grid.cells())
+            .map(|k| field.rhs(k % nx, k / nx))
+            .collect();
+        let mut x: Vec<f64> = (0..grid.cells())
+            .map(|k| field.start(k % nx, k / nx))
+            .collect();
+        let mut serial =
+            Pcg::new(Multigrid::<f64>::new(&banded, MultigridSettings::default()).unwrap());
+        *IterativeSolver::<f64>::options_mut(&mut serial) = options.clone();
+        let serial = serial.solve(&banded, &rhs, &mut x).unwrap();
+        let part = Partition::new(grid, procs.clone()).unwrap();
+        let method = Method::PcgMultigrid(CoarseOperator::Upscaled);
+        let (_, report) = solve(&field, &part, method, 1, options.clone());
+        let report = report.unwrap();
+        assert_eq!(report.iterations, serial.iterations, "{nx} x {ny}");
+        if procs.rank() == 0 {
+            println!(
+                "{nx} x {ny}: MG-PCG {} iterations, distributed and serial",
+                report.iterations
+            );
         }
     }
 }
@@ -254,15 +321,26 @@ fn against_dense_lu(procs: &Processes) {
     let field = Field::new(29, 23, 0.0);
     let tol = 1e-10;
     let part = Partition::new(field.grid, procs.clone()).unwrap();
-    let (x, report) = solve(
-        &field,
-        &part,
-        true,
-        1,
-        SolveOptions::default().tolerance(tol),
-    );
-    let report = report.unwrap();
-    let Some(x) = x else { return };
+    let methods = [
+        Method::PcgJacobi,
+        Method::PcgMultigrid(CoarseOperator::Upscaled),
+    ];
+    for method in methods {
+        let (x, report) = solve(
+            &field,
+            &part,
+            method,
+            1,
+            SolveOptions::default().tolerance(tol),
+        );
+        if let Some(x) = x {
+            close_to_dense_lu(&field, &x, &report.unwrap(), tol);
+        }
+    }
+}
+
+/// `x` within the bound of [`against_dense_lu`].
+fn close_to_dense_lu(field: &Field, x: &[f64], report: &Report, tol: f64) {
     let grid = field.grid;
     let free: Vec<usize> = (0..grid.cells())
         .filter(|&k| {
@@ -304,7 +382,10 @@ fn against_dense_lu(procs: &Processes) {
     let bound = 2.0 * tol * b.norm() / lambda_min + 1e-12 * exact.norm();
     assert!(report.converged());
     assert!(error <= bound, "error {error:e} above the bound {bound:e}");
-    println!("29 x 23 against dense LU: error {error:.3e}, bound {bound:.3e}");
+    println!(
+        "29 x 23 {} against dense LU: error {error:.3e}, bound {bound:.3e}",
+        report.method
+    );
 }
 
 /// A bad coefficient, a bad center and a bad right-hand side on the last process's block:
@@ -379,11 +460,25 @@ fn failures(procs: &Processes) {
         Some(Some((last_i, last_j)))
     );
 
+    // An asymmetric coupling on the last process: distributed multigrid refuses it
+    // everywhere, naming the same cell and neighbour.
+    let lopsided = DistributedStencil::from_fn(&part, |i, j| {
+        let mut c = field.coeffs(i, j);
+        if (i, j) == (last_i - 1, last_j) {
+            c.east *= 1.5;
+        }
+        c
+    })
+    .unwrap();
+    let err = DistributedMultigrid::new(&lopsided, MultigridSettings::default()).unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::Asymmetric);
+    assert_eq!(err.location().map(|at| at.cell), Some(corner - 1));
+
     // Non-convergence: the iteration limit stops every process at the same place.
     let limited = SolveOptions::default().tolerance(1e-10).max_iterations(7);
     let reference = Partition::new(grid, Processes::single()).unwrap();
-    let (x_ref, r_ref) = solve(&field, &reference, true, 1, limited.clone());
-    let (x, result) = solve(&field, &part, true, 1, limited);
+    let (x_ref, r_ref) = solve(&field, &reference, Method::PcgJacobi, 1, limited.clone());
+    let (x, result) = solve(&field, &part, Method::PcgJacobi, 1, limited);
     let (e_ref, e) = (r_ref.unwrap_err(), result.unwrap_err());
     assert_eq!(e.kind(), ErrorKind::NotConverged);
     assert!(same_report(e.report().unwrap(), e_ref.report().unwrap()));
@@ -404,6 +499,7 @@ fn main() {
     let procs = Processes::mpi_world().expect("MPI starts");
     halo_products(&procs);
     bit_identical_solves(&procs);
+    multigrid_counts(&procs);
     against_dense_lu(&procs);
     failures(&procs);
     if procs.rank() == 0 {

@@ -7,7 +7,10 @@
 //! partition's [`Workspace`](crate::Workspace): CG and PCG with [`DistributedJacobi`] run
 //! unchanged, through the one loop, the same monitor, stop rules and report (tested bit for
 //! bit on 1–4 processes; the other drivers that need only a `LinearOperator` go through the
-//! same seams but are not tested distributed yet). Multigrid is not distributed yet.
+//! same seams but are not tested distributed yet). [`DistributedMultigrid`] is the crate's
+//! multigrid V-cycle with its finer levels split over the processes and its coarser levels
+//! gathered: PCG with it needs the iteration count of the serial MG-PCG (a handful, whatever
+//! the grid), with the same bits on any number of processes.
 //!
 //! - **Halo.** Before every product the operator exchanges one row or column of values with
 //!   each neighbour (non-blocking sends and receives, `8·(2·nx_local + 2·ny_local)` bytes per
@@ -56,6 +59,7 @@ mod jacobi;
 mod layout;
 #[cfg(feature = "mpi")]
 mod mpi_world;
+mod multigrid;
 mod partition;
 mod processes;
 mod space;
@@ -63,6 +67,7 @@ mod stencil;
 mod transport;
 
 pub use jacobi::DistributedJacobi;
+pub use multigrid::DistributedMultigrid;
 pub use partition::Partition;
 pub use processes::Processes;
 pub use stencil::DistributedStencil;

@@ -278,6 +278,11 @@ impl DistributedStencil {
         &self.part
     }
 
+    /// The five bands (center, west, east, south, north) of the owned cells.
+    pub(crate) fn bands(&self) -> &[Vec<f64>; 5] {
+        &self.bands
+    }
+
     /// The center coefficients of the owned cells.
     pub(crate) fn centers(&self) -> &[f64] {
         &self.bands[0]

@@ -13,7 +13,7 @@ use std::ops::Range;
 
 pub use fixed::FixedCells;
 pub use rows::Coeffs5;
-pub(crate) use rows::{row_neighbourhood, row_product, row_sums_to_zero};
+pub(crate) use rows::{cell_product, row_neighbourhood, row_product, row_sums_to_zero};
 
 use crate::error::{Error, Location, Shape};
 use crate::grid::Grid;

@@ -193,9 +193,12 @@ pub(crate) fn row_product<T: Scalar>(
     }
 }
 
-/// `(A·x)_i` for one cell of a row, with the couplings towards missing neighbours left out.
+/// `(A·x)_i` for one cell of a row, with the couplings towards missing neighbours left out:
+/// the one summation order (center, west, east, south, north) every product of the crate
+/// uses, so that smoothers and distributed levels that compute single cells give the bits of
+/// the whole-row product.
 #[inline(always)]
-fn cell_product<T: Scalar>(
+pub(crate) fn cell_product<T: Scalar>(
     coeffs: &impl Fn(usize) -> Coeffs5<T>,
     i: usize,
     south: Option<&[T]>,

@@ -475,13 +475,15 @@ impl Transfer<'_> {
         ]
     }
 
-    /// `coarse_b += Pᵀ·r` for the fine row `j` (`r` that row's residual), cells where
-    /// `!active(k)` left out; cells in order, each cell's four targets in the order of
-    /// [`stencil`](Self::stencil).
+    /// `coarse_b += Pᵀ·r` for the cells `cols` of the fine row `j` (`r` that whole row's
+    /// residual), cells where `!active(k)` left out; cells in order, each cell's four targets
+    /// in the order of [`stencil`](Self::stencil). Distributed levels pass their own columns
+    /// and a one-cell margin; the serial cycle all.
     #[inline]
     pub(crate) fn restrict_row<T: Scalar>(
         &self,
         j: usize,
+        cols: Range<usize>,
         r: &[T],
         active: impl Fn(usize) -> bool,
         coarse_b: &mut [T],
@@ -493,7 +495,11 @@ impl Transfer<'_> {
             self.ay.neighbour(j) * self.ncx,
         );
         let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
-        for (i, ((&r, &wx), &wy)) in r.iter().zip(wx).zip(wy).enumerate() {
+        let cells = r[cols.clone()]
+            .iter()
+            .zip(&wx[cols.clone()])
+            .zip(&wy[cols.clone()]);
+        for (i, ((&r, &wx), &wy)) in cols.zip(cells) {
             if !active(base + i) {
                 continue;
             }
@@ -503,11 +509,13 @@ impl Transfer<'_> {
         }
     }
 
-    /// `x += P·coarse_x` on the fine row `j` (`x` that row), cells where `!active(k)` left out.
+    /// `x += P·coarse_x` on the cells `cols` of the fine row `j` (`x` that whole row), cells
+    /// where `!active(k)` left out.
     #[inline]
     pub(crate) fn prolong_row<T: Scalar>(
         &self,
         j: usize,
+        cols: Range<usize>,
         x: &mut [T],
         active: impl Fn(usize) -> bool,
         coarse_x: &[T],
@@ -519,7 +527,11 @@ impl Transfer<'_> {
             self.ay.neighbour(j) * self.ncx,
         );
         let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
-        for (i, ((v, &wx), &wy)) in x.iter_mut().zip(wx).zip(wy).enumerate() {
+        let cells = x[cols.clone()]
+            .iter_mut()
+            .zip(&wx[cols.clone()])
+            .zip(&wy[cols.clone()]);
+        for (i, ((v, &wx), &wy)) in cols.zip(cells) {
             if !active(base + i) {
                 continue;
             }

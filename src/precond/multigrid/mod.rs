@@ -63,8 +63,9 @@ mod skew;
 mod smooth;
 
 use direct::{CoarsestSolve, MAX_DIRECT_CELLS};
-use level::Level;
+pub(crate) use level::{active_cells, inverse_centers, Level, LevelOperator};
 use smooth::Rows;
+pub(crate) use smooth::{relax_from_zero, StoredRows};
 
 use super::{check_built_for, Preconditioner};
 use crate::iterate::{IterativeSolver, NameCache, Requires, SolveOptions, Task, Workspace};
@@ -132,6 +133,32 @@ pub struct MultigridSettings {
     pub energy_step: bool,
     /// How coarse operators are built. Default [`CoarseOperator::Upscaled`].
     pub coarse_operator: CoarseOperator,
+}
+
+impl MultigridSettings {
+    /// `Err(InvalidSetting)` for settings out of range.
+    pub(crate) fn check(&self) -> Result<(), Error> {
+        let bad = |name, value: usize, allowed| Err(Error::setting(name, value as f64, allowed));
+        if !(1..=16).contains(&self.smoothing_sweeps) {
+            return bad("smoothing_sweeps", self.smoothing_sweeps, "1 to 16 sweeps");
+        }
+        if !(1..=MAX_DIRECT_CELLS).contains(&self.coarsest_cells) {
+            return bad("coarsest_cells", self.coarsest_cells, "1 to 4096 cells");
+        }
+        if self.max_levels == 0 {
+            return bad("max_levels", 0, "at least 1 level");
+        }
+        Ok(())
+    }
+
+    /// Whether a level on `grid`, below `coarse_levels_above` coarse levels (0 for the fine
+    /// level), is the coarsest of the hierarchy (solved directly).
+    pub(crate) fn is_coarsest(&self, grid: Grid, coarse_levels_above: usize) -> bool {
+        let shrinks = grid.nx() > 1 || grid.ny() > 1;
+        grid.cells() <= self.coarsest_cells
+            || !shrinks
+            || coarse_levels_above + 1 >= self.max_levels
+    }
 }
 
 impl Default for MultigridSettings {
@@ -224,20 +251,7 @@ impl<T: Scalar> Multigrid<T> {
         op: &S,
         settings: MultigridSettings,
     ) -> Result<Multigrid<T>, Error> {
-        let bad = |name, value: usize, allowed| Err(Error::setting(name, value as f64, allowed));
-        if !(1..=16).contains(&settings.smoothing_sweeps) {
-            return bad(
-                "smoothing_sweeps",
-                settings.smoothing_sweeps,
-                "1 to 16 sweeps",
-            );
-        }
-        if !(1..=MAX_DIRECT_CELLS).contains(&settings.coarsest_cells) {
-            return bad("coarsest_cells", settings.coarsest_cells, "1 to 4096 cells");
-        }
-        if settings.max_levels == 0 {
-            return bad("max_levels", 0, "at least 1 level");
-        }
+        settings.check()?;
         super::check_centers(op)?;
         let grid = op.grid();
         let fine = op;
@@ -247,11 +261,7 @@ impl<T: Scalar> Multigrid<T> {
         let mut levels: Vec<Level<T>> = Vec::new();
         loop {
             let current = levels.last().map_or(grid, |l| l.op.grid);
-            let shrinks = current.nx() > 1 || current.ny() > 1;
-            if current.cells() <= settings.coarsest_cells
-                || !shrinks
-                || levels.len() + 1 >= settings.max_levels
-            {
+            if settings.is_coarsest(current, levels.len()) {
                 break;
             }
             let rule = settings.coarse_operator;
@@ -376,7 +386,13 @@ impl<T: Scalar> Multigrid<T> {
     /// with the residual's restriction, and the prolongation with post-smoothing. The passes
     /// are serial, so `_space` decides nothing here and the result is the same for any
     /// thread count.
-    fn cycle(&mut self, fine: &dyn Stencil5<T>, _space: &dyn Space, r: &[T], z: &mut [T]) {
+    pub(crate) fn cycle(
+        &mut self,
+        fine: &dyn Stencil5<T>,
+        _space: &dyn Space,
+        r: &[T],
+        z: &mut [T],
+    ) {
         let n = self.grid.cells();
         if r.len() < n || z.len() < n || fine.grid() != self.grid {
             return;

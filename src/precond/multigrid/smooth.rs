@@ -20,8 +20,10 @@
 //! half-sweep at a time, and the pass is serial, which keeps them independent of the thread
 //! count.
 
+use std::ops::Range;
+
 use super::level::{active_cells, Transfer};
-use crate::operator::Stencil5;
+use crate::operator::{cell_product, Stencil5};
 use crate::{Coeffs5, Scalar};
 
 /// The rows of one level being smoothed: operator, `1/center` (zero at inactive cells, so they
@@ -42,7 +44,12 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
     fn relax(&self, x: &mut [T], buf: &mut [T], j: usize, colour: usize) {
         let nx = buf.len();
         if let Some(rows) = self.stored {
-            relax_stored(rows, self.inv, self.b, x, nx, j, colour);
+            let stored = StoredRows {
+                rows,
+                inv: self.inv,
+                b: self.b,
+            };
+            stored.relax(x, nx, j, colour, 0..nx);
             return;
         }
         self.op.apply_rows(j..j + 1, x, buf);
@@ -55,24 +62,6 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
         let first = (j + colour) % 2;
         for i in (first..nx).step_by(2) {
             x_row[i] = x_row[i] + (b_row[i] - buf[i]) * widen(d_row[i]);
-        }
-    }
-
-    /// The first half-sweep from `x = 0` on row `j`: colour 0 takes `b/center`, colour 1 zero.
-    #[inline]
-    fn relax_from_zero(&self, x: &mut [T], nx: usize, j: usize) {
-        let base = j * nx;
-        let (x_row, b_row, d_row) = (
-            &mut x[base..][..nx],
-            &self.b[base..][..nx],
-            &self.inv[base..][..nx],
-        );
-        let first = j % 2;
-        for i in (first..nx).step_by(2) {
-            x_row[i] = b_row[i] * widen(d_row[i]);
-        }
-        for i in (1 - first..nx).step_by(2) {
-            x_row[i] = T::zero();
         }
     }
 
@@ -96,7 +85,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
             for s in 0..sweeps {
                 if let Some(j) = at(t, 2 * s) {
                     if s == 0 {
-                        self.relax_from_zero(x, nx, j);
+                        relax_from_zero(self.inv, self.b, x, nx, j, 0..nx);
                     } else {
                         self.relax(x, buf, j, 0);
                     }
@@ -113,7 +102,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
                 for (ri, &bi) in buf.iter_mut().zip(b_row) {
                     *ri = bi - *ri;
                 }
-                transfer.restrict_row(j, buf, &active, coarse_b);
+                transfer.restrict_row(j, 0..nx, buf, &active, coarse_b);
             }
         }
     }
@@ -133,7 +122,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
         let buf = &mut buf[..nx];
         let active = active_cells(self.op);
         let prolong = |x: &mut [T], j: usize| {
-            transfer.prolong_row(j, &mut x[j * nx..][..nx], &active, coarse_x);
+            transfer.prolong_row(j, 0..nx, &mut x[j * nx..][..nx], &active, coarse_x);
         };
         prolong(x, 0);
         let at = |t: usize, back: usize| t.checked_sub(back).filter(|&j| j < ny);
@@ -154,41 +143,64 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
     }
 }
 
-/// [`Rows::relax`] on stored rows: the product at the cells of `colour` only, each in the
-/// summation order of every row product (center, west, east, south, north; terms towards
-/// missing neighbours left out), so the same bits as the whole-row product.
-fn relax_stored<T: Scalar>(
-    rows: &[Coeffs5<T>],
+/// A level's stored rows, `1/center` and right-hand side, for the smoother's product at the
+/// cells of one colour only.
+pub(crate) struct StoredRows<'a, T> {
+    pub(crate) rows: &'a [Coeffs5<T>],
+    pub(crate) inv: &'a [f32],
+    pub(crate) b: &'a [T],
+}
+
+impl<T: Scalar> StoredRows<'_, T> {
+    /// [`Rows::relax`] on stored rows, for the cells of `colour` in the columns `cols` of row
+    /// `j` (`nx` wide): the product at those cells only, by the crate's one-cell product
+    /// (same bits as the whole-row product). Distributed levels pass their own columns; the
+    /// serial cycle all.
+    pub(crate) fn relax(
+        &self,
+        x: &mut [T],
+        nx: usize,
+        j: usize,
+        colour: usize,
+        cols: Range<usize>,
+    ) {
+        let base = j * nx;
+        let (below, rest) = x.split_at_mut(base);
+        let (row, above) = rest.split_at_mut(nx);
+        let south = (j > 0).then(|| &below[base - nx..]);
+        let north = (above.len() >= nx).then(|| &above[..nx]);
+        let (coeffs, b, inv) = (
+            &self.rows[base..][..nx],
+            &self.b[base..][..nx],
+            &self.inv[base..][..nx],
+        );
+        let first = cols.start + (cols.start + j + colour) % 2;
+        for i in (first..cols.end).step_by(2) {
+            let s = cell_product(&|i| coeffs[i], i, south, row, north);
+            row[i] = row[i] + (b[i] - s) * widen(inv[i]);
+        }
+    }
+}
+
+/// The first half-sweep from `x = 0` on the columns `cols` of row `j`: the cells of colour 0
+/// take `b/center`, the others zero.
+pub(crate) fn relax_from_zero<T: Scalar>(
     inv: &[f32],
     b: &[T],
     x: &mut [T],
     nx: usize,
     j: usize,
-    colour: usize,
+    cols: Range<usize>,
 ) {
     let base = j * nx;
-    let (below, rest) = x.split_at_mut(base);
-    let (row, above) = rest.split_at_mut(nx);
-    let south = (j > 0).then(|| &below[base - nx..]);
-    let north = (above.len() >= nx).then(|| &above[..nx]);
-    let (coeffs, b, inv) = (&rows[base..][..nx], &b[base..][..nx], &inv[base..][..nx]);
-    let first = (j + colour) % 2;
-    for i in (first..nx).step_by(2) {
-        let c = coeffs[i];
-        let mut s = c.center * row[i];
-        if i > 0 {
-            s = s + c.west * row[i - 1];
-        }
-        if i + 1 < nx {
-            s = s + c.east * row[i + 1];
-        }
-        if let Some(xs) = south {
-            s = s + c.south * xs[i];
-        }
-        if let Some(xn) = north {
-            s = s + c.north * xn[i];
-        }
-        row[i] = row[i] + (b[i] - s) * widen(inv[i]);
+    let (x_row, b_row, d_row) = (&mut x[base..][..nx], &b[base..][..nx], &inv[base..][..nx]);
+    let first = cols.start + (cols.start + j) % 2;
+    for i in (first..cols.end).step_by(2) {
+        x_row[i] = b_row[i] * widen(d_row[i]);
+    }
+    let other = cols.start + (cols.start + j + 1) % 2;
+    for i in (other..cols.end).step_by(2) {
+        x_row[i] = T::zero();
     }
 }
 
