@@ -219,6 +219,10 @@ mod steady;
 mod transient;
 mod update;
 
+pub(crate) use assemble::{assemble_rows, Rows};
+pub(crate) use book::Book;
+pub(crate) use steady::settle;
+
 pub use advection::{AdvectionScheme, FaceFlows};
 pub use axis::{Axis, AxisLayout};
 pub use book::Forcing;
