@@ -4,13 +4,15 @@
 //! MPI, or MPI's world with the `mpi` feature). Each process builds only its block of a
 //! [`DistributedStencil`] (from a closure of the global `(i, j)` or from its slices of the
 //! bands), keeps vectors of its own cells, and solves with the crate's drivers in the
-//! partition's [`Workspace`](crate::Workspace): CG and PCG with [`DistributedJacobi`] run
-//! unchanged, through the one loop, the same monitor, stop rules and report (tested bit for
-//! bit on 1–4 processes; the other drivers that need only a `LinearOperator` go through the
-//! same seams but are not tested distributed yet). [`DistributedMultigrid`] is the crate's
+//! partition's [`Workspace`](crate::Workspace): CG and PCG with [`DistributedJacobi`],
+//! BiCGSTAB and GMRES run unchanged, through the one loop, the same monitor, stop rules and
+//! report (tested bit for bit on 1–4 processes). [`DistributedMultigrid`] is the crate's
 //! multigrid V-cycle with its finer levels split over the processes and its coarser levels
 //! gathered: PCG with it needs the iteration count of the serial MG-PCG (a handful, whatever
-//! the grid), with the same bits on any number of processes.
+//! the grid), with the same bits on any number of processes. A [`DistributedSystem`]
+//! assembles each process's block of a steady [`Model`](crate::model::Model) and sums its
+//! budget exactly over the processes (the same [`Budget`](crate::model::Budget) everywhere,
+//! for any process count).
 //!
 //! - **Halo.** Before every product the operator exchanges one row or column of values with
 //!   each neighbour (non-blocking sends and receives, `8·(2·nx_local + 2·ny_local)` bytes per
@@ -57,6 +59,7 @@
 mod exact;
 mod jacobi;
 mod layout;
+mod model;
 #[cfg(feature = "mpi")]
 mod mpi_world;
 mod multigrid;
@@ -67,6 +70,7 @@ mod stencil;
 mod transport;
 
 pub use jacobi::DistributedJacobi;
+pub use model::DistributedSystem;
 pub use multigrid::DistributedMultigrid;
 pub use partition::Partition;
 pub use processes::Processes;

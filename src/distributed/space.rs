@@ -105,6 +105,30 @@ impl ExactSpace {
     }
 }
 
+/// The exact totals over all `processes` of any number of sums (one collective): each
+/// process's [`ExactSum`]s are packed, all-gathered and merged as integers, then rounded once,
+/// so the totals do not depend on how the values were spread over the processes.
+pub(crate) fn exact_totals(processes: &super::Processes, sums: &mut [ExactSum]) -> Vec<f64> {
+    let width = sums.len() * PACKED;
+    let mut send = vec![0i64; width];
+    for (sum, out) in sums.iter_mut().zip(send.chunks_exact_mut(PACKED)) {
+        sum.pack(out);
+    }
+    let size = processes.count();
+    let mut recv = vec![0i64; width * size];
+    processes.transport.all_gather(&send, &mut recv);
+    (0..sums.len())
+        .map(|c| {
+            let mut total = ExactSum::default();
+            for r in 0..size {
+                let at = r * width + c * PACKED;
+                total.merge_packed(&recv[at..at + PACKED]);
+            }
+            total.round()
+        })
+        .collect()
+}
+
 /// The larger or smaller of two values (NaN-ignoring, as `f64::max` and `f64::min`).
 fn extreme(op: Combine, a: f64, b: f64) -> f64 {
     match op {

@@ -288,6 +288,25 @@ impl DistributedStencil {
         &self.bands[0]
     }
 
+    /// The value of global cell `k` in the halo filled by the last exchange, if `k` is next
+    /// to this process's block across one of its edges.
+    pub(crate) fn halo_cell(&self, k: usize) -> Option<f64> {
+        let l = &self.part.layout;
+        let (i, j) = (k % l.grid.nx(), k / l.grid.nx());
+        let (side, at) = if l.j.contains(&j) && i + 1 == l.i.start {
+            (WEST, j - l.j.start)
+        } else if l.j.contains(&j) && i == l.i.end {
+            (EAST, j - l.j.start)
+        } else if l.i.contains(&i) && j + 1 == l.j.start {
+            (SOUTH, i - l.i.start)
+        } else if l.i.contains(&i) && j == l.j.end {
+            (NORTH, i - l.i.start)
+        } else {
+            return None;
+        };
+        self.neighbours[side].map(|_| self.halo_value(side, at))
+    }
+
     #[inline]
     fn halo_value(&self, side: usize, at: usize) -> f64 {
         f64::from_bits(self.halo[side][at].load(Ordering::Relaxed))

@@ -8,6 +8,8 @@
 //! conductivities over the node spacing (Patankar 1980, *Numerical Heat Transfer and Fluid
 //! Flow*, §4.2).
 
+use std::ops::Range;
+
 use super::axis::AxisLayout;
 use super::book::{Action, Book};
 use super::budget::FlowKind;
@@ -15,8 +17,54 @@ use super::geometry::Geometry;
 use super::medium::ConductivityBasis;
 use super::spec::{Model, Spec, Target};
 use crate::error::Location;
-use crate::space::first_flagged;
+use crate::space::{first_flagged, Space};
 use crate::{memory, Error, Grid, Side};
+
+/// The cells whose rows an assembly builds: the whole grid, or one process's block of a
+/// distributed system. Bands and capacity are numbered `i + nx_rows·j` from the block's
+/// south-west corner (the global numbering for the whole grid); the book's slots keep global
+/// cell numbers.
+#[derive(Clone, Debug)]
+pub(crate) struct Rows {
+    nx: usize,
+    i: Range<usize>,
+    j: Range<usize>,
+}
+
+impl Rows {
+    /// Every cell of `grid`.
+    pub(crate) fn whole(grid: Grid) -> Rows {
+        Rows::block(grid, 0..grid.nx(), 0..grid.ny())
+    }
+
+    /// The cells `i × j` of `grid`.
+    pub(crate) fn block(grid: Grid, i: Range<usize>, j: Range<usize>) -> Rows {
+        Rows {
+            nx: grid.nx(),
+            i,
+            j,
+        }
+    }
+
+    /// The number of rows.
+    pub(crate) fn len(&self) -> usize {
+        self.i.len() * self.j.len()
+    }
+
+    /// The row number of global cell `k`, if the block holds it.
+    pub(crate) fn local(&self, k: usize) -> Option<usize> {
+        let (i, j) = (k % self.nx, k / self.nx);
+        (self.i.contains(&i) && self.j.contains(&j))
+            .then(|| (i - self.i.start) + self.i.len() * (j - self.j.start))
+    }
+
+    /// The global cells of the block, in row order.
+    pub(crate) fn cells(&self) -> impl Iterator<Item = usize> + '_ {
+        self.j
+            .clone()
+            .flat_map(move |j| self.i.clone().map(move |i| i + self.nx * j))
+    }
+}
 
 /// A connected group of free cells with nothing that sets its level.
 #[derive(Clone, Debug, PartialEq)]
@@ -61,7 +109,16 @@ pub(crate) fn assemble(model: &Model, transient: bool) -> Result<Assembly, Error
     let mut bands: [Vec<f64>; 5] = Default::default();
     let mut book = Book::new(model.tag, grid);
     let mut capacity = Vec::new();
-    let found = fill(model, transient, bands.each_mut(), &mut book, &mut capacity)?;
+    let rows = Rows::whole(grid);
+    let space = &*model.space;
+    let found = fill(
+        model,
+        transient,
+        (&rows, space),
+        bands.each_mut(),
+        &mut book,
+        &mut capacity,
+    )?;
     Ok(Assembly {
         grid,
         bands,
@@ -88,16 +145,42 @@ pub(crate) fn reassemble(
     capacity: &mut Vec<f64>,
 ) -> Result<Found, Error> {
     book.rewind();
-    let found = fill(model, transient, bands, book, capacity);
+    let rows = Rows::whole(model.geometry.grid());
+    let space = &*model.space;
+    let found = fill(model, transient, (&rows, space), bands, book, capacity);
     book.end_refill();
     found
 }
 
+/// The steady assembly of the rows of one block of `model`'s grid (a process's part of a
+/// distributed system): its bands, and a book holding the slots of its cells only. Checks of
+/// the whole model run in `space` (on every process alike); the floating regions are those of
+/// the whole grid.
+pub(crate) fn assemble_rows(
+    model: &Model,
+    rows: &Rows,
+    space: &dyn Space,
+) -> Result<([Vec<f64>; 5], Book, Found), Error> {
+    let mut bands: [Vec<f64>; 5] = Default::default();
+    let mut book = Book::new(model.tag, model.geometry.grid());
+    let mut capacity = Vec::new();
+    let found = fill(
+        model,
+        false,
+        (rows, space),
+        bands.each_mut(),
+        &mut book,
+        &mut capacity,
+    )?;
+    Ok((bands, book, found))
+}
+
 /// The assembly proper: bands, capacity and book (created, or refreshed when the book is
-/// rewound).
+/// rewound) of the cells in `rows`; checks of the whole model run in `space`.
 fn fill(
     model: &Model,
     transient: bool,
+    (rows, space): (&Rows, &dyn Space),
     bands: [&mut Vec<f64>; 5],
     book: &mut Book,
     capacity: &mut Vec<f64>,
@@ -105,7 +188,7 @@ fn fill(
     let g = &model.geometry;
     let grid = g.grid();
     let n = grid.cells();
-    check_medium(model, transient)?;
+    check_medium(model, space, transient)?;
 
     // Prescribed values held at nodes: the last condition to reach a cell owns it.
     let mut owner: Vec<Option<(usize, usize)>> = memory::filled("the assembly", n, None)?;
@@ -140,26 +223,20 @@ fn fill(
         .map(|k| owner[k].is_some() || !model.active[k])
         .collect();
 
-    // Face conductances towards the east and north neighbours.
-    let mut east_c = memory::filled("the face conductances", n, 0.0)?;
-    let mut north_c = memory::filled("the face conductances", n, 0.0)?;
-    for k in 0..n {
-        for (side, store) in [(Side::East, &mut east_c), (Side::North, &mut north_c)] {
-            if let Some(nb) = grid.neighbour(k, side) {
-                if model.active[k] && model.active[nb] {
-                    let r = resistance(model, k, side) + resistance(model, nb, side.opposite());
-                    store[k] = if r > 0.0 { 1.0 / r } else { 0.0 };
+    // The face conductance between `k` and its neighbour on `side` (computed where it is
+    // needed, so that a block's rows need no array of the whole grid; the two half-cell
+    // resistances add to the same bits from either side).
+    let face = |k: usize, side: Side| -> f64 {
+        match grid.neighbour(k, side) {
+            Some(nb) if model.active[k] && model.active[nb] => {
+                let r = resistance(model, k, side) + resistance(model, nb, side.opposite());
+                if r > 0.0 {
+                    1.0 / r
+                } else {
+                    0.0
                 }
             }
-        }
-    }
-    let face = |k: usize, side: Side| -> f64 {
-        match (side, grid.neighbour(k, side)) {
-            (_, None) => 0.0,
-            (Side::East, Some(_)) => east_c[k],
-            (Side::North, Some(_)) => north_c[k],
-            (Side::West, Some(nb)) => east_c[nb],
-            (Side::South, Some(nb)) => north_c[nb],
+            _ => 0.0,
         }
     };
 
@@ -189,7 +266,7 @@ fn fill(
     let mut bands = bands;
     for (b, band) in bands.iter_mut().enumerate() {
         band.clear();
-        band.extend((0..n).map(|k| match (model.active[k], b) {
+        band.extend(rows.cells().map(|k| match (model.active[k], b) {
             (false, 0) => 1.0,
             (false, _) => 0.0,
             (true, 0) => Side::ALL.into_iter().map(|side| coefficient(k, side)).sum(), // local: one cell's four faces
@@ -199,7 +276,7 @@ fn fill(
     // Symmetric unless some flow crosses a face between two active cells (found through the
     // model's space, so every process agrees).
     let symmetric = advection.is_none()
-        || first_flagged(&*model.space, n, |k| {
+        || first_flagged(space, n, |k| {
             [Side::East, Side::North]
                 .into_iter()
                 .any(|side| grid.neighbour(k, side).is_some() && carried(k, side) != 0.0)
@@ -238,9 +315,11 @@ fn fill(
                 for (t, k) in g.edge(*side).into_iter().enumerate() {
                     if model.active[k] {
                         let w = 1.0 / resistance(model, k, *side);
-                        book.push(k, w, values.at(t));
-                        bands[0][k] += w;
                         anchored[k] |= w > 0.0;
+                        if let Some(l) = rows.local(k) {
+                            book.push(k, w, values.at(t));
+                            bands[0][l] += w;
+                        }
                     }
                 }
             }
@@ -255,13 +334,18 @@ fn fill(
                     if owner[k] != Some((c, t)) {
                         continue;
                     }
-                    book.push(k, 0.0, values.at(t));
+                    let held = rows.local(k).is_some();
+                    if held {
+                        book.push(k, 0.0, values.at(t));
+                    }
                     // Every neighbour is linked, conducting or not, so that the slots keep
                     // their shape when the conductivity changes in place.
                     for side in Side::ALL {
                         if let Some(nb) = grid.neighbour(k, side) {
-                            let cf = coefficient(k, side);
-                            book.link(nb, cf, carried(k, side));
+                            if held {
+                                let cf = coefficient(k, side);
+                                book.link(nb, cf, carried(k, side));
+                            }
                             anchored[nb] |= coefficient(nb, side.opposite()) > 0.0;
                         }
                     }
@@ -270,7 +354,7 @@ fn fill(
             (Spec::Flux(flux), Target::Edge(side)) => {
                 book.open(label, FlowKind::PrescribedFlux, Action::Source);
                 for (t, k) in g.edge(*side).into_iter().enumerate() {
-                    if model.active[k] {
+                    if model.active[k] && rows.local(k).is_some() {
                         book.push(k, g.face_area(k, *side), flux.at(t));
                     }
                 }
@@ -315,16 +399,20 @@ fn fill(
                 };
                 for (t, w) in slots {
                     let k = cells[t];
-                    book.push(k, w, external.at(t));
-                    bands[0][k] += w;
                     anchored[k] |= w > 0.0;
+                    if let Some(l) = rows.local(k) {
+                        book.push(k, w, external.at(t));
+                        bands[0][l] += w;
+                    }
                 }
             }
             (Spec::PointSource(rate), Target::Cells(cells)) => {
                 book.open(label, FlowKind::PointSource, Action::Source);
                 for &k in cells {
                     by_name("point source", k)?;
-                    book.push(k, 1.0, *rate);
+                    if rows.local(k).is_some() {
+                        book.push(k, 1.0, *rate);
+                    }
                 }
             }
             (Spec::ArealSource(rate), _) | (Spec::VolumetricSource(rate), _) => {
@@ -335,7 +423,7 @@ fn fill(
                     FlowKind::VolumetricSource
                 };
                 book.open(label, kind, Action::Source);
-                for k in (0..n).filter(|&k| model.active[k]) {
+                for k in rows.cells().filter(|&k| model.active[k]) {
                     let w = if areal { g.plan_area(k) } else { g.volume(k) };
                     book.push(k, w, rate.at(k));
                 }
@@ -350,10 +438,12 @@ fn fill(
                         } else {
                             0.0
                         };
-                        book.push(k, w, values.at(t));
-                        bands[0][k] += w;
                         anchored[k] |= w > 0.0;
                         covered_in[k] += w;
+                        if let Some(l) = rows.local(k) {
+                            book.push(k, w, values.at(t));
+                            bands[0][l] += w;
+                        }
                     }
                 }
             }
@@ -383,7 +473,7 @@ fn fill(
                     && inflow_owner[side_slot(side)].is_none()
             })
         };
-        if let Some(k) = first_flagged(&*model.space, n, |k| uncovered(k).is_some()) {
+        if let Some(k) = first_flagged(space, n, |k| uncovered(k).is_some()) {
             if let Some(side) = uncovered(k) {
                 let inflow = -carried(k, side);
                 return Err(Error::no_inflow_value(side, Location::on(grid, k), inflow));
@@ -392,7 +482,7 @@ fn fill(
         // What the flow field carries with the cells' own values: net outflow through the
         // faces between active cells, less the edge inflow the carried slots counted.
         book.open(FLOW_FIELD_LINE, FlowKind::Carried, Action::FlowField);
-        for k in (0..n).filter(|&k| model.active[k]) {
+        for k in rows.cells().filter(|&k| model.active[k]) {
             let net: f64 = Side::ALL
                 .into_iter()
                 .filter(|&side| grid.neighbour(k, side).is_some())
@@ -403,7 +493,7 @@ fn fill(
     }
 
     capacity.clear();
-    capacity.resize(n, 0.0);
+    capacity.resize(rows.len(), 0.0);
     if let (true, Some(storage)) = (transient, &model.storage) {
         for k in (0..n).filter(|&k| model.active[k]) {
             let size = if storage.is_per_volume() {
@@ -411,15 +501,18 @@ fn fill(
             } else {
                 g.plan_area(k)
             };
-            capacity[k] = storage.values().at(k) * size;
-            anchored[k] |= capacity[k] > 0.0;
+            let held = storage.values().at(k) * size;
+            anchored[k] |= held > 0.0;
+            if let Some(l) = rows.local(k) {
+                capacity[l] = held;
+            }
         }
     }
 
     let linked = |k: usize, side: Side| face(k, side).max(carried(k, side).abs());
     let floating = floating_regions(grid, &fixed_mask, &anchored, &linked);
     Ok(Found {
-        fixed: (0..n).filter(|&k| fixed_mask[k]).collect(),
+        fixed: rows.cells().filter(|&k| fixed_mask[k]).collect(),
         floating,
         symmetric,
     })
@@ -452,7 +545,7 @@ pub(crate) fn resistance(model: &Model, k: usize, side: Side) -> f64 {
 
 /// Check thickness, conductivities and (for a transient run) storage at active cells; the
 /// first bad cell is found through the model's space, so every process would name the same.
-fn check_medium(model: &Model, transient: bool) -> Result<(), Error> {
+fn check_medium(model: &Model, space: &dyn Space, transient: bool) -> Result<(), Error> {
     let grid = model.grid();
     if transient && model.storage.is_none() {
         return Err(Error::missing(
@@ -484,9 +577,7 @@ fn check_medium(model: &Model, transient: bool) -> Result<(), Error> {
             (!ok).then(|| Error::property(what, Location::on(grid, k), value, allowed))
         })
     };
-    let first = first_flagged(&*model.space, grid.cells(), |k| {
-        model.active[k] && bad(k).is_some()
-    });
+    let first = first_flagged(space, grid.cells(), |k| model.active[k] && bad(k).is_some());
     match first.and_then(bad) {
         Some(e) => Err(e),
         None => Ok(()),

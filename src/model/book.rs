@@ -230,52 +230,15 @@ impl Book {
         previous: Option<(&[f64], &[f64], f64)>,
         storage_uptake: Option<&dyn Fn(usize) -> f64>,
     ) -> Vec<BudgetLine> {
-        let weighted = |f: &dyn Fn(&[f64], &[f64]) -> f64| -> f64 {
-            let now = f(new.0, new.1);
-            match previous {
-                None => now,
-                Some((x, levels, theta)) => theta * now + (1.0 - theta) * f(x, levels),
-            }
-        };
-        let mut into_fixed = vec![0.0; self.grid.cells()];
-        let mut lines: Vec<BudgetLine> = self
-            .terms
-            .iter()
-            .map(|term| BudgetLine {
-                label: term.label.clone(),
-                kind: term.kind,
-                inflow: 0.0,
-                outflow: 0.0,
-            })
-            .collect();
-        let book_flow = |line: &mut BudgetLine, flow: f64| {
+        let mut lines = self.empty_lines();
+        self.slot_flows(new, previous, storage_uptake, &mut |t, flow| {
+            let line = &mut lines[t];
             if flow >= 0.0 {
                 line.inflow += flow;
             } else {
                 line.outflow -= flow;
             }
-        };
-        for (term, line) in self.terms.iter().zip(lines.iter_mut()) {
-            if term.action == Action::Fixed {
-                continue;
-            }
-            for s in term.slots.clone() {
-                let flow = weighted(&|x, levels| self.slot_flow(term.action, s, x, levels));
-                into_fixed[self.cells[s]] += flow;
-                book_flow(line, flow);
-            }
-        }
-        for (term, line) in self.terms.iter().zip(lines.iter_mut()) {
-            if term.action != Action::Fixed {
-                continue;
-            }
-            for s in term.slots.clone() {
-                let k = self.cells[s];
-                let uptake = storage_uptake.map_or(0.0, |f| f(k));
-                let flow = weighted(&|x, _| self.conduction_out(s, x)) - into_fixed[k] + uptake;
-                book_flow(line, flow);
-            }
-        }
+        });
         // This process's cells are summed; the space totals them over all processes.
         let mut sums: Vec<f64> = lines.iter().flat_map(|l| [l.inflow, l.outflow]).collect();
         total(space, &mut sums);
@@ -284,6 +247,61 @@ impl Book {
             line.outflow = pair[1];
         }
         lines
+    }
+
+    /// One line per term, with no flow yet.
+    pub(crate) fn empty_lines(&self) -> Vec<BudgetLine> {
+        self.terms
+            .iter()
+            .map(|term| BudgetLine {
+                label: term.label.clone(),
+                kind: term.kind,
+                inflow: 0.0,
+                outflow: 0.0,
+            })
+            .collect()
+    }
+
+    /// The flow into the model through every slot, as `book_flow(term, flow)`: the terms that
+    /// are not fixed first, then the fixed ones, each in slot order (see [`Book::lines`]).
+    /// The values are read from `new.0` (and `previous`) at the slots' cells and links, so
+    /// the vectors may be any numbering the book's cells use.
+    pub(crate) fn slot_flows(
+        &self,
+        new: (&[f64], &[f64]),
+        previous: Option<(&[f64], &[f64], f64)>,
+        storage_uptake: Option<&dyn Fn(usize) -> f64>,
+        book_flow: &mut dyn FnMut(usize, f64),
+    ) {
+        let weighted = |f: &dyn Fn(&[f64], &[f64]) -> f64| -> f64 {
+            let now = f(new.0, new.1);
+            match previous {
+                None => now,
+                Some((x, levels, theta)) => theta * now + (1.0 - theta) * f(x, levels),
+            }
+        };
+        let mut into_fixed = vec![0.0; new.0.len()];
+        for (t, term) in self.terms.iter().enumerate() {
+            if term.action == Action::Fixed {
+                continue;
+            }
+            for s in term.slots.clone() {
+                let flow = weighted(&|x, levels| self.slot_flow(term.action, s, x, levels));
+                into_fixed[self.cells[s]] += flow;
+                book_flow(t, flow);
+            }
+        }
+        for (t, term) in self.terms.iter().enumerate() {
+            if term.action != Action::Fixed {
+                continue;
+            }
+            for s in term.slots.clone() {
+                let k = self.cells[s];
+                let uptake = storage_uptake.map_or(0.0, |f| f(k));
+                let flow = weighted(&|x, _| self.conduction_out(s, x)) - into_fixed[k] + uptake;
+                book_flow(t, flow);
+            }
+        }
     }
 
     /// The flow into the model through the outer face of each edge cell that an edge condition

@@ -26,6 +26,9 @@
 //! * [`SteadySystem`]: the assembled [`Banded5`](crate::Banded5) operator with its fixed cells
 //!   and right-hand side, for any driver (or the one the model picks,
 //!   [`SteadySystem::default_solver`]), and [`Budget`]s of its solutions.
+//! * [`DistributedSystem`](crate::distributed::DistributedSystem): the steady system split
+//!   over processes (each assembles its own block's rows; the budget is summed exactly, the
+//!   same on every process).
 //! * [`Stepper`]: backward Euler or Crank–Nicolson in time, levels changed through a
 //!   [`Forcing`] closure.
 //! * [`NonlinearSystem`]: unconfined and convertible aquifers, temperature-dependent
@@ -218,6 +221,10 @@ mod spec;
 mod steady;
 mod transient;
 mod update;
+
+pub(crate) use assemble::{assemble_rows, Rows};
+pub(crate) use book::Book;
+pub(crate) use steady::settle;
 
 pub use advection::{AdvectionScheme, FaceFlows};
 pub use axis::{Axis, AxisLayout};
