@@ -1,6 +1,6 @@
 //! The model, distributed, under `mpirun -n P` (P = 1, 2, 3, 4 in `.ci/run`): a heterogeneous
 //! groundwater model assembled block by block ([`DistributedSystem`]) and solved with PCG +
-//! Jacobi, BiCGSTAB and GMRES on every process grid of P processes; the gathered heads, the
+//! Jacobi, PCG + distributed multigrid, BiCGSTAB and GMRES on every process grid of P processes; the gathered heads, the
 //! iteration counts and every budget line must be the bits of the `Processes::single()` run
 //! (computed on every process), and close to the serial `SteadySystem` solve and budget within
 //! bounds derived from the residuals. Run it directly (one process) or under mpirun; it needs
@@ -15,7 +15,9 @@
 //! the same order (they are collective), and a failed check panics, which ends the process
 //! with an error status that mpirun reports.
 
-use quintet::distributed::{DistributedJacobi, DistributedSystem, Partition, Processes};
+use quintet::distributed::{
+    DistributedJacobi, DistributedMultigrid, DistributedSystem, Partition, Processes,
+};
 use quintet::model::{Budget, Conductivity, Field, Geometry, Model, SteadySystem};
 use quintet::prelude::*;
 
@@ -139,6 +141,12 @@ fn driver(name: &str, system: &DistributedSystem) -> Box<dyn IterativeSolver<f64
     let jacobi = || DistributedJacobi::new(system.operator()).unwrap();
     match name {
         "PCG + Jacobi" => Box::new(Pcg::new(jacobi()).with_options(options)),
+        "PCG + multigrid" => Box::new(
+            Pcg::new(
+                DistributedMultigrid::new(system.operator(), MultigridSettings::default()).unwrap(),
+            )
+            .with_options(options),
+        ),
         "BiCGSTAB + Jacobi" => Box::new(BiCgStab::new(jacobi()).with_options(options)),
         "GMRES(30) + Jacobi" => Box::new(
             Gmres::new(jacobi())
@@ -279,6 +287,7 @@ fn bit_identical_runs(procs: &Processes) {
         (false, "PCG + Jacobi"),
         (false, "BiCGSTAB + Jacobi"),
         (false, "GMRES(30) + Jacobi"),
+        (false, "PCG + multigrid"),
         (true, "PCG + Jacobi"),
     ];
     for (node_centred, name) in runs {
