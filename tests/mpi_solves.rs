@@ -474,6 +474,24 @@ fn failures(procs: &Processes) {
     assert_eq!(err.kind(), ErrorKind::Asymmetric);
     assert_eq!(err.location().map(|at| at.cell), Some(corner - 1));
 
+    // Conductances near the largest f64: the coarse operator's series products overflow and
+    // every process reports the same cell of the first coarse level (as the serial hierarchy).
+    let huge = DistributedStencil::from_fn(&part, |i, j| {
+        let c = Coeffs5::laplacian(grid, i, j);
+        let s = 1e307;
+        Coeffs5 {
+            center: c.center * s,
+            west: c.west * s,
+            east: c.east * s,
+            south: c.south * s,
+            north: c.north * s,
+        }
+    })
+    .unwrap();
+    let err = DistributedMultigrid::new(&huge, MultigridSettings::default()).unwrap_err();
+    assert_eq!(err.kind(), ErrorKind::PivotBreakdown);
+    assert_eq!(err.location().map(|at| at.cell), Some(0));
+
     // Non-convergence: the iteration limit stops every process at the same place.
     let limited = SolveOptions::default().tolerance(1e-10).max_iterations(7);
     let reference = Partition::new(grid, Processes::single()).unwrap();

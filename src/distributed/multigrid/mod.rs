@@ -7,6 +7,7 @@ use std::sync::Arc;
 use split::{Margins, Split, Window, MARGIN};
 
 use super::layout::Layout;
+use super::space::ExactSpace;
 use super::stencil::DistributedStencil;
 use super::transport::Transport;
 use crate::operator::{cell_product, check_len};
@@ -15,7 +16,7 @@ use crate::precond::multigrid::{
 };
 use crate::precond::Preconditioner;
 use crate::space::{first_flagged, Combine, Serial, Space};
-use crate::{Coeffs5, Error, FixedCells, LinearOperator, Multigrid, MultigridSettings};
+use crate::{Coeffs5, Error, FixedCells, LinearOperator, Location, Multigrid, MultigridSettings};
 
 /// Relative tolerance below which the fine operator counts as symmetric (as for
 /// [`Multigrid`]).
@@ -108,7 +109,8 @@ impl DistributedMultigrid {
     /// range; [`ErrorKind::NonPositiveCenter`](crate::ErrorKind::NonPositiveCenter) or
     /// [`ErrorKind::Asymmetric`](crate::ErrorKind::Asymmetric) naming the first such cell
     /// of the whole grid; [`ErrorKind::PivotBreakdown`](crate::ErrorKind::PivotBreakdown) if a
-    /// coarse center comes out non-positive.
+    /// coarse center comes out non-positive or not finite (naming the first cell of that
+    /// level's grid, as [`Multigrid::new`] does).
     ///
     /// ```
     /// use quintet::distributed::{DistributedMultigrid, DistributedStencil, Partition, Processes};
@@ -166,7 +168,9 @@ impl DistributedMultigrid {
                     (win, margins, rows)
                 }
             };
-            let level = SplitLevel::build(win, rows.0, rows.1, margins, settings, &layout)?;
+            let level_nx = splits[l].grid.nx();
+            let level =
+                SplitLevel::build(win, rows.0, rows.1, margins, (settings, level_nx), &layout)?;
             own_rows = level.coarse_rows(&splits[l + 1], cx, cy);
             levels.push(level);
         }
@@ -471,22 +475,39 @@ impl SplitLevel {
         rows: Vec<Coeffs5<f64>>,
         active: Vec<bool>,
         margins: Margins,
-        settings: MultigridSettings,
-        layout: &Layout,
+        (settings, nx): (MultigridSettings, usize),
+        layout: &Arc<Layout>,
     ) -> Result<SplitLevel, Error> {
         let op = level_operator(&win, rows, &active)?;
         let below = Level::below(&op, settings.coarse_operator);
-        let failed = layout.processes.any_failed(below.is_err());
-        let below = match (below, failed) {
-            (Ok(level), None) => level,
-            (Err(e), _) => return Err(e),
-            (Ok(_), Some(_)) => {
-                return Err(Error::singular(
-                    "the distributed multigrid hierarchy",
-                    "a coarse center came out non-positive on another process",
-                ))
-            }
-        };
+        // A coarse center that is not positive: every process reports the first such cell of
+        // this level's grid (`nx` wide) that any process found, with its value (the serial
+        // hierarchy names a cell of the level's grid too).
+        let found = below.as_ref().err().map(|e| {
+            let k = e.location().map_or(0, |at| at.cell);
+            let (i, j) = (win.i.start + k % win.i.len(), win.j.start + k / win.i.len());
+            (i + nx * j, e.value().unwrap_or(f64::NAN))
+        });
+        let space = ExactSpace::new(Arc::clone(layout), false);
+        let mut cell = [0.0];
+        let first = found.map_or(f64::INFINITY, |(k, _)| k as f64);
+        space.combine_f64(&[first], &[Combine::Min], &mut cell);
+        if cell[0].is_finite() {
+            let mine = found.filter(|&(k, _)| k as f64 == cell[0]);
+            let mut value = [0.0];
+            space.combine_f64(
+                &[mine.map_or(f64::INFINITY, |(_, v)| v)],
+                &[Combine::Min],
+                &mut value,
+            );
+            let k = cell[0] as usize;
+            let at = Location {
+                cell: k,
+                coords: Some((k % nx, k / nx)),
+            };
+            return Err(Error::pivot(at, value[0]));
+        }
+        let below = below?;
         let inv = inverse_centers(&op.rows, |k| active[k]);
         let n = win.cells();
         Ok(SplitLevel {
