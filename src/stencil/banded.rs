@@ -191,18 +191,22 @@ impl<T: Scalar> Banded5<T> {
             out.extend(v.iter().map(|&e| cast_scalar::<T, U>(e)));
             Ok(out)
         };
-        let op = Banded5::new(
-            self.grid,
-            convert(&self.center)?,
-            convert(&self.west)?,
-            convert(&self.east)?,
-            convert(&self.south)?,
-            convert(&self.north)?,
-        )?;
-        match &self.fixed {
-            Some(fixed) => op.with_fixed(fixed.clone()),
-            None => Ok(op),
-        }
+        // The source's lengths and fixed set were checked when it was built, so the copy is
+        // surveyed once, with its fixed cells in place: rounding can make a coefficient
+        // infinite, a center zero or a row sum vanish.
+        let mut op = Banded5 {
+            grid: self.grid,
+            center: convert(&self.center)?,
+            west: convert(&self.west)?,
+            east: convert(&self.east)?,
+            south: convert(&self.south)?,
+            north: convert(&self.north)?,
+            fixed: self.fixed.clone(),
+            first_nonpositive: None,
+            rows_sum_to_zero: false,
+        };
+        op.resurvey()?;
+        Ok(op)
     }
 
     /// Center (diagonal) coefficients.
