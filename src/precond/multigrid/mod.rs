@@ -268,16 +268,18 @@ impl<T: Scalar> Multigrid<T> {
             Some(l) => CoarsestSolve::new(&l.op, symmetric)?,
         };
         let active = level::active_cells(fine);
-        let fine_inverse_centers = (0..grid.cells())
-            .map(|k| {
-                let (i, j) = grid.coords(k);
-                if active(k) {
+        let nx = grid.nx();
+        let mut fine_inverse_centers = Vec::with_capacity(grid.cells());
+        // Row by row (no division of the cell index), in cell order.
+        for j in 0..grid.ny() {
+            fine_inverse_centers.extend((0..nx).map(|i| {
+                if active(i + nx * j) {
                     level::narrow_one(T::one() / op.coeffs(i, j).center)
                 } else {
                     0.0
                 }
-            })
-            .collect();
+            }));
+        }
         Ok(Multigrid {
             grid,
             settings,
