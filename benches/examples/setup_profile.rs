@@ -10,7 +10,9 @@
 //! pins the bits), of the whole hierarchy (coarse rows, weights, inverse centers, coarsest
 //! factor) and of the solution of a PCG solve to 1e-8 with its iteration count. With
 //! `ONLY_SETUP=k` in the environment it only repeats the set-up `k` times per problem (for
-//! `perf record`).
+//! `perf record`); with `FINGERPRINTS=1` it prints only the hashes of hierarchies built on
+//! more operators (odd sides, random fields with fixed cells, an advection operator; both
+//! coarse-operator rules, `f64` and `f32`).
 
 #[path = "../support/mod.rs"]
 mod support;
@@ -50,7 +52,40 @@ fn bits_hash(x: &[f64]) -> u64 {
     h.finish()
 }
 
+/// Hashes of the `f32` copy and of hierarchies of `op` in `f64` and `f32`, both rules.
+fn fingerprints(name: &str, op: &Banded5<f64>) {
+    let single = op.cast::<f32>().expect("finite coefficients");
+    let mut line = format!("fingerprint {name}: f32 copy {:016x}", debug_hash(&single));
+    for rule in [CoarseOperator::Upscaled, CoarseOperator::LumpedGalerkin] {
+        let settings = MultigridSettings {
+            coarse_operator: rule,
+            ..Default::default()
+        };
+        let double = Multigrid::new(op, settings).map(|mg| debug_hash(&mg));
+        let low = Multigrid::new(&single, settings).map(|mg| debug_hash(&mg));
+        match (double, low) {
+            (Ok(a), Ok(b)) => write!(line, ", {rule:?} {a:016x} {b:016x}"),
+            (a, b) => write!(line, ", {rule:?} {:?} {:?}", a.err(), b.err()),
+        }
+        .expect("formatting never fails");
+    }
+    println!("{line}");
+}
+
 fn main() {
+    if std::env::var("FINGERPRINTS").is_ok() {
+        let values: Vec<f64> = (0..997).map(|k| ((k as f64) * 0.618_034).fract()).collect();
+        for (nx, ny) in [(37, 23), (64, 65), (255, 129), (301, 300)] {
+            let fixed: Vec<usize> = (0..nx * ny).step_by(53).collect();
+            let op = precond_problems::random_diffusion(nx, ny, &values, 2.0, &fixed);
+            fingerprints(&format!("random {nx}x{ny}"), &op);
+        }
+        for n in [33, 200] {
+            fingerprints(&format!("contrast 1e4 {n}x{n}"), &precond_problems::heterogeneous(n).0);
+            fingerprints(&format!("advection {n}x{n}"), &precond_problems::advection(n, 3.0).0);
+        }
+        return;
+    }
     let sides: Vec<usize> = std::env::args()
         .skip(1)
         .map(|s| s.parse().expect("a grid side"))
