@@ -165,6 +165,27 @@ impl<T: Scalar> Level<T> {
         fine: &R,
         rule: CoarseOperator,
     ) -> Result<Level<T>, Error> {
+        // No pair of couplings differs by more than an infinite tolerance (a zero pair gives
+        // `0 > NaN`, false), so the level is always built.
+        match Self::below_if_symmetric(fine, rule, f64::INFINITY)? {
+            Some(level) => Ok(level),
+            None => Err(Error::asymmetric(Location::on(fine.grid(), 0), 0, 0.0, 0.0)),
+        }
+    }
+
+    /// [`below`](Self::below), or `None` as soon as the first pass over the rows finds two
+    /// free neighbours whose eliminated couplings differ by more than `rel_tol` relative (the
+    /// test of [`check_symmetry`](crate::check_symmetry), which then reports an error; here the
+    /// pass that reads every row anyway makes the check, instead of a pass of its own).
+    ///
+    /// # Errors
+    ///
+    /// As [`below`](Self::below).
+    pub(crate) fn below_if_symmetric<R: Stencil5<T> + ?Sized>(
+        fine: &R,
+        rule: CoarseOperator,
+        rel_tol: f64,
+    ) -> Result<Option<Level<T>>, Error> {
         let g = fine.grid();
         let (nx, ny, n) = (g.nx(), g.ny(), g.cells());
         let (ncx, ncy) = (nx.div_ceil(2), ny.div_ceil(2));
@@ -222,17 +243,33 @@ impl<T: Scalar> Level<T> {
         // 2 adds into the coarse rows in row order, as three separate sweeps would.
         const LAG1: usize = 2;
         const LAG2: usize = 4;
+        // The symmetry check of pass 0: each free cell's eliminated west and south couplings
+        // against the east coupling of the cell before it and the north coupling of the cell
+        // below it (zero for a fixed cell, whose eliminated row is an identity row).
+        let differ = |a: T, b: T| {
+            let (a, b) = (to_f64(a), to_f64(b));
+            (a - b).abs() > rel_tol * a.abs().max(b.abs())
+        };
+        let mut north_below = vec![T::zero(); nx];
         for s in 0..ny + LAG2 {
             // Pass 0: conductances, excess, and which aggregates carry an unknown.
             if s < ny {
                 let j = s;
-                for i in 0..nx {
+                let mut east_before = T::zero();
+                for (i, north_below) in north_below.iter_mut().enumerate() {
                     let k = i + nx * j;
                     if !active_fine(k) {
+                        (east_before, *north_below) = (T::zero(), T::zero());
                         continue;
                     }
                     active[ax.parent(i) + ncx * ay.parent(j)] = true;
                     let c = fine.eliminated_coeffs(i, j);
+                    if (i > 0 && differ(east_before, c.west))
+                        || (j > 0 && differ(*north_below, c.south))
+                    {
+                        return Ok(None);
+                    }
+                    (east_before, *north_below) = (c.east, c.north);
                     east[k] = conductance(c.east);
                     north[k] = conductance(c.north);
                     let sum = c.center + c.west + c.east + c.south + c.north;
@@ -413,7 +450,7 @@ impl<T: Scalar> Level<T> {
         }
         let inverse_centers = inverse_centers(&rows, |k| active[k]);
         let inactive = FixedCells::new(grid, (0..nc).filter(|&k| !active[k]))?;
-        Ok(Level {
+        Ok(Some(Level {
             op: LevelOperator {
                 grid,
                 rows,
@@ -426,7 +463,7 @@ impl<T: Scalar> Level<T> {
             wy: narrow(wy),
             x: vec![T::zero(); nc],
             b: vec![T::zero(); nc],
-        })
+        }))
     }
 
     /// The transfers between this level and the next finer one.
