@@ -632,3 +632,56 @@ fn narrow<T: Scalar>(mut v: Vec<T>) -> Vec<f32> {
 pub(crate) fn narrow_one<T: Scalar>(v: T) -> f32 {
     v.to_f32().unwrap_or(0.0)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::{check_symmetry, Banded5};
+
+    /// The Laplacian on 9 × 7 cells with the couplings of cell (4, 3) towards east and north
+    /// scaled by `1 + east` and `1 + north`, and the first column fixed.
+    fn perturbed(east: f64, north: f64) -> Banded5<f64> {
+        let grid = Grid::new(9, 7).unwrap();
+        let op = Banded5::from_fn(grid, |i, j| {
+            let mut c = Coeffs5::laplacian(grid, i, j);
+            if (i, j) == (4, 3) {
+                c.east *= 1.0 + east;
+                c.north *= 1.0 + north;
+            }
+            if (i, j) == (1, 2) {
+                // A coupling towards a fixed cell: eliminated, so it never counts.
+                c.west *= 3.0;
+            }
+            c
+        })
+        .unwrap();
+        let fixed = FixedCells::new(grid, (0..7).map(|j| grid.index(0, j))).unwrap();
+        op.with_fixed(fixed).unwrap()
+    }
+
+    /// `below_if_symmetric` builds the level exactly when `check_symmetry` accepts the
+    /// operator at the same tolerance (the definition it replaces), and then the level of
+    /// `below`.
+    #[test]
+    fn below_if_symmetric_agrees_with_check_symmetry() {
+        let tol = 1e-10;
+        for (east, north, symmetric) in [
+            (0.0, 0.0, true),
+            (1e-12, 0.0, true),
+            (0.0, -1e-12, true),
+            (1e-8, 0.0, false),
+            (0.0, 1e-8, false),
+            (0.5, 0.5, false),
+        ] {
+            let op = perturbed(east, north);
+            assert_eq!(check_symmetry(&op, tol).is_ok(), symmetric);
+            let built = Level::below_if_symmetric(&op, CoarseOperator::Upscaled, tol).unwrap();
+            assert_eq!(built.is_some(), symmetric, "east {east}, north {north}");
+            if let Some(level) = built {
+                let plain = Level::below(&op, CoarseOperator::Upscaled).unwrap();
+                assert_eq!(level.op.rows, plain.op.rows);
+                assert_eq!((level.wx, level.wy), (plain.wx, plain.wy));
+            }
+        }
+    }
+}
