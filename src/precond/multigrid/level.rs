@@ -403,8 +403,7 @@ impl<T: Scalar> Level<T> {
                         let r = resist(gx).min(resist(gy));
                         let contribution = ratio(e, T::one() + e * r);
                         let (pi, qi, pj, qj) = (ci, ax.neighbour(i), cj, ay.neighbour(j));
-                        let (wxk, wyk) =
-                            (T::one() - own_share(wx[k]), T::one() - own_share(wy[k]));
+                        let (wxk, wyk) = (T::one() - own_share(wx[k]), T::one() - own_share(wy[k]));
                         let (ux, uy) = (T::one() - wxk, T::one() - wyk);
                         for (target, w) in [
                             (pi + ncx * pj, ux * uy),

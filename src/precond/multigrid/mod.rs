@@ -273,8 +273,7 @@ impl<T: Scalar> Multigrid<T> {
             };
             levels.push(next);
         }
-        let symmetric =
-            symmetric.unwrap_or_else(|| check_symmetry(op, SYMMETRY_TOLERANCE).is_ok());
+        let symmetric = symmetric.unwrap_or_else(|| check_symmetry(op, SYMMETRY_TOLERANCE).is_ok());
         let direct = match levels.last() {
             None => CoarsestSolve::new(fine, symmetric)?,
             Some(l) => CoarsestSolve::new(&l.op, symmetric)?,
