@@ -81,8 +81,14 @@ fn main() {
             fingerprints(&format!("random {nx}x{ny}"), &op);
         }
         for n in [33, 200] {
-            fingerprints(&format!("contrast 1e4 {n}x{n}"), &precond_problems::heterogeneous(n).0);
-            fingerprints(&format!("advection {n}x{n}"), &precond_problems::advection(n, 3.0).0);
+            fingerprints(
+                &format!("contrast 1e4 {n}x{n}"),
+                &precond_problems::heterogeneous(n).0,
+            );
+            fingerprints(
+                &format!("advection {n}x{n}"),
+                &precond_problems::advection(n, 3.0).0,
+            );
         }
         return;
     }
