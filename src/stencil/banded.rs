@@ -2,8 +2,11 @@
 
 use std::ops::Range;
 
+use super::validate::Survey;
 use super::{cast_scalar, check_fixed, survey};
-use crate::operator::{check_len, row_neighbourhood, row_product, Coeffs5, FixedCells, Stencil5};
+use crate::operator::{check_len, row_neighbourhood, row_product, row_sums_to_zero};
+use crate::operator::{Coeffs5, FixedCells, Stencil5};
+use crate::scalar::{is_positive, to_f64};
 use crate::{memory, Error, Grid, Scalar};
 
 /// A 5-point operator stored as five coefficient arrays (center, west, east, south, north), one
@@ -191,18 +194,22 @@ impl<T: Scalar> Banded5<T> {
             out.extend(v.iter().map(|&e| cast_scalar::<T, U>(e)));
             Ok(out)
         };
-        let op = Banded5::new(
-            self.grid,
-            convert(&self.center)?,
-            convert(&self.west)?,
-            convert(&self.east)?,
-            convert(&self.south)?,
-            convert(&self.north)?,
-        )?;
-        match &self.fixed {
-            Some(fixed) => op.with_fixed(fixed.clone()),
-            None => Ok(op),
-        }
+        // The source's lengths and fixed set were checked when it was built, so the copy is
+        // surveyed once, with its fixed cells in place: rounding can make a coefficient
+        // infinite, a center zero or a row sum vanish.
+        let mut op = Banded5 {
+            grid: self.grid,
+            center: convert(&self.center)?,
+            west: convert(&self.west)?,
+            east: convert(&self.east)?,
+            south: convert(&self.south)?,
+            north: convert(&self.north)?,
+            fixed: self.fixed.clone(),
+            first_nonpositive: None,
+            rows_sum_to_zero: false,
+        };
+        op.resurvey()?;
+        Ok(op)
     }
 
     /// Center (diagonal) coefficients.
@@ -319,10 +326,63 @@ impl<T: Scalar> Banded5<T> {
     }
 
     fn resurvey(&mut self) -> Result<(), Error> {
-        let found = survey(self.grid, self.fixed.as_ref(), |i, j| self.coeffs(i, j))?;
+        let found = match self.survey_bands() {
+            Some(found) => found,
+            // A coefficient is not finite or a coupling points off the grid: the survey cell
+            // by cell names the first one.
+            None => survey(self.grid, self.fixed.as_ref(), |i, j| self.coeffs(i, j))?,
+        };
         self.rows_sum_to_zero = found.rows_sum_to_zero;
         self.first_nonpositive = found.first_nonpositive.map(|(k, _)| (k, self.center[k]));
         Ok(())
+    }
+}
+
+impl<T: Scalar> Banded5<T> {
+    /// What [`survey`] finds, read from the bands directly (scans the compiler can vectorise),
+    /// if every coefficient is finite and no coupling points off the grid; `None` otherwise.
+    fn survey_bands(&self) -> Option<Survey> {
+        let bands = [
+            &self.center,
+            &self.west,
+            &self.east,
+            &self.south,
+            &self.north,
+        ];
+        let finite = |b: &[T]| b.iter().fold(true, |all, v| all & v.is_finite()); // local: a flag
+        if !bands.iter().all(|band| finite(band)) {
+            return None;
+        }
+        let (nx, ny) = (self.grid.nx(), self.grid.ny());
+        let zero = T::zero();
+        let sides_clear =
+            (0..ny).all(|j| self.west[j * nx] == zero && self.east[j * nx + nx - 1] == zero);
+        let ends_clear = self.south[..nx].iter().all(|&v| v == zero)
+            && self.north[(ny - 1) * nx..].iter().all(|&v| v == zero);
+        if !(sides_clear && ends_clear) {
+            return None;
+        }
+        let fixed = self.fixed.as_ref();
+        let first_nonpositive = self
+            .center
+            .iter()
+            .enumerate()
+            .find(|&(k, &c)| !is_positive(c) && !fixed.is_some_and(|f| f.contains(k)))
+            .map(|(k, &c)| (k, to_f64(c)));
+        let rows_sum_to_zero = fixed.is_none_or(|f| f.is_empty())
+            && (0..self.grid.cells()).all(|k| {
+                row_sums_to_zero(Coeffs5 {
+                    center: self.center[k],
+                    west: self.west[k],
+                    east: self.east[k],
+                    south: self.south[k],
+                    north: self.north[k],
+                })
+            });
+        Some(Survey {
+            first_nonpositive,
+            rows_sum_to_zero,
+        })
     }
 }
 
@@ -381,5 +441,65 @@ impl<T: Scalar> Stencil5<T> for Banded5<T> {
 
     fn rows_sum_to_zero(&self) -> bool {
         self.rows_sum_to_zero
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The band scans find what the survey cell by cell finds, and step aside (`None`) for
+    /// the cases where the survey must name a cell.
+    #[test]
+    fn band_survey_agrees_with_cell_survey() {
+        let grid = Grid::new(6, 5).unwrap();
+        let neumann = |i: usize, j: usize| {
+            let mut c = Coeffs5::laplacian(grid, i, j);
+            c.center = -(c.west + c.east + c.south + c.north);
+            c
+        };
+        let dirichlet = |i: usize, j: usize| {
+            let mut c = Coeffs5::laplacian(grid, i, j);
+            if (i, j) == (3, 2) || (i, j) == (0, 4) {
+                c.center = -0.5; // non-positive: at a free cell, then at a fixed one
+            }
+            c
+        };
+        let fixed = FixedCells::new(grid, [grid.index(0, 4), grid.index(5, 0)]).unwrap();
+        let cases = [
+            Banded5::from_fn(grid, neumann).unwrap(),
+            Banded5::from_fn(grid, dirichlet).unwrap(),
+            Banded5::from_fn(grid, dirichlet)
+                .unwrap()
+                .with_fixed(fixed.clone())
+                .unwrap(),
+            Banded5::from_fn(grid, neumann)
+                .unwrap()
+                .with_fixed(fixed)
+                .unwrap(),
+        ];
+        for op in &cases {
+            let by_cell = survey(grid, op.fixed.as_ref(), |i, j| op.coeffs(i, j)).unwrap();
+            assert_eq!(op.survey_bands(), Some(by_cell));
+        }
+        assert!(cases[0].survey_bands().unwrap().rows_sum_to_zero);
+        assert_eq!(
+            cases[1].survey_bands().unwrap().first_nonpositive,
+            Some((grid.index(3, 2), -0.5))
+        );
+        // Left to the survey cell by cell: a coefficient that is not finite, a coupling off
+        // the grid on each side.
+        for (k, band) in [(7, 0), (12, 1), (17, 2), (3, 3), (26, 4)] {
+            let mut op = cases[1].clone();
+            let bands = [
+                &mut op.center,
+                &mut op.west,
+                &mut op.east,
+                &mut op.south,
+                &mut op.north,
+            ];
+            bands[band][k] = if band == 0 { f64::NAN } else { -1.0 };
+            assert_eq!(op.survey_bands(), None, "band {band}, cell {k}");
+        }
     }
 }

@@ -25,34 +25,45 @@ pub(crate) fn survey<T: Scalar>(
 ) -> Result<Survey, Error> {
     let mut first_nonpositive = None;
     let mut rows_sum_to_zero = fixed.is_none_or(|f| f.is_empty());
-    for k in 0..grid.cells() {
-        let (i, j) = grid.coords(k);
-        let c = coeffs(i, j);
-        let named = [
-            ("center coefficient", c.center),
-            ("west coefficient", c.west),
-            ("east coefficient", c.east),
-            ("south coefficient", c.south),
-            ("north coefficient", c.north),
-        ];
-        if let Some(&(what, _)) = named.iter().find(|(_, v)| !v.is_finite()) {
-            return Err(Error::non_finite(what, Location::on(grid, k)));
-        }
-        for side in Side::ALL {
-            let value = c.towards(side);
-            if grid.neighbour(k, side).is_none() && value != T::zero() {
-                return Err(Error::off_grid(
-                    Location::on(grid, k),
-                    side.name(),
-                    to_f64(value),
-                ));
+    let (nx, ny) = (grid.nx(), grid.ny());
+    // Row by row, so a cell's neighbours follow from (i, j) without dividing its index.
+    for j in 0..ny {
+        for i in 0..nx {
+            let k = i + nx * j;
+            let c = coeffs(i, j);
+            let named = [
+                ("center coefficient", c.center),
+                ("west coefficient", c.west),
+                ("east coefficient", c.east),
+                ("south coefficient", c.south),
+                ("north coefficient", c.north),
+            ];
+            if let Some(&(what, _)) = named.iter().find(|(_, v)| !v.is_finite()) {
+                return Err(Error::non_finite(what, Location::on(grid, k)));
             }
+            // The sides in the order of `Side::ALL`, each with whether it has a neighbour.
+            let sides = [
+                (Side::West, i > 0),
+                (Side::East, i + 1 < nx),
+                (Side::South, j > 0),
+                (Side::North, j + 1 < ny),
+            ];
+            for (side, inside) in sides {
+                let value = c.towards(side);
+                if !inside && value != T::zero() {
+                    return Err(Error::off_grid(
+                        Location::on(grid, k),
+                        side.name(),
+                        to_f64(value),
+                    ));
+                }
+            }
+            let free = !fixed.is_some_and(|f| f.contains(k));
+            if free && first_nonpositive.is_none() && !is_positive(c.center) {
+                first_nonpositive = Some((k, to_f64(c.center)));
+            }
+            rows_sum_to_zero = rows_sum_to_zero && row_sums_to_zero(c);
         }
-        let free = !fixed.is_some_and(|f| f.contains(k));
-        if free && first_nonpositive.is_none() && !is_positive(c.center) {
-            first_nonpositive = Some((k, to_f64(c.center)));
-        }
-        rows_sum_to_zero = rows_sum_to_zero && row_sums_to_zero(c);
     }
     Ok(Survey {
         first_nonpositive,
@@ -94,19 +105,31 @@ pub fn check_symmetry<T: Scalar, S: Stencil5<T> + ?Sized>(
         return Err(Error::setting("rel_tol", rel_tol, "a finite value >= 0"));
     }
     let grid = op.grid();
-    for k in 0..grid.cells() {
-        let (i, j) = grid.coords(k);
-        let here = op.eliminated_coeffs(i, j);
-        for side in [Side::East, Side::North] {
-            let Some(n) = grid.neighbour(k, side) else {
-                continue;
-            };
-            let (ni, nj) = grid.coords(n);
-            let there = op.eliminated_coeffs(ni, nj);
-            let a = to_f64(here.towards(side));
-            let b = to_f64(there.towards(side.opposite()));
-            if (a - b).abs() > rel_tol * a.abs().max(b.abs()) {
-                return Err(Error::asymmetric(Location::on(grid, k), n, a, b));
+    let (nx, ny) = (grid.nx(), grid.ny());
+    let differ = |a: f64, b: f64| (a - b).abs() > rel_tol * a.abs().max(b.abs());
+    // Row by row: each cell's eliminated row is formed once as the east neighbour of the cell
+    // before it and once as the north neighbour of the cell below; pairs are checked in
+    // increasing cell order, east before north, as the error promises.
+    for j in 0..ny {
+        let mut here = op.eliminated_coeffs(0, j);
+        for i in 0..nx {
+            let k = i + nx * j;
+            let east = (i + 1 < nx).then(|| op.eliminated_coeffs(i + 1, j));
+            if let Some(there) = east {
+                let (a, b) = (to_f64(here.east), to_f64(there.west));
+                if differ(a, b) {
+                    return Err(Error::asymmetric(Location::on(grid, k), k + 1, a, b));
+                }
+            }
+            if j + 1 < ny {
+                let there = op.eliminated_coeffs(i, j + 1);
+                let (a, b) = (to_f64(here.north), to_f64(there.south));
+                if differ(a, b) {
+                    return Err(Error::asymmetric(Location::on(grid, k), k + nx, a, b));
+                }
+            }
+            if let Some(next) = east {
+                here = next;
             }
         }
     }

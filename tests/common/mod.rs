@@ -223,6 +223,33 @@ pub fn laplacian(nx: usize, ny: usize) -> Problem {
     }
 }
 
+/// Centers that make every row and every column strictly diagonally dominant: the larger of
+/// the row's and the column's sum of |couplings| (`couplings` west, east, south, north), times
+/// 1.05 to 1.5, plus 0.05 to 1, drawn from `rng` cell by cell in grid order.
+fn dominant_centers(grid: Grid, rng: &mut Rng, couplings: [&[f64]; 4], c: &mut [f64]) {
+    let [w, e, s, nn] = couplings;
+    let (nx, ny) = (grid.nx(), grid.ny());
+    for (k, center) in c.iter_mut().enumerate() {
+        let (i, j) = grid.coords(k);
+        let row = w[k].abs() + e[k].abs() + s[k].abs() + nn[k].abs();
+        // The couplings of the neighbours towards k: column k of the matrix.
+        let mut column = 0.0;
+        if i > 0 {
+            column += e[k - 1].abs();
+        }
+        if i + 1 < nx {
+            column += w[k + 1].abs();
+        }
+        if j > 0 {
+            column += nn[k - nx].abs();
+        }
+        if j + 1 < ny {
+            column += s[k + nx].abs();
+        }
+        *center = row.max(column) * (1.0 + rng.range(0.05, 0.5)) + rng.range(0.05, 1.0);
+    }
+}
+
 /// A random symmetric, strictly diagonally dominant system with positive centers (so SPD):
 /// face couplings log-uniform over two decades (sign negative, or mixed when `mixed_signs`),
 /// centers the sum of |couplings| plus a margin, a random fraction of fixed cells whose rows
@@ -257,25 +284,7 @@ pub fn random_sdd(
             s[k + nx] = a;
         }
     }
-    for k in 0..n {
-        let (i, j) = grid.coords(k);
-        let row = w[k].abs() + e[k].abs() + s[k].abs() + nn[k].abs();
-        // The couplings of the neighbours towards k: column k of the matrix.
-        let mut column = 0.0;
-        if i > 0 {
-            column += e[k - 1].abs();
-        }
-        if i + 1 < nx {
-            column += w[k + 1].abs();
-        }
-        if j > 0 {
-            column += nn[k - nx].abs();
-        }
-        if j + 1 < ny {
-            column += s[k + nx].abs();
-        }
-        c[k] = row.max(column) * (1.0 + rng.range(0.05, 0.5)) + rng.range(0.05, 1.0);
-    }
+    dominant_centers(grid, &mut rng, [&w, &e, &s, &nn], &mut c);
     let fixed: Vec<usize> = (0..n).filter(|_| rng.uniform() < fixed_fraction).collect();
     let mut x0 = vec![0.0; n];
     let mut rhs = vec![0.0; n];
@@ -348,25 +357,7 @@ pub fn random_nonsymmetric(
             nn[k] = coupling(&mut rng, 1.0);
         }
     }
-    for k in 0..n {
-        let (i, j) = grid.coords(k);
-        let row = w[k].abs() + e[k].abs() + s[k].abs() + nn[k].abs();
-        // The couplings of the neighbours towards k: column k of the matrix.
-        let mut column = 0.0;
-        if i > 0 {
-            column += e[k - 1].abs();
-        }
-        if i + 1 < nx {
-            column += w[k + 1].abs();
-        }
-        if j > 0 {
-            column += nn[k - nx].abs();
-        }
-        if j + 1 < ny {
-            column += s[k + nx].abs();
-        }
-        c[k] = row.max(column) * (1.0 + rng.range(0.05, 0.5)) + rng.range(0.05, 1.0);
-    }
+    dominant_centers(grid, &mut rng, [&w, &e, &s, &nn], &mut c);
     let fixed: Vec<usize> = (0..n).filter(|_| rng.uniform() < fixed_fraction).collect();
     let mut x0 = vec![0.0; n];
     let mut rhs = vec![0.0; n];

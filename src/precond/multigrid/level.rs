@@ -165,6 +165,27 @@ impl<T: Scalar> Level<T> {
         fine: &R,
         rule: CoarseOperator,
     ) -> Result<Level<T>, Error> {
+        // No pair of couplings differs by more than an infinite tolerance (a zero pair gives
+        // `0 > NaN`, false), so the level is always built.
+        match Self::below_if_symmetric(fine, rule, f64::INFINITY)? {
+            Some(level) => Ok(level),
+            None => Err(Error::asymmetric(Location::on(fine.grid(), 0), 0, 0.0, 0.0)),
+        }
+    }
+
+    /// [`below`](Self::below), or `None` as soon as the first pass over the rows finds two
+    /// free neighbours whose eliminated couplings differ by more than `rel_tol` relative (the
+    /// test of [`check_symmetry`](crate::check_symmetry), which then reports an error; here the
+    /// pass that reads every row anyway makes the check, instead of a pass of its own).
+    ///
+    /// # Errors
+    ///
+    /// As [`below`](Self::below).
+    pub(crate) fn below_if_symmetric<R: Stencil5<T> + ?Sized>(
+        fine: &R,
+        rule: CoarseOperator,
+        rel_tol: f64,
+    ) -> Result<Option<Level<T>>, Error> {
         let g = fine.grid();
         let (nx, ny, n) = (g.nx(), g.ny(), g.cells());
         let (ncx, ncy) = (nx.div_ceil(2), ny.div_ceil(2));
@@ -174,26 +195,13 @@ impl<T: Scalar> Level<T> {
         let two: T = lit(2.0);
         let half: T = lit(0.5);
         let active_fine = active_cells(fine);
-        // Conductances towards east and north, and row-sum excess, of every fine cell.
+        // Per fine cell: conductances towards east and north, and the row-sum excess.
         let mut east = vec![T::zero(); n];
         let mut north = vec![T::zero(); n];
         let mut excess = vec![T::zero(); n];
-        for j in 0..ny {
-            for i in 0..nx {
-                let k = i + nx * j;
-                if !active_fine(k) {
-                    continue;
-                }
-                let c = fine.eliminated_coeffs(i, j);
-                east[k] = conductance(c.east);
-                north[k] = conductance(c.north);
-                let sum = c.center + c.west + c.east + c.south + c.north;
-                excess[k] = if sum > T::zero() { sum } else { T::zero() };
-            }
-        }
         // Half-cell conductance from a fine cell to its aggregate's centre along x (None: the
         // aggregate is one active cell wide there, so the cell is the centre).
-        let half_x = |i: usize, j: usize| -> Option<T> {
+        let half_x = |east: &[T], i: usize, j: usize| -> Option<T> {
             let k = i + nx * j;
             let sib = if i % 2 == 0 { i + 1 } else { i - 1 };
             if sib >= nx || !active_fine(sib + nx * j) {
@@ -201,7 +209,7 @@ impl<T: Scalar> Level<T> {
             }
             Some(two * east[k.min(sib + nx * j)])
         };
-        let half_y = |i: usize, j: usize| -> Option<T> {
+        let half_y = |north: &[T], i: usize, j: usize| -> Option<T> {
             let k = i + nx * j;
             let sib = if j % 2 == 0 { j + 1 } else { j - 1 };
             if sib >= ny || !active_fine(i + nx * sib) {
@@ -220,137 +228,192 @@ impl<T: Scalar> Level<T> {
         let mut active = vec![false; nc];
         let mut wx = vec![T::zero(); n];
         let mut wy = vec![T::zero(); n];
-        let narrow =
-            |w: &[T]| -> Vec<f32> { w.iter().map(|v| v.to_f32().unwrap_or(0.0)).collect() };
-        // Pass 1: interpolation weights towards the neighbouring aggregates.
-        for j in 0..ny {
-            for i in 0..nx {
-                let k = i + nx * j;
-                if !active_fine(k) {
-                    continue;
-                }
-                let (ci, cj) = (ax.parent(i), ay.parent(j));
-                active[ci + ncx * cj] = true;
-                // Missing or fixed neighbours of this cell: its row-sum excess is shared among
-                // them as the conductance to a zero-valued ghost beyond each.
-                let missing = [
-                    i == 0 || !active_fine(k - 1),
-                    i + 1 == nx || !active_fine(k + 1),
-                    j == 0 || !active_fine(k - nx),
-                    j + 1 == ny || !active_fine(k + nx),
-                ];
-                let m = missing.iter().filter(|&&b| b).count();
-                let ghost = if m > 0 {
-                    excess[k] / T::from(m).unwrap_or_else(T::one)
-                } else {
-                    T::zero()
-                };
-                if 2 * ci + 1 < nx {
-                    // Paired in x: interpolate towards the outward side.
-                    let (out_missing, face, far) = if i % 2 == 1 {
-                        (
-                            missing[1],
-                            if i + 1 < nx { east[k] } else { T::zero() },
-                            i + 1,
-                        )
-                    } else {
-                        (
-                            missing[0],
-                            if i > 0 { east[k - 1] } else { T::zero() },
-                            i.wrapping_sub(1),
-                        )
-                    };
-                    wx[k] = if out_missing {
-                        -series(half_x(i, j), ghost, None).0
-                    } else if ax.neighbour(i) != ci {
-                        series(half_x(i, j), face, half_x(far, j)).0
-                    } else {
-                        T::zero()
-                    };
-                }
-                if 2 * cj + 1 < ny {
-                    let (out_missing, face, far) = if j % 2 == 1 {
-                        (
-                            missing[3],
-                            if j + 1 < ny { north[k] } else { T::zero() },
-                            j + 1,
-                        )
-                    } else {
-                        (
-                            missing[2],
-                            if j > 0 { north[k - nx] } else { T::zero() },
-                            j.wrapping_sub(1),
-                        )
-                    };
-                    wy[k] = if out_missing {
-                        -series(half_y(i, j), ghost, None).0
-                    } else if ay.neighbour(j) != cj {
-                        series(half_y(i, j), face, half_y(i, far)).0
-                    } else {
-                        T::zero()
-                    };
+        let on = |active: &[bool], kc: usize, fallback: usize| {
+            if active[kc] {
+                kc
+            } else {
+                fallback
+            }
+        };
+        // Three passes over the fine rows, fused into one sweep down the grid: pass 0 on row
+        // `s`, pass 1 on row `s − LAG1`, pass 2 on row `s − LAG2`, so that each pass finds the
+        // rows it reads already done (pass 1 on row j reads pass 0 up to row j + 1; pass 2 on
+        // row j reads pass 1 up to row j + 1 and the coarse cells' activity up to fine row
+        // j + 3) while they are still in cache. Each pass writes only its own cells, and pass
+        // 2 adds into the coarse rows in row order, as three separate sweeps would.
+        const LAG1: usize = 2;
+        const LAG2: usize = 4;
+        // The symmetry check of pass 0: each free cell's eliminated west and south couplings
+        // against the east coupling of the cell before it and the north coupling of the cell
+        // below it (zero for a fixed cell, whose eliminated row is an identity row).
+        let differ = |a: T, b: T| {
+            let (a, b) = (to_f64(a), to_f64(b));
+            (a - b).abs() > rel_tol * a.abs().max(b.abs())
+        };
+        let mut north_below = vec![T::zero(); nx];
+        for s in 0..ny + LAG2 {
+            // Pass 0: conductances, excess, and which aggregates carry an unknown.
+            if s < ny {
+                let j = s;
+                let mut east_before = T::zero();
+                for (i, north_below) in north_below.iter_mut().enumerate() {
+                    let k = i + nx * j;
+                    if !active_fine(k) {
+                        (east_before, *north_below) = (T::zero(), T::zero());
+                        continue;
+                    }
+                    active[ax.parent(i) + ncx * ay.parent(j)] = true;
+                    let c = fine.eliminated_coeffs(i, j);
+                    if (i > 0 && differ(east_before, c.west))
+                        || (j > 0 && differ(*north_below, c.south))
+                    {
+                        return Ok(None);
+                    }
+                    (east_before, *north_below) = (c.east, c.north);
+                    east[k] = conductance(c.east);
+                    north[k] = conductance(c.north);
+                    let sum = c.center + c.west + c.east + c.south + c.north;
+                    excess[k] = if sum > T::zero() { sum } else { T::zero() };
                 }
             }
-        }
-        // Pass 2: coarse couplings and centers. Each fine line's series conductance across a
-        // coarse face goes to the coarse lines that interpolate that fine line, in the
-        // proportions of the interpolation (a lumped Galerkin product in the cross direction),
-        // so the coarse operator sees the energy of the interpolated corrections.
-        let on = |kc: usize, fallback: usize| if active[kc] { kc } else { fallback };
-        for j in 0..ny {
-            for i in 0..nx {
-                let k = i + nx * j;
-                if !active_fine(k) {
-                    continue;
-                }
-                let (ci, cj) = (ax.parent(i), ay.parent(j));
-                let kc = ci + ncx * cj;
-                let (gx, gy) = (half_x(i, j), half_y(i, j));
-                if i + 1 < nx && ax.parent(i + 1) != ci {
-                    let t = series(gx, east[k], half_x(i + 1, j)).1;
-                    let own = half * (own_share(wy[k]) + own_share(wy[k + 1]));
-                    let qj = ay.neighbour(j);
-                    let (a, b) = (on(ci + ncx * qj, kc), on(ci + 1 + ncx * qj, kc + 1));
-                    let (a, b) = if a == kc || b == kc + 1 {
-                        (kc, kc + 1)
+            // Pass 1: interpolation weights towards the neighbouring aggregates.
+            if (LAG1..ny + LAG1).contains(&s) {
+                let j = s - LAG1;
+                for i in 0..nx {
+                    let k = i + nx * j;
+                    if !active_fine(k) {
+                        continue;
+                    }
+                    let (ci, cj) = (ax.parent(i), ay.parent(j));
+                    // Missing or fixed neighbours of this cell: its row-sum excess is shared
+                    // among them as the conductance to a zero-valued ghost beyond each.
+                    let missing = [
+                        i == 0 || !active_fine(k - 1),
+                        i + 1 == nx || !active_fine(k + 1),
+                        j == 0 || !active_fine(k - nx),
+                        j + 1 == ny || !active_fine(k + nx),
+                    ];
+                    let m = missing.iter().filter(|&&b| b).count();
+                    let ghost = if m > 0 {
+                        excess[k] / T::from(m).unwrap_or_else(T::one)
                     } else {
-                        (a, b)
+                        T::zero()
                     };
-                    for (l, r, share) in [(kc, kc + 1, own), (a, b, T::one() - own)] {
-                        rows[l].east = rows[l].east - t * share;
-                        rows[r].west = rows[r].west - t * share;
+                    if 2 * ci + 1 < nx {
+                        // Paired in x: interpolate towards the outward side.
+                        let (out_missing, face, far) = if i % 2 == 1 {
+                            (
+                                missing[1],
+                                if i + 1 < nx { east[k] } else { T::zero() },
+                                i + 1,
+                            )
+                        } else {
+                            (
+                                missing[0],
+                                if i > 0 { east[k - 1] } else { T::zero() },
+                                i.wrapping_sub(1),
+                            )
+                        };
+                        wx[k] = if out_missing {
+                            -series(half_x(&east, i, j), ghost, None).0
+                        } else if ax.neighbour(i) != ci {
+                            series(half_x(&east, i, j), face, half_x(&east, far, j)).0
+                        } else {
+                            T::zero()
+                        };
+                    }
+                    if 2 * cj + 1 < ny {
+                        let (out_missing, face, far) = if j % 2 == 1 {
+                            (
+                                missing[3],
+                                if j + 1 < ny { north[k] } else { T::zero() },
+                                j + 1,
+                            )
+                        } else {
+                            (
+                                missing[2],
+                                if j > 0 { north[k - nx] } else { T::zero() },
+                                j.wrapping_sub(1),
+                            )
+                        };
+                        wy[k] = if out_missing {
+                            -series(half_y(&north, i, j), ghost, None).0
+                        } else if ay.neighbour(j) != cj {
+                            series(half_y(&north, i, j), face, half_y(&north, i, far)).0
+                        } else {
+                            T::zero()
+                        };
                     }
                 }
-                if j + 1 < ny && ay.parent(j + 1) != cj {
-                    let t = series(gy, north[k], half_y(i, j + 1)).1;
-                    let own = half * (own_share(wx[k]) + own_share(wx[k + nx]));
-                    let qi = ax.neighbour(i);
-                    let up = kc + ncx;
-                    let (a, b) = (on(qi + ncx * cj, kc), on(qi + ncx * (cj + 1), up));
-                    let (a, b) = if a == kc || b == up { (kc, up) } else { (a, b) };
-                    for (l, r, share) in [(kc, up, own), (a, b, T::one() - own)] {
-                        rows[l].north = rows[l].north - t * share;
-                        rows[r].south = rows[r].south - t * share;
+            }
+            // Pass 2: coarse couplings and centers. Each fine line's series conductance across
+            // a coarse face goes to the coarse lines that interpolate that fine line, in the
+            // proportions of the interpolation (a lumped Galerkin product in the cross
+            // direction), so the coarse operator sees the energy of the interpolated
+            // corrections.
+            if s >= LAG2 {
+                let j = s - LAG2;
+                for i in 0..nx {
+                    let k = i + nx * j;
+                    if !active_fine(k) {
+                        continue;
                     }
-                }
-                // Row-sum excess (storage, fixed neighbours), reached from the coarse centre
-                // through the mean half-cell resistance, spread like the interpolation.
-                let e = excess[k];
-                if e > T::zero() {
-                    let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
-                    let r = resist(gx).min(resist(gy));
-                    let contribution = ratio(e, T::one() + e * r);
-                    let (pi, qi, pj, qj) = (ci, ax.neighbour(i), cj, ay.neighbour(j));
-                    let (wxk, wyk) = (T::one() - own_share(wx[k]), T::one() - own_share(wy[k]));
-                    let (ux, uy) = (T::one() - wxk, T::one() - wyk);
-                    for (target, w) in [
-                        (pi + ncx * pj, ux * uy),
-                        (qi + ncx * pj, wxk * uy),
-                        (pi + ncx * qj, ux * wyk),
-                        (qi + ncx * qj, wxk * wyk),
-                    ] {
-                        let t = on(target, kc);
-                        rows[t].center = rows[t].center + w * contribution;
+                    let (ci, cj) = (ax.parent(i), ay.parent(j));
+                    let kc = ci + ncx * cj;
+                    let (gx, gy) = (half_x(&east, i, j), half_y(&north, i, j));
+                    if i + 1 < nx && ax.parent(i + 1) != ci {
+                        let t = series(gx, east[k], half_x(&east, i + 1, j)).1;
+                        let own = half * (own_share(wy[k]) + own_share(wy[k + 1]));
+                        let qj = ay.neighbour(j);
+                        let (a, b) = (
+                            on(&active, ci + ncx * qj, kc),
+                            on(&active, ci + 1 + ncx * qj, kc + 1),
+                        );
+                        let (a, b) = if a == kc || b == kc + 1 {
+                            (kc, kc + 1)
+                        } else {
+                            (a, b)
+                        };
+                        for (l, r, share) in [(kc, kc + 1, own), (a, b, T::one() - own)] {
+                            rows[l].east = rows[l].east - t * share;
+                            rows[r].west = rows[r].west - t * share;
+                        }
+                    }
+                    if j + 1 < ny && ay.parent(j + 1) != cj {
+                        let t = series(gy, north[k], half_y(&north, i, j + 1)).1;
+                        let own = half * (own_share(wx[k]) + own_share(wx[k + nx]));
+                        let qi = ax.neighbour(i);
+                        let up = kc + ncx;
+                        let (a, b) = (
+                            on(&active, qi + ncx * cj, kc),
+                            on(&active, qi + ncx * (cj + 1), up),
+                        );
+                        let (a, b) = if a == kc || b == up { (kc, up) } else { (a, b) };
+                        for (l, r, share) in [(kc, up, own), (a, b, T::one() - own)] {
+                            rows[l].north = rows[l].north - t * share;
+                            rows[r].south = rows[r].south - t * share;
+                        }
+                    }
+                    // Row-sum excess (storage, fixed neighbours), reached from the coarse
+                    // centre through the mean half-cell resistance, spread like the
+                    // interpolation.
+                    let e = excess[k];
+                    if e > T::zero() {
+                        let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
+                        let r = resist(gx).min(resist(gy));
+                        let contribution = ratio(e, T::one() + e * r);
+                        let (pi, qi, pj, qj) = (ci, ax.neighbour(i), cj, ay.neighbour(j));
+                        let (wxk, wyk) = (T::one() - own_share(wx[k]), T::one() - own_share(wy[k]));
+                        let (ux, uy) = (T::one() - wxk, T::one() - wyk);
+                        for (target, w) in [
+                            (pi + ncx * pj, ux * uy),
+                            (qi + ncx * pj, wxk * uy),
+                            (pi + ncx * qj, ux * wyk),
+                            (qi + ncx * qj, wxk * wyk),
+                        ] {
+                            let t = on(&active, target, kc);
+                            rows[t].center = rows[t].center + w * contribution;
+                        }
                     }
                 }
             }
@@ -386,7 +449,7 @@ impl<T: Scalar> Level<T> {
         }
         let inverse_centers = inverse_centers(&rows, |k| active[k]);
         let inactive = FixedCells::new(grid, (0..nc).filter(|&k| !active[k]))?;
-        Ok(Level {
+        Ok(Some(Level {
             op: LevelOperator {
                 grid,
                 rows,
@@ -395,11 +458,11 @@ impl<T: Scalar> Level<T> {
             inverse_centers,
             ax,
             ay,
-            wx: narrow(&wx),
-            wy: narrow(&wy),
+            wx: narrow(wx),
+            wy: narrow(wy),
             x: vec![T::zero(); nc],
             b: vec![T::zero(); nc],
-        })
+        }))
     }
 
     /// The transfers between this level and the next finer one.
@@ -567,8 +630,69 @@ pub(crate) fn inverse_centers<T: Scalar>(
         .collect()
 }
 
+/// `v` in `f32`, element by element ([`narrow_one`]); an `f32` vector is returned as it is.
+fn narrow<T: Scalar>(mut v: Vec<T>) -> Vec<f32> {
+    match (&mut v as &mut dyn std::any::Any).downcast_mut::<Vec<f32>>() {
+        Some(same) => std::mem::take(same),
+        None => v.iter().map(|&w| narrow_one(w)).collect(),
+    }
+}
+
 /// `v` in `f32` (0 if it cannot be represented).
 #[inline]
 pub(crate) fn narrow_one<T: Scalar>(v: T) -> f32 {
     v.to_f32().unwrap_or(0.0)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::{check_symmetry, Banded5};
+
+    /// The Laplacian on 9 × 7 cells with the couplings of cell (4, 3) towards east and north
+    /// scaled by `1 + east` and `1 + north`, and the first column fixed.
+    fn perturbed(east: f64, north: f64) -> Banded5<f64> {
+        let grid = Grid::new(9, 7).unwrap();
+        let op = Banded5::from_fn(grid, |i, j| {
+            let mut c = Coeffs5::laplacian(grid, i, j);
+            if (i, j) == (4, 3) {
+                c.east *= 1.0 + east;
+                c.north *= 1.0 + north;
+            }
+            if (i, j) == (1, 2) {
+                // A coupling towards a fixed cell: eliminated, so it never counts.
+                c.west *= 3.0;
+            }
+            c
+        })
+        .unwrap();
+        let fixed = FixedCells::new(grid, (0..7).map(|j| grid.index(0, j))).unwrap();
+        op.with_fixed(fixed).unwrap()
+    }
+
+    /// `below_if_symmetric` builds the level exactly when `check_symmetry` accepts the
+    /// operator at the same tolerance (the definition it replaces), and then the level of
+    /// `below`.
+    #[test]
+    fn below_if_symmetric_agrees_with_check_symmetry() {
+        let tol = 1e-10;
+        for (east, north, symmetric) in [
+            (0.0, 0.0, true),
+            (1e-12, 0.0, true),
+            (0.0, -1e-12, true),
+            (1e-8, 0.0, false),
+            (0.0, 1e-8, false),
+            (0.5, 0.5, false),
+        ] {
+            let op = perturbed(east, north);
+            assert_eq!(check_symmetry(&op, tol).is_ok(), symmetric);
+            let built = Level::below_if_symmetric(&op, CoarseOperator::Upscaled, tol).unwrap();
+            assert_eq!(built.is_some(), symmetric, "east {east}, north {north}");
+            if let Some(level) = built {
+                let plain = Level::below(&op, CoarseOperator::Upscaled).unwrap();
+                assert_eq!(level.op.rows, plain.op.rows);
+                assert_eq!((level.wx, level.wy), (plain.wx, plain.wy));
+            }
+        }
+    }
 }

@@ -256,8 +256,10 @@ impl<T: Scalar> Multigrid<T> {
         let grid = op.grid();
         let fine = op;
         // Symmetric to a relative 1e-10 (the tolerance of `estimate_relaxation`): rounding-level
-        // asymmetry of an assembled diffusion operator keeps the symmetric construction.
-        let symmetric = check_symmetry(op, SYMMETRY_TOLERANCE).is_ok();
+        // asymmetry of an assembled diffusion operator keeps the symmetric construction. The
+        // first level's pass over the fine rows makes the check; without levels, a pass of
+        // its own.
+        let mut symmetric = None;
         let mut levels: Vec<Level<T>> = Vec::new();
         loop {
             let current = levels.last().map_or(grid, |l| l.op.grid);
@@ -266,28 +268,39 @@ impl<T: Scalar> Multigrid<T> {
             }
             let rule = settings.coarse_operator;
             let next = match (levels.last(), symmetric) {
-                (None, true) => Level::below(fine, rule)?,
-                (Some(l), true) => Level::below(&l.op, rule)?,
-                (None, false) => skew::below_nonsymmetric(fine, rule)?,
-                (Some(l), false) => skew::below_nonsymmetric(&l.op, rule)?,
+                (None, _) => match Level::below_if_symmetric(fine, rule, SYMMETRY_TOLERANCE)? {
+                    Some(level) => {
+                        symmetric = Some(true);
+                        level
+                    }
+                    None => {
+                        symmetric = Some(false);
+                        skew::below_nonsymmetric(fine, rule)?
+                    }
+                },
+                (Some(l), Some(false)) => skew::below_nonsymmetric(&l.op, rule)?,
+                (Some(l), _) => Level::below(&l.op, rule)?,
             };
             levels.push(next);
         }
+        let symmetric = symmetric.unwrap_or_else(|| check_symmetry(op, SYMMETRY_TOLERANCE).is_ok());
         let direct = match levels.last() {
             None => CoarsestSolve::new(fine, symmetric)?,
             Some(l) => CoarsestSolve::new(&l.op, symmetric)?,
         };
         let active = level::active_cells(fine);
-        let fine_inverse_centers = (0..grid.cells())
-            .map(|k| {
-                let (i, j) = grid.coords(k);
-                if active(k) {
+        let nx = grid.nx();
+        let mut fine_inverse_centers = Vec::with_capacity(grid.cells());
+        // Row by row (no division of the cell index), in cell order.
+        for j in 0..grid.ny() {
+            fine_inverse_centers.extend((0..nx).map(|i| {
+                if active(i + nx * j) {
                     level::narrow_one(T::one() / op.coeffs(i, j).center)
                 } else {
                     0.0
                 }
-            })
-            .collect();
+            }));
+        }
         Ok(Multigrid {
             grid,
             settings,
