@@ -61,6 +61,7 @@ mod galerkin;
 mod level;
 mod skew;
 mod smooth;
+mod transfer;
 
 use direct::{CoarsestSolve, MAX_DIRECT_CELLS};
 pub(crate) use level::{active_cells, inverse_centers, Level, LevelOperator};

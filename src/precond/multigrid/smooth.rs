@@ -22,7 +22,8 @@
 
 use std::ops::Range;
 
-use super::level::{active_cells, Transfer};
+use super::level::active_cells;
+use super::transfer::Transfer;
 use crate::operator::{cell_product, Stencil5};
 use crate::{Coeffs5, Scalar};
 
