@@ -544,6 +544,35 @@ impl<T: Scalar> Blocks<T> {
     }
 }
 
+/// How many threads `space` lets work of `cells` entries run on: rayon's current pool when the
+/// space is threaded and the work is at least [`PARALLEL_MIN_CELLS`] long, else 1. Callers cut
+/// their work by it only in ways that leave the bits of the result unchanged.
+pub(crate) fn threads_for(space: &dyn Space, cells: usize) -> usize {
+    #[cfg(feature = "parallel")]
+    if space.threaded() && cells >= PARALLEL_MIN_CELLS {
+        return rayon::current_num_threads();
+    }
+    let _ = (space, cells);
+    1
+}
+
+/// `(a(), b())`, the two on rayon's pool side by side when `parallel` (and the crate is built
+/// with threads), else one after the other.
+pub(crate) fn join<A, B, RA, RB>(parallel: bool, a: A, b: B) -> (RA, RB)
+where
+    A: FnOnce() -> RA + Send,
+    B: FnOnce() -> RB + Send,
+    RA: Send,
+    RB: Send,
+{
+    #[cfg(feature = "parallel")]
+    if parallel {
+        return rayon::join(a, b);
+    }
+    let _ = parallel;
+    (a(), b())
+}
+
 /// Two output blocks cut alike.
 type Pair<'a, T> = (&'a mut [T], &'a mut [T]);
 

@@ -385,10 +385,38 @@ pub trait Stencil5<T: Scalar>: LinearOperator<T> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     fn apply_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
+        self.apply_rows_from(rows, 0, x, y);
+    }
+
+    /// [`apply_rows`](Stencil5::apply_rows) on part of a vector: `x` holds the grid's rows
+    /// from row `first` on (`x[0]` is cell `(0, first)`), and must hold every row the product
+    /// reads, `rows.start − 1` to `rows.end` (within the grid). The multigrid smoother uses
+    /// it to give each thread a band of rows of its own. Implementations that override
+    /// `apply_rows` for speed should override this one the same way (the default goes through
+    /// [`coeffs`](Stencil5::coeffs)), so that both give the same bits.
+    ///
+    /// # Example
+    ///
+    /// ```
+    /// use quintet::prelude::*;
+    /// let grid = Grid::new(3, 3)?;
+    /// let op = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+    /// let x: Vec<f64> = (0..9).map(f64::from).collect();
+    /// let (mut whole, mut part) = (vec![0.0; 3], vec![0.0; 3]);
+    /// op.apply_rows(1..2, &x, &mut whole);
+    /// op.apply_rows_from(1..2, 0, &x[..], &mut part); // rows 0..3 held
+    /// assert_eq!(whole, part);
+    /// let top_two = &x[3..]; // rows 1 and 2 only: enough for row 2
+    /// op.apply_rows_from(2..3, 1, top_two, &mut part);
+    /// op.apply_rows(2..3, &x, &mut whole);
+    /// assert_eq!(whole, part);
+    /// # Ok::<(), quintet::Error>(())
+    /// ```
+    fn apply_rows_from(&self, rows: Range<usize>, first: usize, x: &[T], y: &mut [T]) {
         let grid = self.grid();
         let (nx, ny) = (grid.nx(), grid.ny());
         for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
-            let (south, row, north) = row_neighbourhood(x, nx, ny, j);
+            let (south, row, north) = row_neighbourhood(x, first, nx, ny, j);
             row_product(|i| self.coeffs(i, j), south, row, north, y_row);
         }
     }
@@ -534,6 +562,9 @@ impl<T: Scalar, S: Stencil5<T> + ?Sized> Stencil5<T> for &S {
     }
     fn apply_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
         (**self).apply_rows(rows, x, y)
+    }
+    fn apply_rows_from(&self, rows: Range<usize>, first: usize, x: &[T], y: &mut [T]) {
+        (**self).apply_rows_from(rows, first, x, y)
     }
     fn first_nonpositive_center(&self) -> Option<(usize, T)> {
         (**self).first_nonpositive_center()

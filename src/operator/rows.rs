@@ -138,17 +138,20 @@ impl Coeffs5<f64> {
     }
 }
 
-/// The south row, the row itself and the north row of row `j` of `x` (`None` at grid edges).
+/// The south row, the row itself and the north row of grid row `j` of `x`, which holds the
+/// grid's rows from `first` on (`None` at grid edges).
 #[inline]
 pub(crate) fn row_neighbourhood<T>(
     x: &[T],
+    first: usize,
     nx: usize,
     ny: usize,
     j: usize,
 ) -> (Option<&[T]>, &[T], Option<&[T]>) {
-    let row = &x[j * nx..(j + 1) * nx];
-    let south = (j > 0).then(|| &x[(j - 1) * nx..j * nx]);
-    let north = (j + 1 < ny).then(|| &x[(j + 1) * nx..(j + 2) * nx]);
+    let at = (j - first) * nx;
+    let row = &x[at..at + nx];
+    let south = (j > 0).then(|| &x[at - nx..at]);
+    let north = (j + 1 < ny).then(|| &x[at + nx..at + 2 * nx]);
     (south, row, north)
 }
 

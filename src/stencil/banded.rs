@@ -408,6 +408,10 @@ impl<T: Scalar> Stencil5<T> for Banded5<T> {
     }
 
     fn apply_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
+        self.apply_rows_from(rows, 0, x, y);
+    }
+
+    fn apply_rows_from(&self, rows: Range<usize>, first: usize, x: &[T], y: &mut [T]) {
         let (nx, ny) = (self.grid.nx(), self.grid.ny());
         for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
             // Each band cut to exactly `nx` entries, so indexing below `nx` needs no checks.
@@ -418,7 +422,7 @@ impl<T: Scalar> Stencil5<T> for Banded5<T> {
                 &self.south[j * nx..][..nx],
                 &self.north[j * nx..][..nx],
             );
-            let (south, row, north) = row_neighbourhood(x, nx, ny, j);
+            let (south, row, north) = row_neighbourhood(x, first, nx, ny, j);
             row_product(
                 |i| Coeffs5 {
                     center: c[i],

@@ -231,6 +231,10 @@ impl<T: Scalar> Stencil5<T> for Symmetric5<T> {
     }
 
     fn apply_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
+        self.apply_rows_from(rows, 0, x, y);
+    }
+
+    fn apply_rows_from(&self, rows: Range<usize>, first: usize, x: &[T], y: &mut [T]) {
         let (nx, ny) = (self.grid.nx(), self.grid.ny());
         let zero = T::zero();
         for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
@@ -246,7 +250,7 @@ impl<T: Scalar> Stencil5<T> for Symmetric5<T> {
             } else {
                 n
             };
-            let (south, row, north) = row_neighbourhood(x, nx, ny, j);
+            let (south, row, north) = row_neighbourhood(x, first, nx, ny, j);
             row_product(
                 |i| Coeffs5 {
                     center: c[i],

@@ -209,7 +209,7 @@ impl<'a, T: Scalar> Banded5View<'a, T> {
 
     /// One grid row of products, with the neighbour coefficients read through `sign`.
     #[inline(always)]
-    fn row(&self, j: usize, x: &[T], y_row: &mut [T], sign: impl Fn(T) -> T) {
+    fn row(&self, j: usize, first: usize, x: &[T], y_row: &mut [T], sign: impl Fn(T) -> T) {
         let (nx, ny) = (self.grid.nx(), self.grid.ny());
         // Each band cut to exactly `nx` entries, so indexing below `nx` needs no checks.
         let (c, w, e, s, n) = (
@@ -219,7 +219,7 @@ impl<'a, T: Scalar> Banded5View<'a, T> {
             &self.south[j * nx..][..nx],
             &self.north[j * nx..][..nx],
         );
-        let (south, row, north) = row_neighbourhood(x, nx, ny, j);
+        let (south, row, north) = row_neighbourhood(x, first, nx, ny, j);
         row_product(
             |i| Coeffs5 {
                 center: c[i],
@@ -269,15 +269,19 @@ impl<T: Scalar> Stencil5<T> for Banded5View<'_, T> {
     }
 
     fn apply_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
+        self.apply_rows_from(rows, 0, x, y);
+    }
+
+    fn apply_rows_from(&self, rows: Range<usize>, first: usize, x: &[T], y: &mut [T]) {
         let nx = self.grid.nx();
         // One branch per call; each arm is its own monomorphised, vectorised row loop.
         if self.negated {
             for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
-                self.row(j, x, y_row, |v| -v);
+                self.row(j, first, x, y_row, |v| -v);
             }
         } else {
             for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
-                self.row(j, x, y_row, |v| v);
+                self.row(j, first, x, y_row, |v| v);
             }
         }
     }

@@ -78,11 +78,14 @@ impl<T: Scalar> Stencil5<T> for LevelOperator<T> {
         self.coeffs(i, j)
     }
     fn apply_rows(&self, rows: Range<usize>, x: &[T], y: &mut [T]) {
+        self.apply_rows_from(rows, 0, x, y);
+    }
+    fn apply_rows_from(&self, rows: Range<usize>, first: usize, x: &[T], y: &mut [T]) {
         let (nx, ny) = (self.grid.nx(), self.grid.ny());
         for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
             // The row's coefficients cut to exactly `nx` entries: no checks in the loop.
             let coeffs = &self.rows[j * nx..][..nx];
-            let (south, row, north) = row_neighbourhood(x, nx, ny, j);
+            let (south, row, north) = row_neighbourhood(x, first, nx, ny, j);
             row_product(|i| coeffs[i], south, row, north, y_row);
         }
     }

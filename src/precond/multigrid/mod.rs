@@ -65,16 +65,25 @@ mod transfer;
 
 use direct::{CoarsestSolve, MAX_DIRECT_CELLS};
 pub(crate) use level::{active_cells, inverse_centers, Level, LevelOperator};
-use smooth::Rows;
 pub(crate) use smooth::{relax_from_zero, StoredRows};
+use smooth::{scratch_rows, Rows};
 
 use super::{check_built_for, Preconditioner};
+use crate::blocks::threads_for;
 use crate::iterate::{IterativeSolver, NameCache, Requires, SolveOptions, Task, Workspace};
 use crate::operator::Stencil5;
 use crate::relax::correction_solve;
 use crate::space::Space;
 use crate::stencil::check_symmetry;
 use crate::{Error, Grid, LinearOperator, Progress, Report, Scalar};
+
+/// Most bands of rows the smoother cuts a level into (one per thread).
+const MAX_BANDS: usize = 16;
+
+/// Bands the scratch is sized for: the threads of the current pool, at most [`MAX_BANDS`].
+fn band_slots() -> usize {
+    threads_for(&crate::space::Threaded, usize::MAX).min(MAX_BANDS)
+}
 
 /// Relative tolerance below which the fine operator counts as symmetric.
 const SYMMETRY_TOLERANCE: f64 = 1e-10;
@@ -219,7 +228,9 @@ pub struct Multigrid<T> {
     /// Whether the fine operator's eliminated couplings were symmetric (to a relative 1e-10)
     /// when the hierarchy was built (otherwise the non-symmetric construction of `skew.rs`).
     symmetric: bool,
-    /// One row of the fine grid: the smoother's row products on every level.
+    /// The smoother's scratch on every level: per band of rows (one per thread of the pool the
+    /// hierarchy was built in, at most [`MAX_BANDS`]) a row product and the residual rows of a
+    /// restriction, [`smooth::scratch_rows`] rows of the fine grid.
     row_buffer: Vec<T>,
     /// `1/center` of the fine operator at free cells, 0 at fixed cells (`f32`, see
     /// `Level::inverse_centers`).
@@ -308,7 +319,10 @@ impl<T: Scalar> Multigrid<T> {
             levels,
             direct,
             symmetric,
-            row_buffer: vec![T::zero(); grid.nx()],
+            row_buffer: vec![
+                T::zero();
+                band_slots() * scratch_rows(settings.smoothing_sweeps) * grid.nx()
+            ],
             fine_inverse_centers,
             options: SolveOptions::default(),
             name: NameCache::default(),
@@ -403,7 +417,7 @@ impl<T: Scalar> Multigrid<T> {
     pub(crate) fn cycle(
         &mut self,
         fine: &dyn Stencil5<T>,
-        _space: &dyn Space,
+        space: &dyn Space,
         r: &[T],
         z: &mut [T],
     ) {
@@ -418,6 +432,7 @@ impl<T: Scalar> Multigrid<T> {
         }
         let nu = self.settings.smoothing_sweeps;
         let buf = &mut self.row_buffer;
+        let bands = |cells: usize| threads_for(space, cells);
         let top = Rows {
             op: fine,
             inv: &self.fine_inverse_centers,
@@ -426,7 +441,7 @@ impl<T: Scalar> Multigrid<T> {
         };
         {
             let (transfer, coarse_b) = self.levels[0].transfer_and_rhs();
-            top.pre_smooth_restrict(z, buf, nu, &transfer, coarse_b);
+            top.pre_smooth_restrict(z, buf, nu, bands(n), bands(n) > 1, &transfer, coarse_b);
         }
         // Down the hierarchy.
         let last = self.levels.len() - 1;
@@ -440,7 +455,16 @@ impl<T: Scalar> Multigrid<T> {
                 b: &here.b,
                 stored: Some(&here.op.rows),
             };
-            rows.pre_smooth_restrict(&mut here.x, buf, nu, &transfer, coarse_b);
+            let k = here.x.len();
+            rows.pre_smooth_restrict(
+                &mut here.x,
+                buf,
+                nu,
+                bands(k),
+                bands(k) > 1,
+                &transfer,
+                coarse_b,
+            );
         }
         let coarsest = &mut self.levels[last];
         self.direct.solve(&coarsest.b, &mut coarsest.x);
@@ -455,10 +479,27 @@ impl<T: Scalar> Multigrid<T> {
                 b: &here.b,
                 stored: Some(&here.op.rows),
             };
-            rows.prolong_smooth(&mut here.x, buf, nu, &below.transfer(), &below.x);
+            let k = here.x.len();
+            rows.prolong_smooth(
+                &mut here.x,
+                buf,
+                nu,
+                bands(k),
+                bands(k) > 1,
+                &below.transfer(),
+                &below.x,
+            );
         }
         let below = &self.levels[0];
-        top.prolong_smooth(z, buf, nu, &below.transfer(), &below.x);
+        top.prolong_smooth(
+            z,
+            buf,
+            nu,
+            bands(n),
+            bands(n) > 1,
+            &below.transfer(),
+            &below.x,
+        );
     }
 }
 

@@ -24,6 +24,7 @@ use std::ops::Range;
 
 use super::level::active_cells;
 use super::transfer::Transfer;
+use crate::blocks::join;
 use crate::operator::{cell_product, Stencil5};
 use crate::{Coeffs5, Scalar};
 
@@ -38,110 +39,459 @@ pub(crate) struct Rows<'a, T, R: ?Sized> {
     pub(crate) stored: Option<&'a [Coeffs5<T>]>,
 }
 
-impl<T: Scalar, R: Stencil5<T> + ?Sized> Rows<'_, T, R> {
-    /// The Gauss–Seidel update of the cells of `colour` (`(i + j) % 2 == colour`) on row `j`,
-    /// in place; `buf` (one row) is overwritten with the row's product.
+/// Rows of scratch each band needs: one for a row product, and the residual rows of the
+/// coarse rows restricted at a cut (`4ν + 6`, which also covers a band's ring of four).
+pub(crate) fn scratch_rows(sweeps: usize) -> usize {
+    4 * sweeps + 7
+}
+
+/// Fewest rows of a band: the rows a cut's pass finishes reach `2ν` rows into each band, and
+/// the coarse rows it restricts `2ν + 3`; a band keeps the two cuts' rows apart, and gives each
+/// thread enough rows to pay for the hand-over.
+fn min_band_rows(sweeps: usize) -> usize {
+    (4 * sweeps + 8).max(32)
+}
+
+/// Which smoothing phase a pass runs.
+#[derive(Clone, Copy, PartialEq)]
+enum Phase {
+    /// From `x = 0`, red then black, the residual restricted behind the last sweep.
+    Pre,
+    /// The prolongation ahead of the first sweep, black then red.
+    Post,
+}
+
+impl Phase {
+    /// The colour half-sweep `h` (1 to `2ν`) updates.
+    fn colour(self, h: usize) -> usize {
+        match self {
+            Phase::Pre => (h - 1) % 2,
+            Phase::Post => h % 2,
+        }
+    }
+}
+
+/// Rows `lo..hi` of a level of `ny` rows, smoothed by one thread. An edge of the band that is
+/// not an edge of the grid is a cut: the rows next to it need the rows across it, so the
+/// band's own pass leaves them behind by one half-sweep per row of distance, and the cut's
+/// pass finishes them after both bands are done.
+#[derive(Clone, Copy, Debug)]
+struct Band {
+    lo: usize,
+    hi: usize,
+    ny: usize,
+    sweeps: usize,
+}
+
+impl Band {
+    /// Rows from row `j` to the nearest cut (`usize::MAX` without one).
+    fn distance(&self, j: usize) -> usize {
+        let below = if self.lo > 0 { j - self.lo } else { usize::MAX };
+        let above = if self.hi < self.ny {
+            self.hi - 1 - j
+        } else {
+            usize::MAX
+        };
+        below.min(above)
+    }
+
+    /// Half-sweeps row `j` gets in the band's own pass.
+    fn stages(&self, j: usize) -> usize {
+        (2 * self.sweeps).min(self.distance(j))
+    }
+
+    /// Whether the band's own pass finishes row `j` and both its neighbours (its residual).
+    fn residual_ready(&self, j: usize) -> bool {
+        self.distance(j) > 2 * self.sweeps
+    }
+}
+
+/// The grid transfer a phase runs with the smoothing.
+enum Coarse<'t, 'c, T> {
+    /// Restrict the residual into the coarse right-hand side (the coarse rows of the band's
+    /// node, from coarse row `first`).
+    Restrict {
+        transfer: &'t Transfer<'t>,
+        coarse_b: &'c mut [T],
+        first: usize,
+    },
+    /// Add the prolongation of the coarse correction.
+    Prolong {
+        transfer: &'t Transfer<'t>,
+        coarse_x: &'c [T],
+    },
+}
+
+impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
+    /// Half-sweep `h` of `phase` on row `j`, `x` holding the rows from `first` on; `buf` (one
+    /// row) is overwritten.
     #[inline]
-    fn relax(&self, x: &mut [T], buf: &mut [T], j: usize, colour: usize) {
+    fn half_sweep(
+        &self,
+        phase: Phase,
+        x: &mut [T],
+        first: usize,
+        buf: &mut [T],
+        j: usize,
+        h: usize,
+    ) {
         let nx = buf.len();
+        if phase == Phase::Pre && h == 1 {
+            relax_from_zero_in(self.inv, self.b, x, first, nx, j, 0..nx);
+            return;
+        }
+        let colour = phase.colour(h);
         if let Some(rows) = self.stored {
             let stored = StoredRows {
                 rows,
                 inv: self.inv,
                 b: self.b,
             };
-            stored.relax(x, nx, j, colour, 0..nx);
+            stored.relax_in(x, first, nx, j, colour, 0..nx);
             return;
         }
-        self.op.apply_rows(j..j + 1, x, buf);
+        self.op.apply_rows_from(j..j + 1, first, x, buf);
         let base = j * nx;
-        let (x_row, b_row, d_row) = (
-            &mut x[base..][..nx],
-            &self.b[base..][..nx],
-            &self.inv[base..][..nx],
-        );
-        let first = (j + colour) % 2;
-        for i in (first..nx).step_by(2) {
+        let x_row = &mut x[(j - first) * nx..][..nx];
+        let (b_row, d_row) = (&self.b[base..][..nx], &self.inv[base..][..nx]);
+        let start = (j + colour) % 2;
+        for i in (start..nx).step_by(2) {
             x_row[i] = x_row[i] + (b_row[i] - buf[i]) * widen(d_row[i]);
         }
     }
 
+    /// The residual `b − A·x` of row `j` into `out`, `x` holding the rows from `first` on.
+    fn residual_row(&self, x: &[T], first: usize, j: usize, out: &mut [T]) {
+        let nx = out.len();
+        self.op.apply_rows_from(j..j + 1, first, x, out);
+        for (ri, &bi) in out.iter_mut().zip(&self.b[j * nx..][..nx]) {
+            *ri = bi - *ri;
+        }
+    }
+
     /// `ν` red-black sweeps from `x = 0` (red then black), then `coarse_b = Pᵀ·(b − A·x)` with
-    /// the inactive cells left out, in one pass. `buf` holds one row of the level.
+    /// the inactive cells left out, in one pass per band of rows. `scratch` holds
+    /// [`scratch_rows`]`(ν)` rows of the level per band; with more than one band
+    /// (`bands`, at most as many as the scratch holds, fewer on a short level) the bands run
+    /// side by side when `parallel`. Every cell gets the same expression from the same values
+    /// whatever the bands, so the bits do not depend on them.
+    #[allow(clippy::too_many_arguments)]
     pub(crate) fn pre_smooth_restrict(
         &self,
         x: &mut [T],
-        buf: &mut [T],
+        scratch: &mut [T],
         sweeps: usize,
+        bands: usize,
+        parallel: bool,
         transfer: &Transfer<'_>,
         coarse_b: &mut [T],
     ) {
+        let coarse = Coarse::Restrict {
+            transfer,
+            coarse_b,
+            first: 0,
+        };
+        self.smooth(Phase::Pre, x, scratch, sweeps, bands, parallel, coarse);
+    }
+
+    /// `x += P·coarse_x` (inactive cells left out), then `ν` red-black sweeps (black then
+    /// red, the mirror image of the pre-smoothing), in one pass per band of rows (as
+    /// [`pre_smooth_restrict`](Self::pre_smooth_restrict)).
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn prolong_smooth(
+        &self,
+        x: &mut [T],
+        scratch: &mut [T],
+        sweeps: usize,
+        bands: usize,
+        parallel: bool,
+        transfer: &Transfer<'_>,
+        coarse_x: &[T],
+    ) {
+        let coarse = Coarse::Prolong { transfer, coarse_x };
+        self.smooth(Phase::Post, x, scratch, sweeps, bands, parallel, coarse);
+    }
+
+    /// Both phases: the bands, then their cuts.
+    #[allow(clippy::too_many_arguments)]
+    fn smooth(
+        &self,
+        phase: Phase,
+        x: &mut [T],
+        scratch: &mut [T],
+        sweeps: usize,
+        bands: usize,
+        parallel: bool,
+        coarse: Coarse<'_, '_, T>,
+    ) {
         let grid = self.op.grid();
         let (nx, ny) = (grid.nx(), grid.ny());
-        let buf = &mut buf[..nx];
-        let active = active_cells(self.op);
-        coarse_b.iter_mut().for_each(|v| *v = T::zero());
-        let at = |t: usize, back: usize| t.checked_sub(back).filter(|&j| j < ny);
-        for t in 0..ny + 2 * sweeps {
-            for s in 0..sweeps {
-                if let Some(j) = at(t, 2 * s) {
-                    if s == 0 {
-                        relax_from_zero(self.inv, self.b, x, nx, j, 0..nx);
-                    } else {
-                        self.relax(x, buf, j, 0);
-                    }
+        let per_band = scratch_rows(sweeps) * nx;
+        let bands = bands
+            .min(scratch.len() / per_band)
+            .min(ny / min_band_rows(sweeps))
+            .max(1);
+        let node = Node {
+            lo: 0,
+            hi: ny,
+            bands,
+        };
+        self.node(phase, node, x, scratch, sweeps, parallel, coarse);
+    }
+
+    /// Rows `node.lo..node.hi` in `node.bands` bands: each half on its own (side by side
+    /// when `parallel`), then the cut between them. `x` holds the node's rows, `scratch` its
+    /// bands' scratch, a restriction the node's coarse rows.
+    #[allow(clippy::too_many_arguments)]
+    fn node(
+        &self,
+        phase: Phase,
+        node: Node,
+        x: &mut [T],
+        scratch: &mut [T],
+        sweeps: usize,
+        parallel: bool,
+        coarse: Coarse<'_, '_, T>,
+    ) {
+        let grid = self.op.grid();
+        let (nx, ny) = (grid.nx(), grid.ny());
+        let band = Band {
+            lo: node.lo,
+            hi: node.hi,
+            ny,
+            sweeps,
+        };
+        if node.bands <= 1 {
+            self.band(phase, band, x, scratch, coarse);
+            return;
+        }
+        let left = node.bands / 2;
+        // The cut at an even row, so that a coarse row's own fine rows stay in one band.
+        let m = (node.lo + (node.hi - node.lo) * left / node.bands) & !1;
+        let per_band = scratch_rows(sweeps) * nx;
+        let (x_lo, x_hi) = x.split_at_mut((m - node.lo) * nx);
+        let (s_lo, s_hi) = scratch.split_at_mut(left * per_band);
+        let lower = Node {
+            lo: node.lo,
+            hi: m,
+            bands: left,
+        };
+        let upper = Node {
+            lo: m,
+            hi: node.hi,
+            bands: node.bands - left,
+        };
+        let coarse = match coarse {
+            Coarse::Restrict {
+                transfer,
+                coarse_b,
+                first,
+            } => {
+                let ncx = coarse_b.len() / coarse_rows(node, ny, first).max(1);
+                let (c_lo, c_hi) = coarse_b.split_at_mut((m / 2 - first) * ncx);
+                join(
+                    parallel,
+                    || {
+                        let coarse = Coarse::Restrict {
+                            transfer,
+                            coarse_b: c_lo,
+                            first,
+                        };
+                        self.node(phase, lower, x_lo, s_lo, sweeps, parallel, coarse)
+                    },
+                    || {
+                        let coarse = Coarse::Restrict {
+                            transfer,
+                            coarse_b: c_hi,
+                            first: m / 2,
+                        };
+                        self.node(phase, upper, x_hi, s_hi, sweeps, parallel, coarse)
+                    },
+                );
+                Coarse::Restrict {
+                    transfer,
+                    coarse_b,
+                    first,
                 }
-                if let Some(j) = at(t, 2 * s + 1) {
-                    self.relax(x, buf, j, 1);
+            }
+            Coarse::Prolong { transfer, coarse_x } => {
+                join(
+                    parallel,
+                    || {
+                        let coarse = Coarse::Prolong { transfer, coarse_x };
+                        self.node(phase, lower, x_lo, s_lo, sweeps, parallel, coarse)
+                    },
+                    || {
+                        let coarse = Coarse::Prolong { transfer, coarse_x };
+                        self.node(phase, upper, x_hi, s_hi, sweeps, parallel, coarse)
+                    },
+                );
+                Coarse::Prolong { transfer, coarse_x }
+            }
+        };
+        self.cut(phase, band, m, x, scratch, coarse);
+    }
+
+    /// One band's own pass: all half-sweeps travel down its rows together (see the module
+    /// notes), each row only as far as [`Band::stages`] allows, with the prolongation one row
+    /// ahead or the residual's restriction behind.
+    fn band(
+        &self,
+        phase: Phase,
+        band: Band,
+        x: &mut [T],
+        scratch: &mut [T],
+        coarse: Coarse<'_, '_, T>,
+    ) {
+        let grid = self.op.grid();
+        let nx = grid.nx();
+        let (buf, ring) = scratch.split_at_mut(nx);
+        let ring = &mut ring[..4 * nx];
+        let (lo, hi, sweeps) = (band.lo, band.hi, band.sweeps);
+        let active = active_cells(self.op);
+        let (mut restrict, prolong_from) = match coarse {
+            Coarse::Restrict {
+                transfer,
+                coarse_b,
+                first,
+            } => (Some((transfer, coarse_b, first)), None),
+            Coarse::Prolong { transfer, coarse_x } => (None, Some((transfer, coarse_x))),
+        };
+        let prolong = |x: &mut [T], j: usize| {
+            if let Some((transfer, coarse_x)) = prolong_from {
+                let row = &mut x[(j - lo) * nx..][..nx];
+                transfer.prolong_row(j, 0..nx, row, &active, coarse_x);
+            }
+        };
+        if lo < hi {
+            prolong(x, lo);
+        }
+        let at = |t: usize, back: usize| t.checked_sub(back).filter(|j| (lo..hi).contains(j));
+        for t in lo..hi + 2 * sweeps {
+            // The first sweep reads row t + 1 at this step.
+            if t + 1 < hi {
+                prolong(x, t + 1);
+            }
+            for s in 0..sweeps {
+                for (h, back) in [(2 * s + 1, 2 * s), (2 * s + 2, 2 * s + 1)] {
+                    if let Some(j) = at(t, back).filter(|&j| h <= band.stages(j)) {
+                        self.half_sweep(phase, x, lo, buf, j, h);
+                    }
                 }
             }
             // The residual of row j needs rows j − 1 … j + 1 final: the last sweep's second
             // colour is on row t − 2ν + 1.
-            if let Some(j) = at(t, 2 * sweeps) {
-                self.op.apply_rows(j..j + 1, x, buf);
-                let b_row = &self.b[j * nx..][..nx];
-                for (ri, &bi) in buf.iter_mut().zip(b_row) {
-                    *ri = bi - *ri;
+            let Some((transfer, out, first)) = &mut restrict else {
+                continue;
+            };
+            let Some(j) = at(t, 2 * sweeps).filter(|&j| band.residual_ready(j)) else {
+                continue;
+            };
+            self.residual_row(x, lo, j, &mut ring[(j % 4) * nx..][..nx]);
+            // Coarse rows whose last fine row is j, all of whose fine rows this pass finished.
+            let ncx = transfer_width(out, band, *first, grid.ny());
+            for cj in j.saturating_sub(2) / 2..(j / 2 + 2).min(grid.ny().div_ceil(2)) {
+                let rows = transfer.fine_rows_of(cj, grid.ny());
+                if rows.is_empty()
+                    || rows.end != j + 1
+                    || rows.start < lo
+                    || !band.residual_ready(rows.start)
+                {
+                    continue;
                 }
-                transfer.restrict_row(j, 0..nx, buf, &active, coarse_b);
+                let ring = &*ring;
+                transfer.restrict_gather(
+                    cj,
+                    grid.ny(),
+                    |r| &ring[(r % 4) * nx..][..nx],
+                    &active,
+                    &mut out[(cj - *first) * ncx..][..ncx],
+                );
             }
         }
     }
 
-    /// `x += P·coarse_x` (inactive cells left out), then `ν` red-black sweeps (black then
-    /// red, the mirror image of the pre-smoothing), in one pass. `buf` holds one row.
-    pub(crate) fn prolong_smooth(
+    /// The pass of the cut at row `m` inside `band` (rows `band.lo..band.hi`, held by `x`),
+    /// after both bands' own passes: the rows the bands left behind get their remaining
+    /// half-sweeps, half-sweep by half-sweep (row `j` is `d` rows from the cut and had `d`
+    /// of them); then the coarse rows next to the cut are restricted from residual rows
+    /// computed in `scratch`.
+    fn cut(
         &self,
+        phase: Phase,
+        band: Band,
+        m: usize,
         x: &mut [T],
-        buf: &mut [T],
-        sweeps: usize,
-        transfer: &Transfer<'_>,
-        coarse_x: &[T],
+        scratch: &mut [T],
+        coarse: Coarse<'_, '_, T>,
     ) {
         let grid = self.op.grid();
         let (nx, ny) = (grid.nx(), grid.ny());
-        let buf = &mut buf[..nx];
-        let active = active_cells(self.op);
-        let prolong = |x: &mut [T], j: usize| {
-            transfer.prolong_row(j, 0..nx, &mut x[j * nx..][..nx], &active, coarse_x);
-        };
-        prolong(x, 0);
-        let at = |t: usize, back: usize| t.checked_sub(back).filter(|&j| j < ny);
-        for t in 0..ny + 2 * sweeps {
-            // The first sweep reads row t + 1 at this step.
-            if t + 1 < ny {
-                prolong(x, t + 1);
-            }
-            for s in 0..sweeps {
-                if let Some(j) = at(t, 2 * s) {
-                    self.relax(x, buf, j, 1);
-                }
-                if let Some(j) = at(t, 2 * s + 1) {
-                    self.relax(x, buf, j, 0);
-                }
+        let (lo, sweeps) = (band.lo, band.sweeps);
+        let (buf, rows) = scratch.split_at_mut(nx);
+        for h in 1..=2 * sweeps {
+            for j in m - h..(m + h).min(band.hi) {
+                self.half_sweep(phase, x, lo, buf, j, h);
             }
         }
+        let Coarse::Restrict {
+            transfer,
+            coarse_b,
+            first,
+        } = coarse
+        else {
+            return;
+        };
+        // Coarse rows with a fine row within 2ν rows of the cut (rows m − 2ν − 1 … m + 2ν).
+        let ncx = transfer_width(coarse_b, band, first, ny);
+        let c_first = (m / 2).saturating_sub(sweeps + 1);
+        let c_last = (m / 2 + sweeps).min(ny.div_ceil(2) - 1);
+        let r_first = transfer.fine_rows_of(c_first, ny).start;
+        let r_end = transfer.fine_rows_of(c_last, ny).end;
+        for j in r_first..r_end {
+            self.residual_row(x, lo, j, &mut rows[(j - r_first) * nx..][..nx]);
+        }
+        let active = active_cells(self.op);
+        let rows = &*rows;
+        for cj in c_first..=c_last {
+            transfer.restrict_gather(
+                cj,
+                ny,
+                |r| &rows[(r - r_first) * nx..][..nx],
+                &active,
+                &mut coarse_b[(cj - first) * ncx..][..ncx],
+            );
+        }
     }
+}
+
+/// Rows `lo..hi` split into `bands` bands.
+#[derive(Clone, Copy, Debug)]
+struct Node {
+    lo: usize,
+    hi: usize,
+    bands: usize,
+}
+
+/// Coarse rows of a node's restriction target (from coarse row `first`): up to the node's last
+/// fine row's aggregate.
+fn coarse_rows(node: Node, ny: usize, first: usize) -> usize {
+    let end = if node.hi == ny {
+        ny.div_ceil(2)
+    } else {
+        node.hi / 2
+    };
+    end - first
+}
+
+/// Coarse cells per row of a band's restriction target.
+fn transfer_width<T>(coarse_b: &[T], band: Band, first: usize, ny: usize) -> usize {
+    let node = Node {
+        lo: band.lo,
+        hi: band.hi,
+        bands: 1,
+    };
+    coarse_b.len() / coarse_rows(node, ny, first).max(1)
 }
 
 /// A level's stored rows, `1/center` and right-hand side, for the smoother's product at the
@@ -165,10 +515,24 @@ impl<T: Scalar> StoredRows<'_, T> {
         colour: usize,
         cols: Range<usize>,
     ) {
+        self.relax_in(x, 0, nx, j, colour, cols);
+    }
+
+    /// [`relax`](Self::relax) with `x` holding the rows from `first` on.
+    fn relax_in(
+        &self,
+        x: &mut [T],
+        first: usize,
+        nx: usize,
+        j: usize,
+        colour: usize,
+        cols: Range<usize>,
+    ) {
         let base = j * nx;
-        let (below, rest) = x.split_at_mut(base);
+        let at = (j - first) * nx;
+        let (below, rest) = x.split_at_mut(at);
         let (row, above) = rest.split_at_mut(nx);
-        let south = (j > 0).then(|| &below[base - nx..]);
+        let south = (j > 0).then(|| &below[at - nx..]);
         let north = (above.len() >= nx).then(|| &above[..nx]);
         let (coeffs, b, inv) = (
             &self.rows[base..][..nx],
@@ -193,8 +557,22 @@ pub(crate) fn relax_from_zero<T: Scalar>(
     j: usize,
     cols: Range<usize>,
 ) {
+    relax_from_zero_in(inv, b, x, 0, nx, j, cols);
+}
+
+/// [`relax_from_zero`] with `x` holding the rows from `first` on.
+fn relax_from_zero_in<T: Scalar>(
+    inv: &[f32],
+    b: &[T],
+    x: &mut [T],
+    first: usize,
+    nx: usize,
+    j: usize,
+    cols: Range<usize>,
+) {
     let base = j * nx;
-    let (x_row, b_row, d_row) = (&mut x[base..][..nx], &b[base..][..nx], &inv[base..][..nx]);
+    let x_row = &mut x[(j - first) * nx..][..nx];
+    let (b_row, d_row) = (&b[base..][..nx], &inv[base..][..nx]);
     let first = cols.start + (cols.start + j) % 2;
     for i in (first..cols.end).step_by(2) {
         x_row[i] = b_row[i] * widen(d_row[i]);
@@ -210,3 +588,7 @@ pub(crate) fn relax_from_zero<T: Scalar>(
 fn widen<T: Scalar>(v: f32) -> T {
     T::from(v).unwrap_or_else(T::zero)
 }
+
+#[cfg(test)]
+#[path = "smooth_tests.rs"]
+mod tests;

@@ -92,6 +92,96 @@ impl<'a> Transfer<'a> {
         }
     }
 
+    /// The fine rows whose residuals restrict onto coarse row `cj` (a level of `ny` fine rows),
+    /// in order: `2·cj − 1` to `2·cj + 2`, within the grid.
+    pub(crate) fn fine_rows_of(&self, cj: usize, ny: usize) -> Range<usize> {
+        (2 * cj).saturating_sub(1)..(2 * cj + 3).min(ny)
+    }
+
+    /// Row `cj` of `Pᵀ·r` into `out` (one coarse row), fine cells where `!active(k)` left out,
+    /// `residual(j)` the residual of fine row `j` for every row of
+    /// [`fine_rows_of`](Self::fine_rows_of). Each coarse cell adds its terms in the order
+    /// [`restrict_row`](Self::restrict_row) called row after row adds them (fine rows in
+    /// order, cells in order, a cell's four targets in the order of
+    /// [`stencil`](Self::stencil)) and from the same products, so the result is the same bits;
+    /// but a coarse row needs only its own fine rows, so bands of coarse rows can be restricted
+    /// apart.
+    pub(crate) fn restrict_gather<'r, T: Scalar + 'r>(
+        &self,
+        cj: usize,
+        ny: usize,
+        residual: impl Fn(usize) -> &'r [T],
+        active: impl Fn(usize) -> bool,
+        out: &mut [T],
+    ) {
+        out.iter_mut().for_each(|v| *v = T::zero());
+        for j in self.fine_rows_of(cj, ny) {
+            let (yp, yq) = (self.ay.parent(j) == cj, self.ay.neighbour(j) == cj);
+            if !(yp || yq) {
+                continue;
+            }
+            let r = residual(j);
+            let nx = r.len();
+            let base = j * nx;
+            let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
+            // A regular coarse cell `ci` (1 ≤ ci, 2·ci + 3 < nx) takes, in cell order, the
+            // neighbour share of cell 2ci − 1, the own shares of 2ci and 2ci + 1 and the
+            // neighbour share of 2ci + 2; with one of `yp`, `yq`, one term per cell. An
+            // inactive cell's term is zero, and adding zero to a sum that started at +0 leaves
+            // it as skipping the cell does (the sum is never −0).
+            let regular = if yp != yq {
+                (nx.saturating_sub(2) / 2).max(1)
+            } else {
+                1
+            };
+            let (wx, wy, r) = (&wx[..nx], &wy[..nx], &r[..nx]);
+            let term = |i: usize, own: bool| {
+                if !active(base + i) {
+                    return T::zero();
+                }
+                let ((ux, wxs), (uy, wys)) = (split::<T>(widen(wx[i])), split::<T>(widen(wy[i])));
+                let share_x = if own { ux } else { wxs };
+                let share_y = if yp { uy } else { wys };
+                share_x * share_y * r[i]
+            };
+            let inner = out.len().min(regular);
+            for (ci, acc) in out[..inner].iter_mut().enumerate().skip(1) {
+                let i = 2 * ci;
+                *acc = *acc
+                    + term(i - 1, false)
+                    + term(i, true)
+                    + term(i + 1, true)
+                    + term(i + 2, false);
+            }
+            let ends = (0..out.len()).filter(|&ci| ci == 0 || ci >= regular);
+            for ci in ends {
+                let mut sum = out[ci];
+                for i in (2 * ci).saturating_sub(1)..(2 * ci + 3).min(nx) {
+                    let (xp, xq) = (self.ax.parent(i) == ci, self.ax.neighbour(i) == ci);
+                    if !(xp || xq) || !active(base + i) {
+                        continue;
+                    }
+                    let ((ux, wxs), (uy, wys)) =
+                        (split::<T>(widen(wx[i])), split::<T>(widen(wy[i])));
+                    let ri = r[i];
+                    if yp && xp {
+                        sum = sum + ux * uy * ri;
+                    }
+                    if yp && xq {
+                        sum = sum + wxs * uy * ri;
+                    }
+                    if yq && xp {
+                        sum = sum + ux * wys * ri;
+                    }
+                    if yq && xq {
+                        sum = sum + wxs * wys * ri;
+                    }
+                }
+                out[ci] = sum;
+            }
+        }
+    }
+
     /// `x += P·coarse_x` on the cells `cols` of the fine row `j` (`x` that whole row), cells
     /// where `!active(k)` left out.
     #[inline]
