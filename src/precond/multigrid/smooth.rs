@@ -39,10 +39,11 @@ pub(crate) struct Rows<'a, T, R: ?Sized> {
     pub(crate) stored: Option<&'a [Coeffs5<T>]>,
 }
 
-/// Rows of scratch each band needs: one for a row product, and the residual rows of the
-/// coarse rows restricted at a cut (`4ν + 6`, which also covers a band's ring of four).
+/// Rows of scratch each band needs: one for a row product, two for the restriction's terms,
+/// and the residual rows of the coarse rows restricted at a cut (`4ν + 6`, which also covers a
+/// band's ring of four).
 pub(crate) fn scratch_rows(sweeps: usize) -> usize {
-    4 * sweeps + 7
+    4 * sweeps + 9
 }
 
 /// Fewest rows of a band: the rows a cut's pass finishes reach `2ν` rows into each band, and
@@ -345,10 +346,12 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
     ) {
         let grid = self.op.grid();
         let nx = grid.nx();
-        let (buf, ring) = scratch.split_at_mut(nx);
+        let (buf, rest) = scratch.split_at_mut(nx);
+        let (terms, ring) = rest.split_at_mut(2 * nx);
         let ring = &mut ring[..4 * nx];
         let (lo, hi, sweeps) = (band.lo, band.hi, band.sweeps);
         let active = active_cells(self.op);
+        let inactive = self.op.fixed().filter(|f| !f.is_empty());
         let (mut restrict, prolong_from) = match coarse {
             Coarse::Restrict {
                 transfer,
@@ -404,7 +407,8 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
                     cj,
                     grid.ny(),
                     |r| &ring[(r % 4) * nx..][..nx],
-                    &active,
+                    inactive,
+                    terms,
                     &mut out[(cj - *first) * ncx..][..ncx],
                 );
             }
@@ -428,7 +432,8 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
         let grid = self.op.grid();
         let (nx, ny) = (grid.nx(), grid.ny());
         let (lo, sweeps) = (band.lo, band.sweeps);
-        let (buf, rows) = scratch.split_at_mut(nx);
+        let (buf, rest) = scratch.split_at_mut(nx);
+        let (terms, rows) = rest.split_at_mut(2 * nx);
         for h in 1..=2 * sweeps {
             for j in m - h..(m + h).min(band.hi) {
                 self.half_sweep(phase, x, lo, buf, j, h);
@@ -451,14 +456,15 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
         for j in r_first..r_end {
             self.residual_row(x, lo, j, &mut rows[(j - r_first) * nx..][..nx]);
         }
-        let active = active_cells(self.op);
+        let inactive = self.op.fixed().filter(|f| !f.is_empty());
         let rows = &*rows;
         for cj in c_first..=c_last {
             transfer.restrict_gather(
                 cj,
                 ny,
                 |r| &rows[(r - r_first) * nx..][..nx],
-                &active,
+                inactive,
+                terms,
                 &mut coarse_b[(cj - first) * ncx..][..ncx],
             );
         }

@@ -5,6 +5,7 @@
 use std::ops::Range;
 
 use super::aggregate::{split, Axis};
+use crate::operator::FixedCells;
 use crate::Scalar;
 
 /// The interpolation between a level and the next finer one, borrowed apart from the level's
@@ -100,20 +101,23 @@ impl<'a> Transfer<'a> {
 
     /// Row `cj` of `Pᵀ·r` into `out` (one coarse row), fine cells where `!active(k)` left out,
     /// `residual(j)` the residual of fine row `j` for every row of
-    /// [`fine_rows_of`](Self::fine_rows_of). Each coarse cell adds its terms in the order
-    /// [`restrict_row`](Self::restrict_row) called row after row adds them (fine rows in
-    /// order, cells in order, a cell's four targets in the order of
-    /// [`stencil`](Self::stencil)) and from the same products, so the result is the same bits;
-    /// but a coarse row needs only its own fine rows, so bands of coarse rows can be restricted
-    /// apart.
+    /// [`fine_rows_of`](Self::fine_rows_of); `inactive` the fine level's inactive cells, if it
+    /// has any (the same cells as `!active`); `terms` is scratch of two fine rows. Each coarse
+    /// cell adds its terms in the order [`restrict_row`](Self::restrict_row) called row after
+    /// row adds them (fine rows in order, cells in order, a cell's four targets in the order
+    /// of [`stencil`](Self::stencil)) and from the same products, so the result is the same
+    /// bits; but a coarse row needs only its own fine rows, so bands of coarse rows can be
+    /// restricted apart.
     pub(crate) fn restrict_gather<'r, T: Scalar + 'r>(
         &self,
         cj: usize,
         ny: usize,
         residual: impl Fn(usize) -> &'r [T],
-        active: impl Fn(usize) -> bool,
+        inactive: Option<&FixedCells>,
+        terms: &mut [T],
         out: &mut [T],
     ) {
+        let active = |k: usize| !inactive.is_some_and(|f| f.contains(k));
         out.iter_mut().for_each(|v| *v = T::zero());
         for j in self.fine_rows_of(cj, ny) {
             let (yp, yq) = (self.ay.parent(j) == cj, self.ay.neighbour(j) == cj);
@@ -124,61 +128,83 @@ impl<'a> Transfer<'a> {
             let nx = r.len();
             let base = j * nx;
             let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
-            // A regular coarse cell `ci` (1 ≤ ci, 2·ci + 3 < nx) takes, in cell order, the
-            // neighbour share of cell 2ci − 1, the own shares of 2ci and 2ci + 1 and the
-            // neighbour share of 2ci + 2; with one of `yp`, `yq`, one term per cell. An
-            // inactive cell's term is zero, and adding zero to a sum that started at +0 leaves
-            // it as skipping the cell does (the sum is never −0).
-            let regular = if yp != yq {
-                (nx.saturating_sub(2) / 2).max(1)
+            if yp != yq {
+                // One row share: each cell's term towards its own aggregate (`own`) and
+                // towards its neighbour aggregate (`nb`), the products `restrict_row` forms;
+                // zero at an inactive cell (adding zero to a sum that started at +0 leaves it
+                // as skipping the cell does: the sum is never −0).
+                let (own, nb) = terms.split_at_mut(nx);
+                let nb = &mut nb[..nx];
+                let cells = own
+                    .iter_mut()
+                    .zip(nb.iter_mut())
+                    .zip(wx.iter().zip(wy))
+                    .zip(r);
+                for (k, (((own, nb), (&wx, &wy)), &ri)) in (base..).zip(cells) {
+                    let ((ux, wxs), (uy, wys)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
+                    let share_y = if yp { uy } else { wys };
+                    (*own, *nb) = if active(k) {
+                        (ux * share_y * ri, wxs * share_y * ri)
+                    } else {
+                        (T::zero(), T::zero())
+                    };
+                }
+                // A regular coarse cell `ci` (1 ≤ ci, 2·ci + 3 < nx) takes, in cell order, the
+                // neighbour term of cell 2ci − 1, the own terms of 2ci and 2ci + 1 and the
+                // neighbour term of 2ci + 2.
+                let regular = (nx.saturating_sub(2) / 2).max(1).min(out.len());
+                let (own, nb) = (&own[..nx], &nb[..nx]);
+                for (ci, acc) in out[..regular].iter_mut().enumerate().skip(1) {
+                    let i = 2 * ci;
+                    *acc = *acc + nb[i - 1] + own[i] + own[i + 1] + nb[i + 2];
+                }
+                self.gather_ends(yp, yq, base, r, wx, wy, &active, regular, out);
             } else {
-                1
-            };
-            let (wx, wy, r) = (&wx[..nx], &wy[..nx], &r[..nx]);
-            let term = |i: usize, own: bool| {
-                if !active(base + i) {
-                    return T::zero();
+                self.gather_ends(yp, yq, base, r, wx, wy, &active, 1, out);
+            }
+        }
+    }
+
+    /// The general form of [`restrict_gather`](Self::restrict_gather)'s terms of one fine row
+    /// (starting at cell `base`), for the coarse cells 0 and `from..`.
+    #[allow(clippy::too_many_arguments)]
+    fn gather_ends<T: Scalar>(
+        &self,
+        yp: bool,
+        yq: bool,
+        base: usize,
+        r: &[T],
+        wx: &[f32],
+        wy: &[f32],
+        active: impl Fn(usize) -> bool,
+        from: usize,
+        out: &mut [T],
+    ) {
+        let nx = r.len();
+        let ends = (0..out.len()).filter(|&ci| ci == 0 || ci >= from);
+        for ci in ends {
+            let mut sum = out[ci];
+            for i in (2 * ci).saturating_sub(1)..(2 * ci + 3).min(nx) {
+                let (xp, xq) = (self.ax.parent(i) == ci, self.ax.neighbour(i) == ci);
+                if !(xp || xq) || !active(base + i) {
+                    continue;
                 }
                 let ((ux, wxs), (uy, wys)) = (split::<T>(widen(wx[i])), split::<T>(widen(wy[i])));
-                let share_x = if own { ux } else { wxs };
-                let share_y = if yp { uy } else { wys };
-                share_x * share_y * r[i]
-            };
-            let inner = out.len().min(regular);
-            for (ci, acc) in out[..inner].iter_mut().enumerate().skip(1) {
-                let i = 2 * ci;
-                *acc = *acc
-                    + term(i - 1, false)
-                    + term(i, true)
-                    + term(i + 1, true)
-                    + term(i + 2, false);
-            }
-            let ends = (0..out.len()).filter(|&ci| ci == 0 || ci >= regular);
-            for ci in ends {
-                let mut sum = out[ci];
-                for i in (2 * ci).saturating_sub(1)..(2 * ci + 3).min(nx) {
-                    let (xp, xq) = (self.ax.parent(i) == ci, self.ax.neighbour(i) == ci);
-                    if !(xp || xq) || !active(base + i) {
-                        continue;
-                    }
-                    let ((ux, wxs), (uy, wys)) =
-                        (split::<T>(widen(wx[i])), split::<T>(widen(wy[i])));
-                    let ri = r[i];
-                    if yp && xp {
-                        sum = sum + ux * uy * ri;
-                    }
-                    if yp && xq {
-                        sum = sum + wxs * uy * ri;
-                    }
-                    if yq && xp {
-                        sum = sum + ux * wys * ri;
-                    }
-                    if yq && xq {
-                        sum = sum + wxs * wys * ri;
-                    }
+                let ri = r[i];
+                if yp && xp {
+                    sum = sum + ux * uy * ri;
                 }
-                out[ci] = sum;
+                if yp && xq {
+                    sum = sum + wxs * uy * ri;
+                }
+                if yq && xp {
+                    sum = sum + ux * wys * ri;
+                }
+                if yq && xq {
+                    sum = sum + wxs * wys * ri;
+                }
             }
+            out[ci] = sum;
         }
     }
 
