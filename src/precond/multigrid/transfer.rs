@@ -158,9 +158,9 @@ impl<'a> Transfer<'a> {
                     let i = 2 * ci;
                     *acc = *acc + nb[i - 1] + own[i] + own[i + 1] + nb[i + 2];
                 }
-                self.gather_ends(yp, yq, base, r, wx, wy, &active, regular, out);
+                self.gather_ends(yp, yq, base, r, wx, wy, active, regular, out);
             } else {
-                self.gather_ends(yp, yq, base, r, wx, wy, &active, 1, out);
+                self.gather_ends(yp, yq, base, r, wx, wy, active, 1, out);
             }
         }
     }
