@@ -80,11 +80,6 @@ use crate::{Error, Grid, LinearOperator, Progress, Report, Scalar};
 /// Most bands of rows the smoother cuts a level into (one per thread).
 const MAX_BANDS: usize = 16;
 
-/// Bands the scratch is sized for: the threads of the current pool, at most [`MAX_BANDS`].
-fn band_slots() -> usize {
-    threads_for(&crate::space::Threaded, usize::MAX).min(MAX_BANDS)
-}
-
 /// Relative tolerance below which the fine operator counts as symmetric.
 const SYMMETRY_TOLERANCE: f64 = 1e-10;
 
@@ -195,14 +190,17 @@ impl Default for MultigridSettings {
 /// correction scaled by the energy-minimising step ([`MultigridSettings::energy_step`]).
 ///
 /// Storage beyond the fine operator: the coarse operators (five coefficients per coarse cell,
-/// a third of the fine cell count over all levels), two vectors per coarse cell, one row of
-/// the fine grid, and the coarsest factor; under the 1.5 × five-array budget of the fine
-/// operator ([`storage_bytes`](Multigrid::storage_bytes)).
+/// a third of the fine cell count over all levels), two vectors per coarse cell, about
+/// `4ν + 9` rows of the fine grid per thread (at most 16) as the smoother's scratch, and the
+/// coarsest factor; under the 1.5 × five-array budget of the fine operator
+/// ([`storage_bytes`](Multigrid::storage_bytes)).
 ///
 /// Each level is smoothed in two passes over its rows per cycle (all `ν` red-black sweeps
 /// travel down the grid together, the residual's restriction trailing them, the
-/// prolongation leading the post-smoothing); these passes run on one thread, so the result is
-/// the same for any thread count.
+/// prolongation leading the post-smoothing). With a threaded [`Space`] (the default) a level
+/// of at least [`PARALLEL_MIN_CELLS`](crate::space::PARALLEL_MIN_CELLS) cells is cut into
+/// bands of rows, one per thread of the current pool (at most as many as when the hierarchy
+/// was built), smoothed side by side; the result is the same bits for any thread count.
 ///
 /// # Example
 ///
@@ -321,7 +319,7 @@ impl<T: Scalar> Multigrid<T> {
             symmetric,
             row_buffer: vec![
                 T::zero();
-                band_slots() * scratch_rows(settings.smoothing_sweeps) * grid.nx()
+                scratch_rows(grid, settings.smoothing_sweeps, MAX_BANDS) * grid.nx()
             ],
             fine_inverse_centers,
             options: SolveOptions::default(),
@@ -375,7 +373,7 @@ impl<T: Scalar> Multigrid<T> {
         self.settings
     }
 
-    /// Bytes held by the hierarchy (coarse operators, level vectors, one fine row of scratch
+    /// Bytes held by the hierarchy (coarse operators, level vectors, the smoother's scratch rows
     /// and the coarsest factor), not counting the fine operator itself.
     ///
     /// ```
@@ -411,9 +409,9 @@ impl<T: Scalar> Multigrid<T> {
 
     /// One V-cycle from a zero initial guess, `z = B·r`, with `fine` the fine-level operator.
     /// Each level is smoothed in two passes over its rows (see `smooth.rs`): pre-smoothing
-    /// with the residual's restriction, and the prolongation with post-smoothing. The passes
-    /// are serial, so `_space` decides nothing here and the result is the same for any
-    /// thread count.
+    /// with the residual's restriction, and the prolongation with post-smoothing, each in
+    /// bands of rows on as many threads as `space` allows; the result is the same bits for
+    /// any thread count.
     pub(crate) fn cycle(
         &mut self,
         fine: &dyn Stencil5<T>,

@@ -1,5 +1,5 @@
 //! The red-black Gauss–Seidel smoother fused with the grid transfers, in one pass over the rows
-//! of a level per smoothing phase.
+//! of a level per smoothing phase, in bands of rows side by side.
 //!
 //! Cells of one colour do not couple to each other in a 5-point stencil, so a half-sweep may
 //! update its cells in place, in any order, from the current values of the other colour: the
@@ -17,16 +17,30 @@
 //! flight (about `2ν + 2` of them) stay in cache. Every cell update is the same expression as a
 //! half-sweep computed from a whole product — `x + (b − A·x)/center` with the row product in
 //! the operator's fixed summation order — so the results are the same bits as smoothing one
-//! half-sweep at a time, and the pass is serial, which keeps them independent of the thread
-//! count.
+//! half-sweep at a time.
+//!
+//! **Bands.** A level is cut at even rows into bands, one per thread, and each band runs the
+//! wavefront on its own rows, on its own slice of `x`. Half-sweep `h` of a row needs its
+//! neighbours after half-sweep `h − 1` (or `h`, which changes only the other colour), so a row
+//! `d` rows from a cut gets only its first `d` half-sweeps in the band's pass (the rows beside
+//! the cut none, and no band reads across a cut). After both bands of a cut are done, the
+//! cut's pass gives the rows within `2ν` of it their remaining half-sweeps, half-sweep by
+//! half-sweep (`2ν(2ν + 1)` row updates, a few per cent of a band at the sizes where bands pay).
+//! The restriction is computed by coarse row (a gather from the coarse row's four fine
+//! residual rows, each coarse cell adding its terms in the order the row-by-row scatter adds
+//! them): a band restricts the coarse rows whose fine rows it finished, the cut's pass those
+//! beside the cut. Every cell thus gets the same expression from the same values, and every
+//! coarse cell the same sum, whatever the bands — the bits do not depend on the thread count
+//! (unit test `smooth_tests.rs`: 1 to 6 bands, serial and side by side, bit for bit).
 
 use std::ops::Range;
 
 use super::level::active_cells;
 use super::transfer::Transfer;
-use crate::blocks::join;
+use crate::blocks::{join, threads_for};
 use crate::operator::{cell_product, Stencil5};
-use crate::{Coeffs5, Scalar};
+use crate::space::Threaded;
+use crate::{Coeffs5, Grid, Scalar};
 
 /// The rows of one level being smoothed: operator, `1/center` (zero at inactive cells, so they
 /// keep their zero) and right-hand side.
@@ -42,8 +56,22 @@ pub(crate) struct Rows<'a, T, R: ?Sized> {
 /// Rows of scratch each band needs: one for a row product, two for the restriction's terms,
 /// and the residual rows of the coarse rows restricted at a cut (`4ν + 6`, which also covers a
 /// band's ring of four).
-pub(crate) fn scratch_rows(sweeps: usize) -> usize {
+fn band_scratch_rows(sweeps: usize) -> usize {
     4 * sweeps + 9
+}
+
+/// Rows of the fine grid the smoother's scratch needs on `grid` (the fine level) for as many
+/// bands as the current pool has threads, at most `max_bands` and as many as the grid has rows
+/// for; one band without a cut needs seven.
+pub(crate) fn scratch_rows(grid: Grid, sweeps: usize, max_bands: usize) -> usize {
+    let bands = threads_for(&Threaded, usize::MAX)
+        .min(max_bands)
+        .min(grid.ny() / min_band_rows(sweeps));
+    if bands > 1 {
+        bands * band_scratch_rows(sweeps)
+    } else {
+        7
+    }
 }
 
 /// Fewest rows of a band: the rows a cut's pass finishes reach `2ν` rows into each band, and
@@ -171,8 +199,8 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
     }
 
     /// `ν` red-black sweeps from `x = 0` (red then black), then `coarse_b = Pᵀ·(b − A·x)` with
-    /// the inactive cells left out, in one pass per band of rows. `scratch` holds
-    /// [`scratch_rows`]`(ν)` rows of the level per band; with more than one band
+    /// the inactive cells left out, in one pass per band of rows. `scratch` holds seven rows
+    /// of the level, or [`band_scratch_rows`]`(ν)` per band; with more than one band
     /// (`bands`, at most as many as the scratch holds, fewer on a short level) the bands run
     /// side by side when `parallel`. Every cell gets the same expression from the same values
     /// whatever the bands, so the bits do not depend on them.
@@ -227,7 +255,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
     ) {
         let grid = self.op.grid();
         let (nx, ny) = (grid.nx(), grid.ny());
-        let per_band = scratch_rows(sweeps) * nx;
+        let per_band = band_scratch_rows(sweeps) * nx;
         let bands = bands
             .min(scratch.len() / per_band)
             .min(ny / min_band_rows(sweeps))
@@ -269,7 +297,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
         let left = node.bands / 2;
         // The cut at an even row, so that a coarse row's own fine rows stay in one band.
         let m = (node.lo + (node.hi - node.lo) * left / node.bands) & !1;
-        let per_band = scratch_rows(sweeps) * nx;
+        let per_band = band_scratch_rows(sweeps) * nx;
         let (x_lo, x_hi) = x.split_at_mut((m - node.lo) * nx);
         let (s_lo, s_hi) = scratch.split_at_mut(left * per_band);
         let lower = Node {

@@ -3,7 +3,7 @@
 //! ordering argument of the module notes), and each coarse cell adds its restriction terms in
 //! the same order.
 
-use super::{scratch_rows, Rows};
+use super::{band_scratch_rows, Rows};
 use crate::precond::multigrid::{Multigrid, MultigridSettings};
 use crate::{Banded5, Coeffs5, FixedCells, Grid};
 
@@ -75,7 +75,7 @@ fn bands_do_not_change_the_bits() {
         let mut mg = Multigrid::new(&op, settings).unwrap();
         let mut g = Numbers(seed + 10);
         let b: Vec<f64> = (0..grid.cells()).map(|_| g.next() - 0.5).collect();
-        let per_band = scratch_rows(sweeps) * nx;
+        let per_band = band_scratch_rows(sweeps) * nx;
         let fine_inv = mg.fine_inverse_centers.clone();
         let (level0, rest) = mg.levels.split_at_mut(1);
         let (level0, level1) = (&mut level0[0], &mut rest[0]);
