@@ -328,6 +328,29 @@ fn main() {
             "parallel_speedup_vs_triad_speedup={:.3}",
             cg_speedup / triad_speedup
         );
+        // The same for whole MG-PCG solves (the V-cycle's smoothing passes in bands of rows),
+        // hierarchies built in the larger pool (their scratch sized for its threads), triads
+        // beside them again.
+        let mut mg1 = many.install(|| WarmMgPcg::new(2000));
+        let mut mgn = many.install(|| WarmMgPcg::new(2000));
+        let [t_mg1, t_mgn, t_tr1, t_trn] = interleaved(
+            5,
+            [
+                &mut || single.install(|| mg1.solve()),
+                &mut || many.install(|| mgn.solve()),
+                &mut || triad1(&mut ta),
+                &mut || triadn(&mut ta2),
+            ],
+        );
+        let (mg_speedup, triad_speedup) = (t_mg1 / t_mgn, t_tr1 / t_trn);
+        println!(
+            "# MG-PCG 2000x2000 speed-up {mg_speedup:.2}, triad speed-up {triad_speedup:.2} on \
+             {threads} threads"
+        );
+        println!(
+            "mgpcg_parallel_speedup_vs_triad_speedup={:.3}",
+            mg_speedup / triad_speedup
+        );
     } else {
         println!("# one thread only: parallel_speedup_vs_triad_speedup not measured");
     }

@@ -226,19 +226,43 @@ impl<'a> Transfer<'a> {
             self.ay.neighbour(j) * self.ncx,
         );
         let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
-        let cells = x[cols.clone()]
+        // Cells 2 ≤ i < nx − 1 interpolate from their own aggregate and the one before (even
+        // i) or after (odd i): the neighbour without `Axis::neighbour`'s tests. The same
+        // products and sums as the general form below.
+        let regular = cols.start.max(2)..cols.end.min(nx.saturating_sub(1));
+        let (own, nb) = (&coarse_x[p..], &coarse_x[q..]);
+        let cells = x[regular.clone()]
             .iter_mut()
-            .zip(&wx[cols.clone()])
-            .zip(&wy[cols.clone()]);
-        for (i, ((v, &wx), &wy)) in cols.zip(cells) {
+            .zip(&wx[regular.clone()])
+            .zip(&wy[regular.clone()]);
+        for (i, ((v, &wx), &wy)) in regular.clone().zip(cells) {
+            if !active(base + i) {
+                continue;
+            }
+            let pi = i / 2;
+            let qi = if i % 2 == 1 { pi + 1 } else { pi - 1 };
+            let ((ux, wx), (uy, wy)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
+            let e = T::zero()
+                + ux * uy * own[pi]
+                + wx * uy * own[qi]
+                + ux * wy * nb[pi]
+                + wx * wy * nb[qi];
+            *v = *v + e;
+        }
+        let ends = if regular.is_empty() {
+            cols.clone().chain(0..0)
+        } else {
+            (cols.start..regular.start).chain(regular.end..cols.end)
+        };
+        for i in ends {
             if !active(base + i) {
                 continue;
             }
             let mut e = T::zero();
-            for (kc, w) in self.cell::<T>(i, p, q, wx, wy) {
+            for (kc, w) in self.cell::<T>(i, p, q, wx[i], wy[i]) {
                 e = e + w * coarse_x[kc];
             }
-            *v = *v + e;
+            x[i] = x[i] + e;
         }
     }
 }
