@@ -141,7 +141,8 @@ fn bench_cg_iteration(c: &mut Criterion) {
     group.finish();
 }
 
-/// One f32 multigrid V(3,3) cycle (default settings) on Poisson, serial: throughput in the
+/// One f32 multigrid V(3,3) cycle (default settings) on Poisson, serial and threaded (the
+/// smoothing passes in bands of rows, one per thread of rayon's pool): throughput in the
 /// cycle's model bytes (`BYTES_VCYCLE_F32_*`).
 fn bench_vcycle(c: &mut Criterion) {
     let mut group = c.benchmark_group("vcycle_f32");
@@ -157,6 +158,9 @@ fn bench_vcycle(c: &mut Criterion) {
         ));
         group.bench_function(BenchmarkId::new("serial", n), |b| {
             b.iter(|| mg.apply(&single, &quintet::space::Serial, &r, &mut z))
+        });
+        group.bench_function(BenchmarkId::new("threaded", n), |b| {
+            b.iter(|| mg.apply(&single, &quintet::space::Threaded, &r, &mut z))
         });
     }
     group.finish();

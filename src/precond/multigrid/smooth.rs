@@ -316,7 +316,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
                 coarse_b,
                 first,
             } => {
-                let ncx = coarse_b.len() / coarse_rows(node, ny, first).max(1);
+                let ncx = transfer.coarse_width();
                 let (c_lo, c_hi) = coarse_b.split_at_mut((m / 2 - first) * ncx);
                 join(
                     parallel,
@@ -420,7 +420,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
             };
             self.residual_row(x, lo, j, &mut ring[(j % 4) * nx..][..nx]);
             // Coarse rows whose last fine row is j, all of whose fine rows this pass finished.
-            let ncx = transfer_width(out, band, *first, grid.ny());
+            let ncx = transfer.coarse_width();
             for cj in j.saturating_sub(2) / 2..(j / 2 + 2).min(grid.ny().div_ceil(2)) {
                 let rows = transfer.fine_rows_of(cj, grid.ny());
                 if rows.is_empty()
@@ -476,7 +476,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
             return;
         };
         // Coarse rows with a fine row within 2ν rows of the cut (rows m − 2ν − 1 … m + 2ν).
-        let ncx = transfer_width(coarse_b, band, first, ny);
+        let ncx = transfer.coarse_width();
         let c_first = (m / 2).saturating_sub(sweeps + 1);
         let c_last = (m / 2 + sweeps).min(ny.div_ceil(2) - 1);
         let r_first = transfer.fine_rows_of(c_first, ny).start;
@@ -507,27 +507,6 @@ struct Node {
     bands: usize,
 }
 
-/// Coarse rows of a node's restriction target (from coarse row `first`): up to the node's last
-/// fine row's aggregate.
-fn coarse_rows(node: Node, ny: usize, first: usize) -> usize {
-    let end = if node.hi == ny {
-        ny.div_ceil(2)
-    } else {
-        node.hi / 2
-    };
-    end - first
-}
-
-/// Coarse cells per row of a band's restriction target.
-fn transfer_width<T>(coarse_b: &[T], band: Band, first: usize, ny: usize) -> usize {
-    let node = Node {
-        lo: band.lo,
-        hi: band.hi,
-        bands: 1,
-    };
-    coarse_b.len() / coarse_rows(node, ny, first).max(1)
-}
-
 /// A level's stored rows, `1/center` and right-hand side, for the smoother's product at the
 /// cells of one colour only.
 pub(crate) struct StoredRows<'a, T> {
@@ -537,10 +516,10 @@ pub(crate) struct StoredRows<'a, T> {
 }
 
 impl<T: Scalar> StoredRows<'_, T> {
-    /// [`Rows::relax`] on stored rows, for the cells of `colour` in the columns `cols` of row
-    /// `j` (`nx` wide): the product at those cells only, by the crate's one-cell product
-    /// (same bits as the whole-row product). Distributed levels pass their own columns; the
-    /// serial cycle all.
+    /// A Gauss–Seidel half-sweep on stored rows, for the cells of `colour` in the columns
+    /// `cols` of row `j` (`nx` wide): the product at those cells only, by the crate's one-cell
+    /// product (same bits as the whole-row product). Distributed levels pass their own columns;
+    /// the serial cycle all.
     pub(crate) fn relax(
         &self,
         x: &mut [T],

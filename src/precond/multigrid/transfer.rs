@@ -93,6 +93,11 @@ impl<'a> Transfer<'a> {
         }
     }
 
+    /// Cells per row of the coarse grid.
+    pub(crate) fn coarse_width(&self) -> usize {
+        self.ncx
+    }
+
     /// The fine rows whose residuals restrict onto coarse row `cj` (a level of `ny` fine rows),
     /// in order: `2·cj − 1` to `2·cj + 2`, within the grid.
     pub(crate) fn fine_rows_of(&self, cj: usize, ny: usize) -> Range<usize> {
@@ -229,7 +234,8 @@ impl<'a> Transfer<'a> {
         // Cells 2 ≤ i < nx − 1 interpolate from their own aggregate and the one before (even
         // i) or after (odd i): the neighbour without `Axis::neighbour`'s tests. The same
         // products and sums as the general form below.
-        let regular = cols.start.max(2)..cols.end.min(nx.saturating_sub(1));
+        let start = cols.start.max(2).min(cols.end);
+        let regular = start..cols.end.min(nx.saturating_sub(1)).max(start);
         let (own, nb) = (&coarse_x[p..], &coarse_x[q..]);
         let cells = x[regular.clone()]
             .iter_mut()
