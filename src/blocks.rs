@@ -544,6 +544,45 @@ impl<T: Scalar> Blocks<T> {
     }
 }
 
+impl Blocks<f64> {
+    /// `a·b` with `b` widened from `f32` entry by entry: the bits of [`Blocks::dot`] on the
+    /// widened vector, without writing it out (`f64::from` is exact).
+    pub(crate) fn dot_widened(&mut self, space: &dyn Space, a: &[f64], b: &[f32]) -> f64 {
+        let a = self.clip(a);
+        let b = &b[..self.len.min(b.len())];
+        self.reduce(space, |cells| {
+            (block_dot_widened(slice(a, &cells), slice(b, &cells)), 0.0)
+        })
+        .0
+    }
+
+    /// `p = z + β·p` with `z` widened from `f32` (`p = z` without `β`): the bits of
+    /// [`Blocks::direction_update`] (or of a copy) on the widened vector (no reduction).
+    pub(crate) fn direction_widened(
+        &mut self,
+        space: &dyn Space,
+        z: &[f32],
+        beta: Option<f64>,
+        p: &mut [f64],
+    ) {
+        self.for_each(space, p, |cells, p| {
+            let z = slice(z, &cells);
+            match beta {
+                Some(beta) => {
+                    for (pi, &zi) in p.iter_mut().zip(z) {
+                        *pi = f64::from(zi) + beta * *pi;
+                    }
+                }
+                None => {
+                    for (pi, &zi) in p.iter_mut().zip(z) {
+                        *pi = f64::from(zi);
+                    }
+                }
+            }
+        });
+    }
+}
+
 /// Two output blocks cut alike.
 type Pair<'a, T> = (&'a mut [T], &'a mut [T]);
 
@@ -586,6 +625,27 @@ pub(crate) fn block_dot<T: Scalar>(a: &[T], b: &[T]) -> T {
     let mut tail = T::zero();
     for (&x, &y) in ra.iter().zip(rb) {
         tail = tail + x * y;
+    }
+    ((acc[0] + acc[1]) + (acc[2] + acc[3])) + tail
+}
+
+/// [`block_dot`] of `a` with `b` widened from `f32`, in the same order (the same bits as
+/// [`block_dot`] on the widened copy).
+#[inline]
+fn block_dot_widened(a: &[f64], b: &[f32]) -> f64 {
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
+    let mut acc = [0.0f64; 4];
+    let (a4, b4) = (a.chunks_exact(4), b.chunks_exact(4));
+    let (ra, rb) = (a4.remainder(), b4.remainder());
+    for (x, y) in a4.zip(b4) {
+        for l in 0..4 {
+            acc[l] += x[l] * f64::from(y[l]);
+        }
+    }
+    let mut tail = 0.0;
+    for (&x, &y) in ra.iter().zip(rb) {
+        tail += x * f64::from(y);
     }
     ((acc[0] + acc[1]) + (acc[2] + acc[3])) + tail
 }

@@ -98,6 +98,25 @@ struct CgStep<'p, P: ?Sized, T> {
     rz_previous: Option<T>,
 }
 
+/// The rest of a PCG iteration once `p` (the second work vector) is the new direction and
+/// `rz = r·z`: `q = A·p` with `p·q` into the first work vector (`z`'s storage, dead by now),
+/// then `x += α·p`, `r −= α·q` with `r·r`.
+fn advance<T: Scalar>(cx: &mut Context<'_, T>, rz: T) -> Result<Step<T>, Breakdown<T>> {
+    let [q, p, ..] = cx.work else {
+        unreachable!("two work vectors were declared")
+    };
+    let pq = cx.blocks.apply_dot_free(cx.space, cx.op, p, q);
+    if !is_positive(pq) {
+        return Err(Breakdown::Curvature(pq));
+    }
+    let (rr, change) = cx.blocks.cg_update(cx.space, rz / pq, p, q, cx.x, cx.r);
+    Ok(Step {
+        rr,
+        change: Some(change),
+        residual: Residual::Updated,
+    })
+}
+
 impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for CgStep<'_, P, T> {
     /// `z` and `p`: the product `q = A·p` goes into `z`'s storage, which is dead once `p` has
     /// taken its new direction (one vector less per cell than `z`, `p`, `q` apart).
@@ -109,6 +128,20 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for CgStep<'_, P, T> {
         let [z, p, ..] = cx.work else {
             unreachable!("two work vectors were declared")
         };
+        // A preconditioner that forms r·z and the direction from its own z (SinglePrecision:
+        // z in f32) saves the passes below; the same bits.
+        if !self.identity {
+            let rz = self
+                .pre
+                .apply_to_direction(cx.op, cx.space, cx.r, self.rz_previous, p);
+            if let Some(rz) = rz {
+                if !is_positive(rz) {
+                    return Err(Breakdown::Preconditioner(rz));
+                }
+                self.rz_previous = Some(rz);
+                return advance(cx, rz);
+            }
+        }
         // z = M⁻¹ r, held at zero on fixed cells so they never move.
         let rz = if self.identity {
             rr
@@ -128,17 +161,7 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for CgStep<'_, P, T> {
                 .direction_update(cx.space, direction, rz / previous, p),
         }
         self.rz_previous = Some(rz);
-        let q = z;
-        let pq = cx.blocks.apply_dot_free(cx.space, cx.op, p, q);
-        if !is_positive(pq) {
-            return Err(Breakdown::Curvature(pq));
-        }
-        let (rr, change) = cx.blocks.cg_update(cx.space, rz / pq, p, q, cx.x, cx.r);
-        Ok(Step {
-            rr,
-            change: Some(change),
-            residual: Residual::Updated,
-        })
+        advance(cx, rz)
     }
 
     fn restart(&mut self) {
