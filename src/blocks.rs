@@ -158,11 +158,7 @@ impl<T: Scalar> Blocks<T> {
     ) -> (T, T) {
         let (rr, pmax) = self.map2(space, x, r, |cells, x, r| {
             let (p, q) = (slice(p, &cells), slice(q, &cells));
-            let mut pmax = T::zero();
-            for (xi, &pi) in x.iter_mut().zip(p) {
-                *xi = *xi + alpha * pi;
-                pmax = pmax.max(pi.abs());
-            }
+            let pmax = axpy_largest(alpha, p, x);
             for (ri, &qi) in r.iter_mut().zip(q) {
                 *ri = *ri - alpha * qi;
             }
@@ -609,6 +605,32 @@ pub(crate) fn zero_fixed<T: Scalar>(
     }
 }
 
+/// `x += a·p` on one block, returning `max|p|` (zero for an empty block; NaN entries of `p`
+/// are passed over, as `max` does). Four running maxima, so that the loop vectorises: the
+/// largest of a set does not depend on the order it is taken in, so neither do the bits.
+#[inline]
+fn axpy_largest<T: Scalar>(a: T, p: &[T], x: &mut [T]) -> T {
+    let larger = |m: T, v: T| if v > m { v } else { m };
+    let n = x.len().min(p.len());
+    let (x, p) = (&mut x[..n], &p[..n]);
+    let mut lanes = [T::zero(); 4];
+    let mut x4 = x.chunks_exact_mut(4);
+    let p4 = p.chunks_exact(4);
+    let rp = p4.remainder();
+    for (xs, ps) in (&mut x4).zip(p4) {
+        for l in 0..4 {
+            xs[l] = xs[l] + a * ps[l];
+            lanes[l] = larger(lanes[l], ps[l].abs());
+        }
+    }
+    let mut largest = larger(larger(lanes[0], lanes[1]), larger(lanes[2], lanes[3]));
+    for (xi, &pi) in x4.into_remainder().iter_mut().zip(rp) {
+        *xi = *xi + a * pi;
+        largest = larger(largest, pi.abs());
+    }
+    largest
+}
+
 /// Dot product of one block with four running sums, combined in a fixed order.
 #[inline]
 pub(crate) fn block_dot<T: Scalar>(a: &[T], b: &[T]) -> T {
@@ -660,6 +682,32 @@ mod tests {
         let a: Vec<f64> = (0..1003).map(|v| v as f64).collect();
         let naive: f64 = a.iter().map(|v| v * v).sum();
         assert_eq!(block_dot(&a, &a), naive);
+    }
+
+    #[test]
+    fn axpy_largest_matches_the_running_max() {
+        for n in [0, 1, 3, 4, 7, 8, 1001] {
+            let mut p: Vec<f64> = (0..n)
+                .map(|k| ((k * 37 % 101) as f64 - 50.0) * 0.3)
+                .collect();
+            if n > 5 {
+                p[5] = f64::NAN; // passed over by `max`, and so by the kernel
+            }
+            let x0: Vec<f64> = (0..n).map(|k| k as f64 * 0.1).collect();
+            let (mut x, mut naive_x) = (x0.clone(), x0);
+            let mut naive = 0.0f64;
+            for (xi, &pi) in naive_x.iter_mut().zip(&p) {
+                *xi += 0.7 * pi;
+                naive = naive.max(pi.abs());
+            }
+            assert_eq!(
+                axpy_largest(0.7, &p, &mut x).to_bits(),
+                naive.to_bits(),
+                "{n}"
+            );
+            let same = |a: &f64, b: &f64| a.to_bits() == b.to_bits();
+            assert!(x.iter().zip(&naive_x).all(|(a, b)| same(a, b)), "{n}");
+        }
     }
 
     #[test]
