@@ -159,10 +159,7 @@ impl<T: Scalar> Blocks<T> {
         let (rr, pmax) = self.map2(space, x, r, |cells, x, r| {
             let (p, q) = (slice(p, &cells), slice(q, &cells));
             let pmax = axpy_largest(alpha, p, x);
-            for (ri, &qi) in r.iter_mut().zip(q) {
-                *ri = *ri - alpha * qi;
-            }
-            (block_dot(r, r), pmax)
+            (subtract_norm(alpha, q, r), pmax)
         });
         (rr, alpha.abs() * pmax)
     }
@@ -631,6 +628,30 @@ fn axpy_largest<T: Scalar>(a: T, p: &[T], x: &mut [T]) -> T {
     largest
 }
 
+/// `r −= a·q` on one block, returning the new `r·r` from the same loop: the bits of the
+/// update followed by [`block_dot`]`(r, r)` (the same four running sums, in the same order).
+#[inline]
+fn subtract_norm<T: Scalar>(a: T, q: &[T], r: &mut [T]) -> T {
+    let n = r.len().min(q.len());
+    let (r, q) = (&mut r[..n], &q[..n]);
+    let mut acc = [T::zero(); 4];
+    let mut r4 = r.chunks_exact_mut(4);
+    let q4 = q.chunks_exact(4);
+    let rq = q4.remainder();
+    for (rs, qs) in (&mut r4).zip(q4) {
+        for l in 0..4 {
+            rs[l] = rs[l] - a * qs[l];
+            acc[l] = acc[l] + rs[l] * rs[l];
+        }
+    }
+    let mut tail = T::zero();
+    for (ri, &qi) in r4.into_remainder().iter_mut().zip(rq) {
+        *ri = *ri - a * qi;
+        tail = tail + *ri * *ri;
+    }
+    ((acc[0] + acc[1]) + (acc[2] + acc[3])) + tail
+}
+
 /// Dot product of one block with four running sums, combined in a fixed order.
 #[inline]
 pub(crate) fn block_dot<T: Scalar>(a: &[T], b: &[T]) -> T {
@@ -707,6 +728,24 @@ mod tests {
             );
             let same = |a: &f64, b: &f64| a.to_bits() == b.to_bits();
             assert!(x.iter().zip(&naive_x).all(|(a, b)| same(a, b)), "{n}");
+        }
+    }
+
+    #[test]
+    fn subtract_norm_matches_the_update_then_block_dot() {
+        for n in [0, 1, 3, 4, 7, 1001] {
+            let q: Vec<f64> = (0..n).map(|k| (k as f64 * 0.37).sin()).collect();
+            let r0: Vec<f64> = (0..n).map(|k| (k as f64 * 0.11).cos()).collect();
+            let (mut r, mut naive_r) = (r0.clone(), r0);
+            for (ri, &qi) in naive_r.iter_mut().zip(&q) {
+                *ri -= 0.3 * qi;
+            }
+            let rr = subtract_norm(0.3, &q, &mut r);
+            assert_eq!(rr.to_bits(), block_dot(&naive_r, &naive_r).to_bits(), "{n}");
+            assert!(r
+                .iter()
+                .zip(&naive_r)
+                .all(|(a, b)| a.to_bits() == b.to_bits()));
         }
     }
 
