@@ -549,6 +549,56 @@ impl Blocks<f64> {
         .0
     }
 
+    /// [`Blocks::cg_update`] with the new `r` also rounded to `f32` into `low` in the same
+    /// pass (the bits of `cg_update` followed by rounding `r`).
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn cg_update_rounding(
+        &mut self,
+        space: &dyn Space,
+        alpha: f64,
+        p: &[f64],
+        q: &[f64],
+        x: &mut [f64],
+        r: &mut [f64],
+        low: &mut [f32],
+    ) -> (f64, f64) {
+        let (bc, n) = (self.block, self.len);
+        let body = |(b, (((x, r), low), part)): (usize, (Rounding<'_>, &mut [f64]))| {
+            let cells = b * bc..((b + 1) * bc).min(n);
+            let (p, q) = (slice(p, &cells), slice(q, &cells));
+            part[1] = axpy_largest(alpha, p, x);
+            part[0] = subtract_norm(alpha, q, r);
+            for (l, &h) in low.iter_mut().zip(r.iter()) {
+                *l = h as f32;
+            }
+        };
+        let len = n.min(x.len());
+        let x = &mut x[..len];
+        let len = n.min(r.len());
+        let r = &mut r[..len];
+        let len = n.min(low.len());
+        let low = &mut low[..len];
+        #[cfg(feature = "parallel")]
+        if self.parallel(space) {
+            x.par_chunks_mut(bc)
+                .zip(r.par_chunks_mut(bc))
+                .zip(low.par_chunks_mut(bc))
+                .zip(self.partials.par_chunks_mut(WIDTH))
+                .enumerate()
+                .for_each(body);
+            let (rr, pmax) = self.finish(space);
+            return (rr, alpha.abs() * pmax);
+        }
+        x.chunks_mut(bc)
+            .zip(r.chunks_mut(bc))
+            .zip(low.chunks_mut(bc))
+            .zip(self.partials.chunks_mut(WIDTH))
+            .enumerate()
+            .for_each(body);
+        let (rr, pmax) = self.finish(space);
+        (rr, alpha.abs() * pmax)
+    }
+
     /// `p = z + β·p` with `z` widened from `f32` (`p = z` without `β`): the bits of
     /// [`Blocks::direction_update`] (or of a copy) on the widened vector (no reduction).
     pub(crate) fn direction_widened(
@@ -578,6 +628,9 @@ impl Blocks<f64> {
 
 /// Two output blocks cut alike.
 type Pair<'a, T> = (&'a mut [T], &'a mut [T]);
+
+/// `x` and `r` blocks with the `f32` block `r` is rounded into, cut alike.
+type Rounding<'a> = (Pair<'a, f64>, &'a mut [f32]);
 
 /// `v[cells]`, clipped to what `v` holds.
 #[inline]

@@ -53,6 +53,7 @@
 //! application, so a preconditioner never moves a fixed cell.
 
 mod factor;
+pub(crate) mod fused;
 mod ic0;
 mod ilu0;
 mod jacobi;
@@ -186,40 +187,20 @@ pub trait Preconditioner<T: Scalar> {
         false
     }
 
-    /// PCG's use of `z = M⁻¹r` in fewer passes over memory, for a preconditioner that can
-    /// form it without writing `z` out: `z` held at zero at the fixed cells of `op`, then
-    /// `ρ = r·z` returned and, if `ρ > 0`, the search direction updated, `p = z + (ρ/ρ₀)·p`
-    /// with `previous = Some(ρ₀)`, or `p = z` with `None`. Reductions go through `space`
-    /// in the block order of the crate's own kernels, so the bits are those of
-    /// [`apply`](Preconditioner::apply) followed by PCG's own passes. `None` (the default):
-    /// not offered, and PCG makes those passes itself. [`SinglePrecision`] offers it (its
-    /// `z` is `f32`, so the `f64` copy is never stored: 20 bytes fewer per cell and
-    /// iteration); there is no need to implement it for a preconditioner of your own.
-    ///
-    /// ```
-    /// use quintet::prelude::*;
-    /// use quintet::space::Serial;
-    /// let grid = Grid::new(2, 1)?;
-    /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
-    /// let mut p = [0.0; 2];
-    /// let rho = Jacobi::new(&op)?.apply_to_direction(&op, &Serial, &[4.0, 8.0], None, &mut p);
-    /// assert_eq!(rho, None); // Jacobi leaves these passes to PCG
-    ///
-    /// let single: Banded5<f32> = op.cast()?;
-    /// let mut wrapped = SinglePrecision::new(single.clone(), Jacobi::new(&single)?);
-    /// let rho = wrapped.apply_to_direction(&op, &Serial, &[4.0, 8.0], None, &mut p);
-    /// assert_eq!((rho, p), (Some(4.0 * 1.0 + 8.0 * 2.0), [1.0, 2.0])); // centers are 4
-    /// # Ok::<(), quintet::Error>(())
-    /// ```
-    fn apply_to_direction(
-        &mut self,
-        op: &dyn LinearOperator<T>,
-        space: &dyn Space,
-        r: &[T],
-        previous: Option<T>,
-        p: &mut [T],
-    ) -> Option<T> {
-        let _ = (op, space, r, previous, p);
+    /// Hidden: PCG's `r·z` and direction update fused with this preconditioner's own passes
+    /// (`precond/fused.rs`; the argument cannot be named outside the crate). `None`, the
+    /// default: not offered, PCG calls [`apply`](Preconditioner::apply) and makes the passes.
+    #[doc(hidden)]
+    fn fused_direction(&mut self, pass: fused::DirectionPass<'_, T>) -> Option<T> {
+        let _ = pass;
+        None
+    }
+
+    /// Hidden: PCG's update of `x` and `r` fused with this preconditioner's own passes
+    /// (`precond/fused.rs`). `None`, the default: not offered.
+    #[doc(hidden)]
+    fn fused_update(&mut self, pass: fused::UpdatePass<'_, T>) -> Option<(T, T)> {
+        let _ = pass;
         None
     }
 }
@@ -279,14 +260,10 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Preconditioner<T> for Box<P> {
     fn is_identity(&self) -> bool {
         (**self).is_identity()
     }
-    fn apply_to_direction(
-        &mut self,
-        op: &dyn LinearOperator<T>,
-        space: &dyn Space,
-        r: &[T],
-        previous: Option<T>,
-        p: &mut [T],
-    ) -> Option<T> {
-        (**self).apply_to_direction(op, space, r, previous, p)
+    fn fused_direction(&mut self, pass: fused::DirectionPass<'_, T>) -> Option<T> {
+        (**self).fused_direction(pass)
+    }
+    fn fused_update(&mut self, pass: fused::UpdatePass<'_, T>) -> Option<(T, T)> {
+        (**self).fused_update(pass)
     }
 }
