@@ -9,7 +9,9 @@ use crate::space::Space;
 use crate::{Error, LinearOperator};
 
 /// Runs an `f32` preconditioner inside an `f64` PCG: `r` is rounded to `f32`, the inner
-/// preconditioner is applied with the `f32` copy of the operator, and `z` is widened back. The
+/// preconditioner is applied with the `f32` copy of the operator, and `z` is widened back
+/// (inside [`Pcg`](crate::Pcg), `r` is rounded in the pass that updates it and `z` is read in
+/// `f32` by the passes that use it, so neither conversion costs a pass of its own). The
 /// preconditioner only has to approximate `A⁻¹`, so single precision costs it nothing in
 /// quality but halves the bytes it moves (a multigrid V-cycle is most of a PCG iteration's
 /// traffic), while the Krylov iteration, its residuals and the solution stay in `f64`.
