@@ -158,15 +158,8 @@ impl<T: Scalar> Blocks<T> {
     ) -> (T, T) {
         let (rr, pmax) = self.map2(space, x, r, |cells, x, r| {
             let (p, q) = (slice(p, &cells), slice(q, &cells));
-            let mut pmax = T::zero();
-            for (xi, &pi) in x.iter_mut().zip(p) {
-                *xi = *xi + alpha * pi;
-                pmax = pmax.max(pi.abs());
-            }
-            for (ri, &qi) in r.iter_mut().zip(q) {
-                *ri = *ri - alpha * qi;
-            }
-            (block_dot(r, r), pmax)
+            let pmax = axpy_largest(alpha, p, x);
+            (subtract_norm(alpha, q, r), pmax)
         });
         (rr, alpha.abs() * pmax)
     }
@@ -573,8 +566,100 @@ where
     (a(), b())
 }
 
+impl Blocks<f64> {
+    /// `a·b` with `b` widened from `f32` entry by entry: the bits of [`Blocks::dot`] on the
+    /// widened vector, without writing it out (`f64::from` is exact).
+    pub(crate) fn dot_widened(&mut self, space: &dyn Space, a: &[f64], b: &[f32]) -> f64 {
+        let a = self.clip(a);
+        let b = &b[..self.len.min(b.len())];
+        self.reduce(space, |cells| {
+            (block_dot_widened(slice(a, &cells), slice(b, &cells)), 0.0)
+        })
+        .0
+    }
+
+    /// [`Blocks::cg_update`] with the new `r` also rounded to `f32` into `low` in the same
+    /// pass (the bits of `cg_update` followed by rounding `r`).
+    #[allow(clippy::too_many_arguments)]
+    pub(crate) fn cg_update_rounding(
+        &mut self,
+        space: &dyn Space,
+        alpha: f64,
+        p: &[f64],
+        q: &[f64],
+        x: &mut [f64],
+        r: &mut [f64],
+        low: &mut [f32],
+    ) -> (f64, f64) {
+        let (bc, n) = (self.block, self.len);
+        let body = |(b, (((x, r), low), part)): (usize, (Rounding<'_>, &mut [f64]))| {
+            let cells = b * bc..((b + 1) * bc).min(n);
+            let (p, q) = (slice(p, &cells), slice(q, &cells));
+            part[1] = axpy_largest(alpha, p, x);
+            part[0] = subtract_norm(alpha, q, r);
+            for (l, &h) in low.iter_mut().zip(r.iter()) {
+                *l = h as f32;
+            }
+        };
+        let len = n.min(x.len());
+        let x = &mut x[..len];
+        let len = n.min(r.len());
+        let r = &mut r[..len];
+        let len = n.min(low.len());
+        let low = &mut low[..len];
+        #[cfg(feature = "parallel")]
+        if self.parallel(space) {
+            x.par_chunks_mut(bc)
+                .zip(r.par_chunks_mut(bc))
+                .zip(low.par_chunks_mut(bc))
+                .zip(self.partials.par_chunks_mut(WIDTH))
+                .enumerate()
+                .for_each(body);
+            let (rr, pmax) = self.finish(space);
+            return (rr, alpha.abs() * pmax);
+        }
+        x.chunks_mut(bc)
+            .zip(r.chunks_mut(bc))
+            .zip(low.chunks_mut(bc))
+            .zip(self.partials.chunks_mut(WIDTH))
+            .enumerate()
+            .for_each(body);
+        let (rr, pmax) = self.finish(space);
+        (rr, alpha.abs() * pmax)
+    }
+
+    /// `p = z + β·p` with `z` widened from `f32` (`p = z` without `β`): the bits of
+    /// [`Blocks::direction_update`] (or of a copy) on the widened vector (no reduction).
+    pub(crate) fn direction_widened(
+        &mut self,
+        space: &dyn Space,
+        z: &[f32],
+        beta: Option<f64>,
+        p: &mut [f64],
+    ) {
+        self.for_each(space, p, |cells, p| {
+            let z = slice(z, &cells);
+            match beta {
+                Some(beta) => {
+                    for (pi, &zi) in p.iter_mut().zip(z) {
+                        *pi = f64::from(zi) + beta * *pi;
+                    }
+                }
+                None => {
+                    for (pi, &zi) in p.iter_mut().zip(z) {
+                        *pi = f64::from(zi);
+                    }
+                }
+            }
+        });
+    }
+}
+
 /// Two output blocks cut alike.
 type Pair<'a, T> = (&'a mut [T], &'a mut [T]);
+
+/// `x` and `r` blocks with the `f32` block `r` is rounded into, cut alike.
+type Rounding<'a> = (Pair<'a, f64>, &'a mut [f32]);
 
 /// `v[cells]`, clipped to what `v` holds.
 #[inline]
@@ -599,6 +684,56 @@ pub(crate) fn zero_fixed<T: Scalar>(
     }
 }
 
+/// `x += a·p` on one block, returning `max|p|` (zero for an empty block; NaN entries of `p`
+/// are passed over, as `max` does). Four running maxima, so that the loop vectorises: the
+/// largest of a set does not depend on the order it is taken in, so neither do the bits.
+#[inline]
+fn axpy_largest<T: Scalar>(a: T, p: &[T], x: &mut [T]) -> T {
+    let larger = |m: T, v: T| if v > m { v } else { m };
+    let n = x.len().min(p.len());
+    let (x, p) = (&mut x[..n], &p[..n]);
+    let mut lanes = [T::zero(); 4];
+    let mut x4 = x.chunks_exact_mut(4);
+    let p4 = p.chunks_exact(4);
+    let rp = p4.remainder();
+    for (xs, ps) in (&mut x4).zip(p4) {
+        for l in 0..4 {
+            xs[l] = xs[l] + a * ps[l];
+            lanes[l] = larger(lanes[l], ps[l].abs());
+        }
+    }
+    let mut largest = larger(larger(lanes[0], lanes[1]), larger(lanes[2], lanes[3]));
+    for (xi, &pi) in x4.into_remainder().iter_mut().zip(rp) {
+        *xi = *xi + a * pi;
+        largest = larger(largest, pi.abs());
+    }
+    largest
+}
+
+/// `r −= a·q` on one block, returning the new `r·r` from the same loop: the bits of the
+/// update followed by [`block_dot`]`(r, r)` (the same four running sums, in the same order).
+#[inline]
+fn subtract_norm<T: Scalar>(a: T, q: &[T], r: &mut [T]) -> T {
+    let n = r.len().min(q.len());
+    let (r, q) = (&mut r[..n], &q[..n]);
+    let mut acc = [T::zero(); 4];
+    let mut r4 = r.chunks_exact_mut(4);
+    let q4 = q.chunks_exact(4);
+    let rq = q4.remainder();
+    for (rs, qs) in (&mut r4).zip(q4) {
+        for l in 0..4 {
+            rs[l] = rs[l] - a * qs[l];
+            acc[l] = acc[l] + rs[l] * rs[l];
+        }
+    }
+    let mut tail = T::zero();
+    for (ri, &qi) in r4.into_remainder().iter_mut().zip(rq) {
+        *ri = *ri - a * qi;
+        tail = tail + *ri * *ri;
+    }
+    ((acc[0] + acc[1]) + (acc[2] + acc[3])) + tail
+}
+
 /// Dot product of one block with four running sums, combined in a fixed order.
 #[inline]
 pub(crate) fn block_dot<T: Scalar>(a: &[T], b: &[T]) -> T {
@@ -619,6 +754,27 @@ pub(crate) fn block_dot<T: Scalar>(a: &[T], b: &[T]) -> T {
     ((acc[0] + acc[1]) + (acc[2] + acc[3])) + tail
 }
 
+/// [`block_dot`] of `a` with `b` widened from `f32`, in the same order (the same bits as
+/// [`block_dot`] on the widened copy).
+#[inline]
+fn block_dot_widened(a: &[f64], b: &[f32]) -> f64 {
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
+    let mut acc = [0.0f64; 4];
+    let (a4, b4) = (a.chunks_exact(4), b.chunks_exact(4));
+    let (ra, rb) = (a4.remainder(), b4.remainder());
+    for (x, y) in a4.zip(b4) {
+        for l in 0..4 {
+            acc[l] += x[l] * f64::from(y[l]);
+        }
+    }
+    let mut tail = 0.0;
+    for (&x, &y) in ra.iter().zip(rb) {
+        tail += x * f64::from(y);
+    }
+    ((acc[0] + acc[1]) + (acc[2] + acc[3])) + tail
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -629,6 +785,50 @@ mod tests {
         let a: Vec<f64> = (0..1003).map(|v| v as f64).collect();
         let naive: f64 = a.iter().map(|v| v * v).sum();
         assert_eq!(block_dot(&a, &a), naive);
+    }
+
+    #[test]
+    fn axpy_largest_matches_the_running_max() {
+        for n in [0, 1, 3, 4, 7, 8, 1001] {
+            let mut p: Vec<f64> = (0..n)
+                .map(|k| ((k * 37 % 101) as f64 - 50.0) * 0.3)
+                .collect();
+            if n > 5 {
+                p[5] = f64::NAN; // passed over by `max`, and so by the kernel
+            }
+            let x0: Vec<f64> = (0..n).map(|k| k as f64 * 0.1).collect();
+            let (mut x, mut naive_x) = (x0.clone(), x0);
+            let mut naive = 0.0f64;
+            for (xi, &pi) in naive_x.iter_mut().zip(&p) {
+                *xi += 0.7 * pi;
+                naive = naive.max(pi.abs());
+            }
+            assert_eq!(
+                axpy_largest(0.7, &p, &mut x).to_bits(),
+                naive.to_bits(),
+                "{n}"
+            );
+            let same = |a: &f64, b: &f64| a.to_bits() == b.to_bits();
+            assert!(x.iter().zip(&naive_x).all(|(a, b)| same(a, b)), "{n}");
+        }
+    }
+
+    #[test]
+    fn subtract_norm_matches_the_update_then_block_dot() {
+        for n in [0, 1, 3, 4, 7, 1001] {
+            let q: Vec<f64> = (0..n).map(|k| (k as f64 * 0.37).sin()).collect();
+            let r0: Vec<f64> = (0..n).map(|k| (k as f64 * 0.11).cos()).collect();
+            let (mut r, mut naive_r) = (r0.clone(), r0);
+            for (ri, &qi) in naive_r.iter_mut().zip(&q) {
+                *ri -= 0.3 * qi;
+            }
+            let rr = subtract_norm(0.3, &q, &mut r);
+            assert_eq!(rr.to_bits(), block_dot(&naive_r, &naive_r).to_bits(), "{n}");
+            assert!(r
+                .iter()
+                .zip(&naive_r)
+                .all(|(a, b)| a.to_bits() == b.to_bits()));
+        }
     }
 
     #[test]

@@ -38,10 +38,13 @@ pub const BYTES_VCYCLE_F32_FINE: f64 = 84.0;
 /// written by the restriction (8, read-modify-write) per coarse cell, and a third as many
 /// coarse cells as fine ones over all levels.
 pub const BYTES_VCYCLE_F32_COARSE: f64 = (BYTES_VCYCLE_F32_FINE + 8.0) / 3.0;
-/// The f64 part of one MG-PCG iteration with the V-cycle in f32: `r·z` (16), `p = z + βp` (24),
-/// `q = A·p` with `p·q` (56), the `x`/`r` update with `r·r` (48), rounding `r` to f32 (12) and
-/// widening `z` (12).
-pub const BYTES_MGPCG_KRYLOV: f64 = 16.0 + 24.0 + 56.0 + 48.0 + 12.0 + 12.0;
+/// The f64 part of one MG-PCG iteration with the V-cycle in f32 (`SinglePrecision` fuses its
+/// passes with PCG's, `precond/fused.rs`): `r·z` straight from the f32 `z` (8 + 4),
+/// `p = z + βp` from the f32 `z` (4 + 16), `q = A·p` with `p·q` (56), the `x`/`r` update with
+/// `r·r` (48) writing `r` rounded to f32 for the next V-cycle (4). The f64 `z` is never
+/// stored; rounding `r` as a pass of its own (12) happens only before the first iteration and
+/// after a true-residual refresh.
+pub const BYTES_MGPCG_KRYLOV: f64 = 12.0 + 20.0 + 56.0 + 52.0;
 /// The triad a = b + s·c: two reads and one write.
 pub const BYTES_TRIAD: f64 = 24.0;
 

@@ -456,6 +456,10 @@ pub(crate) trait Method<T: Scalar> {
     /// iterate is always in `x`).
     fn form_iterate(&mut self, _cx: &mut Context<'_, T>) {}
 
+    /// The loop replaced `r` by the true residual (a refresh): a method that keeps something
+    /// derived from `r` between steps must not use it again.
+    fn residual_replaced(&mut self) {}
+
     /// The loop replaced a recursively updated residual by a true one far from it: forget
     /// anything built from the old recursion (CG's previous direction).
     fn restart(&mut self) {}

@@ -73,6 +73,7 @@ impl Refresh {
         method.form_iterate(cx);
         let recursive = to_f64(rr).sqrt();
         let rr_true = cx.blocks.residual_free(cx.space, cx.op, cx.rhs, cx.x, cx.r);
+        method.residual_replaced();
         let true_norm = to_f64(rr_true).sqrt();
         let mut verdict = monitor.revise(rr_true);
         let restart =

@@ -3,6 +3,7 @@
 use crate::blocks::zero_fixed;
 use crate::iterate::{conclude, run_to_end, Breakdown, Context, Method, Residual, Step, Task};
 use crate::iterate::{IterativeSolver, NameCache, SolveOptions, Workspace};
+use crate::precond::fused::{DirectionPass, UpdatePass};
 use crate::precond::{Identity, Preconditioner};
 use crate::scalar::is_positive;
 use crate::{Error, ErrorKind, LinearOperator, Progress, Report, Scalar, StopReason};
@@ -96,6 +97,49 @@ struct CgStep<'p, P: ?Sized, T> {
     pre: &'p mut P,
     identity: bool,
     rz_previous: Option<T>,
+    /// The preconditioner holds `r` rounded by its fused update, unchanged since.
+    rounded: bool,
+}
+
+impl<T: Scalar, P: Preconditioner<T> + ?Sized> CgStep<'_, P, T> {
+    /// The rest of a PCG iteration once `p` (the second work vector) is the new direction and
+    /// `rz = r·z`: `q = A·p` with `p·q` into the first work vector (`z`'s storage, dead by
+    /// now), then `x += α·p`, `r −= α·q` with `r·r` (through the preconditioner if it fuses
+    /// its own pass over `r` into that update).
+    fn advance(&mut self, cx: &mut Context<'_, T>, rz: T) -> Result<Step<T>, Breakdown<T>> {
+        let [q, p, ..] = cx.work else {
+            unreachable!("two work vectors were declared")
+        };
+        let pq = cx.blocks.apply_dot_free(cx.space, cx.op, p, q);
+        if !is_positive(pq) {
+            return Err(Breakdown::Curvature(pq));
+        }
+        let alpha = rz / pq;
+        let pass = UpdatePass {
+            op: cx.op,
+            space: cx.space,
+            alpha,
+            p,
+            q,
+            x: cx.x,
+            r: cx.r,
+        };
+        let fused = if self.identity {
+            None
+        } else {
+            self.pre.fused_update(pass)
+        };
+        self.rounded = fused.is_some();
+        let (rr, change) = match fused {
+            Some(update) => update,
+            None => cx.blocks.cg_update(cx.space, alpha, p, q, cx.x, cx.r),
+        };
+        Ok(Step {
+            rr,
+            change: Some(change),
+            residual: Residual::Updated,
+        })
+    }
 }
 
 impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for CgStep<'_, P, T> {
@@ -109,6 +153,26 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for CgStep<'_, P, T> {
         let [z, p, ..] = cx.work else {
             unreachable!("two work vectors were declared")
         };
+        // A preconditioner that forms r·z and the direction from its own z (SinglePrecision:
+        // z in f32) saves the passes below; the same bits.
+        if !self.identity {
+            let pass = DirectionPass {
+                op: cx.op,
+                space: cx.space,
+                r: cx.r,
+                rounded: self.rounded,
+                previous: self.rz_previous,
+                p,
+            };
+            self.rounded = false;
+            if let Some(rz) = self.pre.fused_direction(pass) {
+                if !is_positive(rz) {
+                    return Err(Breakdown::Preconditioner(rz));
+                }
+                self.rz_previous = Some(rz);
+                return self.advance(cx, rz);
+            }
+        }
         // z = M⁻¹ r, held at zero on fixed cells so they never move.
         let rz = if self.identity {
             rr
@@ -128,21 +192,16 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Method<T> for CgStep<'_, P, T> {
                 .direction_update(cx.space, direction, rz / previous, p),
         }
         self.rz_previous = Some(rz);
-        let q = z;
-        let pq = cx.blocks.apply_dot_free(cx.space, cx.op, p, q);
-        if !is_positive(pq) {
-            return Err(Breakdown::Curvature(pq));
-        }
-        let (rr, change) = cx.blocks.cg_update(cx.space, rz / pq, p, q, cx.x, cx.r);
-        Ok(Step {
-            rr,
-            change: Some(change),
-            residual: Residual::Updated,
-        })
+        self.advance(cx, rz)
     }
 
     fn restart(&mut self) {
         self.rz_previous = None;
+        self.rounded = false;
+    }
+
+    fn residual_replaced(&mut self) {
+        self.rounded = false;
     }
 }
 
@@ -184,6 +243,7 @@ impl<P> Pcg<P> {
             identity: self.preconditioner.is_identity(),
             pre: &mut self.preconditioner,
             rz_previous: None,
+            rounded: false,
         };
         run_to_end(&mut step, &name, task)
     }

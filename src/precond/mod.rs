@@ -53,6 +53,7 @@
 //! application, so a preconditioner never moves a fixed cell.
 
 mod factor;
+pub(crate) mod fused;
 mod ic0;
 mod ilu0;
 mod jacobi;
@@ -185,6 +186,23 @@ pub trait Preconditioner<T: Scalar> {
     fn is_identity(&self) -> bool {
         false
     }
+
+    /// Hidden: PCG's `r·z` and direction update fused with this preconditioner's own passes
+    /// (`precond/fused.rs`; the argument cannot be named outside the crate). `None`, the
+    /// default: not offered, PCG calls [`apply`](Preconditioner::apply) and makes the passes.
+    #[doc(hidden)]
+    fn fused_direction(&mut self, pass: fused::DirectionPass<'_, T>) -> Option<T> {
+        let _ = pass;
+        None
+    }
+
+    /// Hidden: PCG's update of `x` and `r` fused with this preconditioner's own passes
+    /// (`precond/fused.rs`). `None`, the default: not offered.
+    #[doc(hidden)]
+    fn fused_update(&mut self, pass: fused::UpdatePass<'_, T>) -> Option<(T, T)> {
+        let _ = pass;
+        None
+    }
 }
 
 /// The identity preconditioner `M = I`: PCG with it is plain CG.
@@ -241,5 +259,11 @@ impl<T: Scalar, P: Preconditioner<T> + ?Sized> Preconditioner<T> for Box<P> {
     }
     fn is_identity(&self) -> bool {
         (**self).is_identity()
+    }
+    fn fused_direction(&mut self, pass: fused::DirectionPass<'_, T>) -> Option<T> {
+        (**self).fused_direction(pass)
+    }
+    fn fused_update(&mut self, pass: fused::UpdatePass<'_, T>) -> Option<(T, T)> {
+        (**self).fused_update(pass)
     }
 }
