@@ -31,8 +31,9 @@
 //! cells, coarse cells with no unknown under them) are left out of `P` and `R` and are identity
 //! rows, so the V-cycle stays symmetric.
 
-use super::aggregate::{split, Axis};
+use super::aggregate::Axis;
 use super::galerkin::galerkin_lumped;
+use super::paths::{conductance, own_share, ratio, series, FineConductances};
 use super::transfer::Transfer;
 use super::CoarseOperator;
 use std::ops::Range;
@@ -85,52 +86,6 @@ impl<T: Scalar> Stencil5<T> for LevelOperator<T> {
             let (south, row, north) = row_neighbourhood(x, nx, ny, j);
             row_product(|i| coeffs[i], south, row, north, y_row);
         }
-    }
-}
-
-/// The share of a cell's own aggregate among the aggregates it interpolates from.
-#[inline]
-fn own_share<T: Scalar>(w: T) -> T {
-    let (own, nb) = split(w);
-    ratio(own, own + nb)
-}
-
-/// Conductance of a coupling (zero for a non-negative one: only diffusion couplings count).
-#[inline]
-fn conductance<T: Scalar>(coupling: T) -> T {
-    if coupling < T::zero() {
-        -coupling
-    } else {
-        T::zero()
-    }
-}
-
-/// The path from one coarse centre to the next along a line of fine cells: half-cell
-/// conductance `g1` (None: the fine cell is the coarse centre), face conductance `gf`, half-cell
-/// conductance `g2` on the far side. Returns the share `w` of the far centre in the
-/// linear (flux-continuous) profile at the near fine cell, and the series conductance `G` of
-/// the whole path.
-#[inline]
-fn series<T: Scalar>(g1: Option<T>, gf: T, g2: Option<T>) -> (T, T) {
-    let zero = T::zero();
-    match (g1, g2) {
-        (None, None) => (zero, gf),
-        (None, Some(b)) => (zero, ratio(gf * b, gf + b)),
-        (Some(a), None) => (ratio(gf, gf + a), ratio(a * gf, a + gf)),
-        (Some(a), Some(b)) => {
-            let den = gf * b + a * b + a * gf;
-            (ratio(gf * b, den), ratio(a * gf * b, den))
-        }
-    }
-}
-
-/// `num / den`, zero when `den` is not positive.
-#[inline]
-fn ratio<T: Scalar>(num: T, den: T) -> T {
-    if den > T::zero() {
-        num / den
-    } else {
-        T::zero()
     }
 }
 
@@ -247,10 +202,24 @@ impl<T: Scalar> Level<T> {
         // The symmetry check of pass 0: each free cell's eliminated west and south couplings
         // against the east coupling of the cell before it and the north coupling of the cell
         // below it (zero for a fixed cell, whose eliminated row is an identity row).
+        // (Equal couplings never differ: checked first, without the conversions.)
         let differ = |a: T, b: T| {
             let (a, b) = (to_f64(a), to_f64(b));
             (a - b).abs() > rel_tol * a.abs().max(b.abs())
         };
+        let differ = |a: T, b: T| a != b && differ(a, b);
+        // Rows whose cells are all active but perhaps the first and the last; a cell two rows
+        // and three columns from every inactive cell and from the edges takes the fast paths
+        // of `paths.rs` in passes 1 and 2.
+        let mut clear = vec![true; ny];
+        let fast_cols = |clear: &[bool], j: usize| {
+            if nx >= 8 && j >= 2 && j + 2 < ny && clear[j - 2..=j + 2].iter().all(|&c| c) {
+                3..nx - 3
+            } else {
+                0..0
+            }
+        };
+
         let mut north_below = vec![T::zero(); nx];
         for s in 0..ny + LAG2 {
             // Pass 0: conductances, excess, and which aggregates carry an unknown.
@@ -261,6 +230,7 @@ impl<T: Scalar> Level<T> {
                     let k = i + nx * j;
                     if !active_fine(k) {
                         (east_before, *north_below) = (T::zero(), T::zero());
+                        clear[j] &= i == 0 || i + 1 == nx;
                         continue;
                     }
                     active[ax.parent(i) + ncx * ay.parent(j)] = true;
@@ -280,7 +250,14 @@ impl<T: Scalar> Level<T> {
             // Pass 1: interpolation weights towards the neighbouring aggregates.
             if (LAG1..ny + LAG1).contains(&s) {
                 let j = s - LAG1;
-                for i in 0..nx {
+                let fast = fast_cols(&clear, j);
+                FineConductances::new(&east, &north, nx, ncx).weights(
+                    j,
+                    fast.clone(),
+                    &mut wx,
+                    &mut wy,
+                );
+                for i in (0..fast.start).chain(fast.end..nx) {
                     let k = i + nx * j;
                     if !active_fine(k) {
                         continue;
@@ -354,12 +331,35 @@ impl<T: Scalar> Level<T> {
             // corrections.
             if s >= LAG2 {
                 let j = s - LAG2;
-                for i in 0..nx {
+                let cj = ay.parent(j);
+                // Row-sum excess `e` (storage, fixed neighbours) of cell `i`, reached from the
+                // coarse centre through the mean half-cell resistance, spread like the
+                // interpolation.
+                let spread = |rows: &mut [Coeffs5<T>], i: usize, gx, gy, e: T| {
+                    let (k, ci) = (i + nx * j, ax.parent(i));
+                    let kc = ci + ncx * cj;
+                    let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
+                    let r = resist(gx).min(resist(gy));
+                    let contribution = ratio(e, T::one() + e * r);
+                    let (pi, qi, pj, qj) = (ci, ax.neighbour(i), cj, ay.neighbour(j));
+                    let (wxk, wyk) = (T::one() - own_share(wx[k]), T::one() - own_share(wy[k]));
+                    let (ux, uy) = (T::one() - wxk, T::one() - wyk);
+                    for (target, w) in [
+                        (pi + ncx * pj, ux * uy),
+                        (qi + ncx * pj, wxk * uy),
+                        (pi + ncx * qj, ux * wyk),
+                        (qi + ncx * qj, wxk * wyk),
+                    ] {
+                        let t = on(&active, target, kc);
+                        rows[t].center = rows[t].center + w * contribution;
+                    }
+                };
+                let cell = |rows: &mut [Coeffs5<T>], i: usize| {
                     let k = i + nx * j;
                     if !active_fine(k) {
-                        continue;
+                        return;
                     }
-                    let (ci, cj) = (ax.parent(i), ay.parent(j));
+                    let ci = ax.parent(i);
                     let kc = ci + ncx * cj;
                     let (gx, gy) = (half_x(&east, i, j), half_y(&north, i, j));
                     if i + 1 < nx && ax.parent(i + 1) != ci {
@@ -395,28 +395,22 @@ impl<T: Scalar> Level<T> {
                             rows[r].south = rows[r].south - t * share;
                         }
                     }
-                    // Row-sum excess (storage, fixed neighbours), reached from the coarse
-                    // centre through the mean half-cell resistance, spread like the
-                    // interpolation.
-                    let e = excess[k];
-                    if e > T::zero() {
-                        let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
-                        let r = resist(gx).min(resist(gy));
-                        let contribution = ratio(e, T::one() + e * r);
-                        let (pi, qi, pj, qj) = (ci, ax.neighbour(i), cj, ay.neighbour(j));
-                        let (wxk, wyk) = (T::one() - own_share(wx[k]), T::one() - own_share(wy[k]));
-                        let (ux, uy) = (T::one() - wxk, T::one() - wyk);
-                        for (target, w) in [
-                            (pi + ncx * pj, ux * uy),
-                            (qi + ncx * pj, wxk * uy),
-                            (pi + ncx * qj, ux * wyk),
-                            (qi + ncx * qj, wxk * wyk),
-                        ] {
-                            let t = on(&active, target, kc);
-                            rows[t].center = rows[t].center + w * contribution;
-                        }
+                    if excess[k] > T::zero() {
+                        spread(rows, i, gx, gy, excess[k]);
                     }
-                }
+                };
+                // In row order: the first cells, the fast interior, the last cells.
+                let fast = fast_cols(&clear, j);
+                (0..fast.start).for_each(|i| cell(&mut rows, i));
+                let fine_rows = (&wx[..], &wy[..], &excess[..]);
+                FineConductances::new(&east, &north, nx, ncx).couplings(
+                    j,
+                    fast.clone(),
+                    fine_rows,
+                    &mut rows,
+                    |rows, i, gx, gy, e| spread(rows, i, Some(gx), Some(gy), e),
+                );
+                (fast.end..nx).for_each(|i| cell(&mut rows, i));
             }
         }
         let galerkin = rule == CoarseOperator::LumpedGalerkin;

@@ -59,6 +59,7 @@ mod aggregate;
 mod direct;
 mod galerkin;
 mod level;
+mod paths;
 mod skew;
 mod smooth;
 mod transfer;

@@ -1,0 +1,219 @@
+//! The arithmetic of the paths between coarse centres that `Level::below` (level.rs) builds a
+//! coarse level from — conductance of a coupling, series conductance and interpolation weight
+//! of a path, the own share of a weight — and its fast paths for the interior of rows whose
+//! neighbourhood (two rows and two columns around each cell) has no inactive cell.
+//!
+//! A fast path does, cell by cell and in the same order, the arithmetic of the generic code in
+//! level.rs for a cell whose neighbours all exist and are active: every half-cell conductance
+//! is there, no neighbour is missing, and the neighbouring aggregates are the ones the
+//! geometry names. It leaves out the lookups and the branches on the edges, so the bits are
+//! the same (the set-up fingerprints of `benches/examples/setup_profile.rs` check it).
+
+use super::aggregate::split;
+use crate::scalar::lit;
+use crate::{Coeffs5, Scalar};
+use std::ops::Range;
+
+/// The share of a cell's own aggregate among the aggregates it interpolates from:
+/// `own / (own + nb)` with the shares of [`split`].
+///
+/// For `w` in `[0, 1]` this is `1 − w` exactly, without the division: `own + nb` rounds to
+/// exactly 1 there. (For `w ≥ 1/2`, `1 − w` is exact (Sterbenz's lemma) and so is the sum;
+/// for `w < 1/2` the rounded `1 − w` lies in `[1/2, 1]` with an error of at most a quarter of
+/// an ulp of 1, so the sum `1 + e` rounds to 1 — a tie at `1 − ulp/4` goes to the even 1.
+/// Checked for every `f32` in `[0, 1]` when it went in, and by a unit test on a sample.)
+/// Other values (negative weights at edges, NaN) take the division.
+#[inline]
+pub(super) fn own_share<T: Scalar>(w: T) -> T {
+    if w >= T::zero() && w <= T::one() {
+        return T::one() - w;
+    }
+    own_share_by_division(w)
+}
+
+/// [`own_share`] by its definition.
+#[inline]
+pub(super) fn own_share_by_division<T: Scalar>(w: T) -> T {
+    let (own, nb) = split(w);
+    ratio(own, own + nb)
+}
+
+/// Conductance of a coupling (zero for a non-negative one: only diffusion couplings count).
+#[inline]
+pub(super) fn conductance<T: Scalar>(coupling: T) -> T {
+    if coupling < T::zero() {
+        -coupling
+    } else {
+        T::zero()
+    }
+}
+
+/// The path from one coarse centre to the next along a line of fine cells: half-cell
+/// conductance `g1` (None: the fine cell is the coarse centre), face conductance `gf`, half-cell
+/// conductance `g2` on the far side. Returns the share `w` of the far centre in the
+/// linear (flux-continuous) profile at the near fine cell, and the series conductance `G` of
+/// the whole path.
+#[inline]
+pub(super) fn series<T: Scalar>(g1: Option<T>, gf: T, g2: Option<T>) -> (T, T) {
+    let zero = T::zero();
+    match (g1, g2) {
+        (None, None) => (zero, gf),
+        (None, Some(b)) => (zero, ratio(gf * b, gf + b)),
+        (Some(a), None) => (ratio(gf, gf + a), ratio(a * gf, a + gf)),
+        (Some(a), Some(b)) => {
+            let den = gf * b + a * b + a * gf;
+            (ratio(gf * b, den), ratio(a * gf * b, den))
+        }
+    }
+}
+
+/// `num / den`, zero when `den` is not positive.
+#[inline]
+pub(super) fn ratio<T: Scalar>(num: T, den: T) -> T {
+    if den > T::zero() {
+        num / den
+    } else {
+        T::zero()
+    }
+}
+
+/// What the fast paths read of a fine level: its conductances towards east and north, per
+/// fine cell, and the sides of the fine and coarse grids.
+pub(super) struct FineConductances<'a, T> {
+    east: &'a [T],
+    north: &'a [T],
+    nx: usize,
+    ncx: usize,
+}
+
+impl<'a, T: Scalar> FineConductances<'a, T> {
+    /// The conductances towards east and north of a fine grid `nx` cells wide over a coarse
+    /// grid `ncx` cells wide.
+    pub(super) fn new(east: &'a [T], north: &'a [T], nx: usize, ncx: usize) -> Self {
+        FineConductances {
+            east,
+            north,
+            nx,
+            ncx,
+        }
+    }
+
+    /// Half-cell conductances of the path through cell `k` (column `i`) along x: towards its
+    /// own aggregate's centre, across the face, and the far half-cell (`series`' order).
+    #[inline(always)]
+    fn path_x(&self, i: usize, k: usize) -> (T, T, T) {
+        let (two, east) = (lit::<T>(2.0), self.east);
+        if i % 2 == 1 {
+            (two * east[k - 1], east[k], two * east[k + 1])
+        } else {
+            (two * east[k], east[k - 1], two * east[k - 2])
+        }
+    }
+
+    /// The same along y for cell `k` of row `j`.
+    #[inline(always)]
+    fn path_y(&self, j: usize, k: usize) -> (T, T, T) {
+        let (two, north, nx) = (lit::<T>(2.0), self.north, self.nx);
+        if j % 2 == 1 {
+            (two * north[k - nx], north[k], two * north[k + nx])
+        } else {
+            (two * north[k], north[k - nx], two * north[k - 2 * nx])
+        }
+    }
+
+    /// Pass 1 of level.rs (interpolation weights) on cells `cols` of row `j`.
+    pub(super) fn weights(&self, j: usize, cols: Range<usize>, wx: &mut [T], wy: &mut [T]) {
+        let weight = |(a, gf, b): (T, T, T)| series(Some(a), gf, Some(b)).0;
+        for i in cols {
+            let k = i + self.nx * j;
+            wx[k] = weight(self.path_x(i, k));
+            wy[k] = weight(self.path_y(j, k));
+        }
+    }
+
+    /// Pass 2 of level.rs (coarse couplings, and the row-sum excess through `spread`, given
+    /// the cell, its half-cell conductances along x and y and its coarse cell) on cells
+    /// `cols` of row `j`, adding into the coarse `rows` in the same order.
+    pub(super) fn couplings(
+        &self,
+        j: usize,
+        cols: Range<usize>,
+        (wx, wy, excess): (&[T], &[T], &[T]),
+        rows: &mut [Coeffs5<T>],
+        mut spread: impl FnMut(&mut [Coeffs5<T>], usize, T, T, T),
+    ) {
+        let (nx, ncx) = (self.nx, self.ncx);
+        let half: T = lit(0.5);
+        let cj = j / 2;
+        // The neighbouring coarse row of this fine row (it is inside the grid: the row is
+        // two rows away from either end).
+        let qj = if j % 2 == 1 { cj + 1 } else { cj - 1 };
+        for i in cols {
+            let k = i + nx * j;
+            let ci = i / 2;
+            let kc = ci + ncx * cj;
+            let (gx_own, gx_face, gx_far) = self.path_x(i, k);
+            let (gy_own, gy_face, gy_far) = self.path_y(j, k);
+            if i % 2 == 1 {
+                let t = series(Some(gx_own), gx_face, Some(gx_far)).1;
+                let own = half * (own_share(wy[k]) + own_share(wy[k + 1]));
+                let a = ci + ncx * qj;
+                for (l, r, share) in [(kc, kc + 1, own), (a, a + 1, T::one() - own)] {
+                    rows[l].east = rows[l].east - t * share;
+                    rows[r].west = rows[r].west - t * share;
+                }
+            }
+            if j % 2 == 1 {
+                let t = series(Some(gy_own), gy_face, Some(gy_far)).1;
+                let own = half * (own_share(wx[k]) + own_share(wx[k + nx]));
+                let qi = if i % 2 == 1 { ci + 1 } else { ci - 1 };
+                let up = kc + ncx;
+                let (a, b) = (qi + ncx * cj, qi + ncx * (cj + 1));
+                for (l, r, share) in [(kc, up, own), (a, b, T::one() - own)] {
+                    rows[l].north = rows[l].north - t * share;
+                    rows[r].south = rows[r].south - t * share;
+                }
+            }
+            let e = excess[k];
+            if e > T::zero() {
+                spread(rows, i, gx_own, gy_own, e);
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// `own_share` without the division gives the bits of its definition: on a sample of
+    /// every `f32` in `[0, 1]` (bit patterns in steps of 257, and the ends), on `f64` values
+    /// near 0, 1/2 and 1, and on negative weights and NaN.
+    #[test]
+    fn own_share_keeps_the_bits_of_its_division() {
+        let one = 1.0f32.to_bits();
+        for bits in (0..=one).step_by(257).chain([0, 1, one - 1, one]) {
+            let w = f32::from_bits(bits);
+            assert_eq!(
+                own_share(w).to_bits(),
+                own_share_by_division(w).to_bits(),
+                "{w}"
+            );
+        }
+        for base in [0.0f64, 0.5, 1.0] {
+            for step in -2000i64..=2000 {
+                let w = f64::from_bits((base.to_bits() as i64 + step).max(0) as u64);
+                if w <= 1.0 {
+                    assert_eq!(own_share(w).to_bits(), own_share_by_division(w).to_bits());
+                }
+            }
+        }
+        for w in [-0.0f64, -0.25, -1.0, f64::NAN, 1.5] {
+            assert_eq!(
+                own_share(w).to_bits(),
+                own_share_by_division(w).to_bits(),
+                "{w}"
+            );
+        }
+    }
+}
