@@ -212,14 +212,15 @@ impl<T: Scalar> Level<T> {
         // and three columns from every inactive cell and from the edges takes the fast paths
         // of `paths.rs` in passes 1 and 2.
         let mut clear = vec![true; ny];
+        let mut scratch = vec![T::zero(); 2 * nx];
         let fast_cols = |clear: &[bool], j: usize| {
             if nx >= 8 && j >= 2 && j + 2 < ny && clear[j - 2..=j + 2].iter().all(|&c| c) {
-                3..nx - 3
+                // Whole pairs of cells, from an odd column.
+                3..3 + 2 * ((nx - 6) / 2)
             } else {
                 0..0
             }
         };
-
         let mut north_below = vec![T::zero(); nx];
         for s in 0..ny + LAG2 {
             // Pass 0: conductances, excess, and which aggregates carry an unknown.
@@ -407,7 +408,7 @@ impl<T: Scalar> Level<T> {
                     j,
                     fast.clone(),
                     fine_rows,
-                    &mut rows,
+                    (&mut rows, &mut scratch),
                     |rows, i, gx, gy, e| spread(rows, i, Some(gx), Some(gy), e),
                 );
                 (fast.end..nx).for_each(|i| cell(&mut rows, i));

@@ -98,64 +98,105 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
         }
     }
 
-    /// Half-cell conductances of the path through cell `k` (column `i`) along x: towards its
-    /// own aggregate's centre, across the face, and the far half-cell (`series`' order).
-    #[inline(always)]
-    fn path_x(&self, i: usize, k: usize) -> (T, T, T) {
-        let (two, east) = (lit::<T>(2.0), self.east);
-        if i % 2 == 1 {
-            (two * east[k - 1], east[k], two * east[k + 1])
-        } else {
-            (two * east[k], east[k - 1], two * east[k - 2])
-        }
+    /// The half-cell conductance from cell `k` (column `i`, row `j`) to its aggregate's centre
+    /// along x and along y.
+    #[inline]
+    fn own_halves(&self, i: usize, j: usize, k: usize) -> (T, T) {
+        let two = lit::<T>(2.0);
+        let x = if i % 2 == 1 { k - 1 } else { k };
+        let y = if j % 2 == 1 { k - self.nx } else { k };
+        (two * self.east[x], two * self.north[y])
     }
 
-    /// The same along y for cell `k` of row `j`.
-    #[inline(always)]
-    fn path_y(&self, j: usize, k: usize) -> (T, T, T) {
-        let (two, north, nx) = (lit::<T>(2.0), self.north, self.nx);
+    /// The north conductances of cells `cols` along the paths in y of row `j`: on the cell's
+    /// own half-cell, on the face and on the far half-cell (`series`' order; the half-cells
+    /// are to be doubled).
+    fn paths_y(&self, j: usize, cols: Range<usize>) -> [&[T]; 3] {
+        let at = |r: usize| &self.north[r * self.nx..][cols.clone()];
         if j % 2 == 1 {
-            (two * north[k - nx], north[k], two * north[k + nx])
+            [at(j - 1), at(j), at(j + 1)]
         } else {
-            (two * north[k], north[k - nx], two * north[k - 2 * nx])
+            [at(j), at(j - 1), at(j - 2)]
         }
     }
 
-    /// Pass 1 of level.rs (interpolation weights) on cells `cols` of row `j`.
+    /// The east conductances of row `j` from the column before `cols` to its last: the paths
+    /// in x of the pairs of cells `cols` (which starts at an odd column and holds whole pairs)
+    /// are entries `2m`, `2m + 1`, `2m + 2` (half-cell, face, half-cell) for pair `m`.
+    fn paths_x(&self, j: usize, cols: Range<usize>) -> &[T] {
+        debug_assert!(cols.start % 2 == 1 && cols.len() % 2 == 0);
+        &self.east[self.nx * j..][cols.start - 1..cols.end]
+    }
+
+    /// Pass 1 of level.rs (interpolation weights) on cells `cols` of row `j` (see
+    /// [`paths_x`](Self::paths_x) for `cols`), as branch-free loops the compiler can
+    /// vectorise.
     pub(super) fn weights(&self, j: usize, cols: Range<usize>, wx: &mut [T], wy: &mut [T]) {
-        let weight = |(a, gf, b): (T, T, T)| series(Some(a), gf, Some(b)).0;
-        for i in cols {
-            let k = i + self.nx * j;
-            wx[k] = weight(self.path_x(i, k));
-            wy[k] = weight(self.path_y(j, k));
+        if cols.is_empty() {
+            return;
+        }
+        let two: T = lit(2.0);
+        let weight = |a: T, gf: T, b: T| series(Some(a), gf, Some(b)).0;
+        let row = self.nx * j;
+        let [own, face, far] = self.paths_y(j, cols.clone());
+        let wy = &mut wy[row..][cols.clone()];
+        for (w, ((&a, &gf), &b)) in wy.iter_mut().zip(own.iter().zip(face).zip(far)) {
+            *w = weight(two * a, gf, two * b);
+        }
+        // The odd cell of a pair is near the path's start, the even one near its end.
+        let east = self.paths_x(j, cols.clone());
+        let wx = &mut wx[row..][cols];
+        let pairs = wx.len() / 2;
+        assert!(east.len() > 2 * pairs);
+        for m in 0..pairs {
+            let (a, gf, b) = (two * east[2 * m], east[2 * m + 1], two * east[2 * m + 2]);
+            wx[2 * m] = weight(a, gf, b);
+            wx[2 * m + 1] = weight(b, gf, a);
         }
     }
 
     /// Pass 2 of level.rs (coarse couplings, and the row-sum excess through `spread`, given
-    /// the cell, its half-cell conductances along x and y and its coarse cell) on cells
-    /// `cols` of row `j`, adding into the coarse `rows` in the same order.
+    /// the cell, its half-cell conductances along x and y and the excess) on cells `cols` of
+    /// row `j` (see [`paths_x`](Self::paths_x)), adding into the coarse `rows` in the same
+    /// order. The series conductances come first, into `scratch` (at least 3/2 × `cols`
+    /// long), in loops the compiler can vectorise.
     pub(super) fn couplings(
         &self,
         j: usize,
         cols: Range<usize>,
         (wx, wy, excess): (&[T], &[T], &[T]),
-        rows: &mut [Coeffs5<T>],
+        (rows, scratch): (&mut [Coeffs5<T>], &mut [T]),
         mut spread: impl FnMut(&mut [Coeffs5<T>], usize, T, T, T),
     ) {
+        if cols.is_empty() {
+            return;
+        }
         let (nx, ncx) = (self.nx, self.ncx);
-        let half: T = lit(0.5);
+        let (two, half): (T, T) = (lit(2.0), lit(0.5));
+        let conductance = |a: T, gf: T, b: T| series(Some(two * a), gf, Some(two * b)).1;
+        let (tx, ty) = scratch.split_at_mut(cols.len() / 2);
+        let east = self.paths_x(j, cols.clone());
+        assert!(east.len() > 2 * tx.len());
+        for (m, t) in tx.iter_mut().enumerate() {
+            *t = conductance(east[2 * m], east[2 * m + 1], east[2 * m + 2]);
+        }
+        let ty = &mut ty[..cols.len()];
+        if j % 2 == 1 {
+            let [own, face, far] = self.paths_y(j, cols.clone());
+            for (t, ((&a, &gf), &b)) in ty.iter_mut().zip(own.iter().zip(face).zip(far)) {
+                *t = conductance(a, gf, b);
+            }
+        }
         let cj = j / 2;
         // The neighbouring coarse row of this fine row (it is inside the grid: the row is
         // two rows away from either end).
         let qj = if j % 2 == 1 { cj + 1 } else { cj - 1 };
-        for i in cols {
+        for (m, i) in cols.enumerate() {
             let k = i + nx * j;
             let ci = i / 2;
             let kc = ci + ncx * cj;
-            let (gx_own, gx_face, gx_far) = self.path_x(i, k);
-            let (gy_own, gy_face, gy_far) = self.path_y(j, k);
             if i % 2 == 1 {
-                let t = series(Some(gx_own), gx_face, Some(gx_far)).1;
+                let t = tx[m / 2];
                 let own = half * (own_share(wy[k]) + own_share(wy[k + 1]));
                 let a = ci + ncx * qj;
                 for (l, r, share) in [(kc, kc + 1, own), (a, a + 1, T::one() - own)] {
@@ -164,7 +205,7 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
                 }
             }
             if j % 2 == 1 {
-                let t = series(Some(gy_own), gy_face, Some(gy_far)).1;
+                let t = ty[m];
                 let own = half * (own_share(wx[k]) + own_share(wx[k + nx]));
                 let qi = if i % 2 == 1 { ci + 1 } else { ci - 1 };
                 let up = kc + ncx;
@@ -176,7 +217,8 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
             }
             let e = excess[k];
             if e > T::zero() {
-                spread(rows, i, gx_own, gy_own, e);
+                let (gx, gy) = self.own_halves(i, j, k);
+                spread(rows, i, gx, gy, e);
             }
         }
     }
