@@ -212,7 +212,7 @@ impl<T: Scalar> Level<T> {
         // and three columns from every inactive cell and from the edges takes the fast paths
         // of `paths.rs` in passes 1 and 2.
         let mut clear = vec![true; ny];
-        let mut scratch = vec![T::zero(); 2 * nx];
+        let mut scratch = vec![T::zero(); 4 * nx];
         let fast_cols = |clear: &[bool], j: usize| {
             if nx >= 8 && j >= 2 && j + 2 < ny && clear[j - 2..=j + 2].iter().all(|&c| c) {
                 // Whole pairs of cells, from an odd column.

@@ -158,7 +158,7 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
     /// Pass 2 of level.rs (coarse couplings, and the row-sum excess through `spread`, given
     /// the cell, its half-cell conductances along x and y and the excess) on cells `cols` of
     /// row `j` (see [`paths_x`](Self::paths_x)), adding into the coarse `rows` in the same
-    /// order. The series conductances come first, into `scratch` (at least 3/2 × `cols`
+    /// order. The series conductances come first, into `scratch` (at least 7/2 × `cols`
     /// long), in loops the compiler can vectorise.
     pub(super) fn couplings(
         &self,
@@ -174,13 +174,13 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
         let (nx, ncx) = (self.nx, self.ncx);
         let (two, half): (T, T) = (lit(2.0), lit(0.5));
         let conductance = |a: T, gf: T, b: T| series(Some(two * a), gf, Some(two * b)).1;
-        let (tx, ty) = scratch.split_at_mut(cols.len() / 2);
+        let (tx, scratch) = scratch.split_at_mut(cols.len() / 2);
         let east = self.paths_x(j, cols.clone());
         assert!(east.len() > 2 * tx.len());
         for (m, t) in tx.iter_mut().enumerate() {
             *t = conductance(east[2 * m], east[2 * m + 1], east[2 * m + 2]);
         }
-        let ty = &mut ty[..cols.len()];
+        let ty = &mut scratch[..cols.len()];
         if j % 2 == 1 {
             let [own, face, far] = self.paths_y(j, cols.clone());
             for (t, ((&a, &gf), &b)) in ty.iter_mut().zip(own.iter().zip(face).zip(far)) {
@@ -191,30 +191,59 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
         // The neighbouring coarse row of this fine row (it is inside the grid: the row is
         // two rows away from either end).
         let qj = if j % 2 == 1 { cj + 1 } else { cj - 1 };
-        for (m, i) in cols.enumerate() {
-            let k = i + nx * j;
-            let ci = i / 2;
+        let row = nx * j;
+        // Each coupling of a coarse cell gets the contributions of this row's cells in their
+        // order, as in the generic code: the x paths add to the east and west couplings, the
+        // y paths to the north and south ones, the excess to the centers.
+        for (m, &t) in tx.iter().enumerate() {
+            let i = cols.start + 2 * m;
+            let (k, ci) = (row + i, i / 2);
             let kc = ci + ncx * cj;
-            if i % 2 == 1 {
-                let t = tx[m / 2];
-                let own = half * (own_share(wy[k]) + own_share(wy[k + 1]));
-                let a = ci + ncx * qj;
-                for (l, r, share) in [(kc, kc + 1, own), (a, a + 1, T::one() - own)] {
-                    rows[l].east = rows[l].east - t * share;
-                    rows[r].west = rows[r].west - t * share;
-                }
+            let own = half * (own_share(wy[k]) + own_share(wy[k + 1]));
+            let a = ci + ncx * qj;
+            for (l, r, share) in [(kc, kc + 1, own), (a, a + 1, T::one() - own)] {
+                rows[l].east = rows[l].east - t * share;
+                rows[r].west = rows[r].west - t * share;
             }
-            if j % 2 == 1 {
-                let t = ty[m];
-                let own = half * (own_share(wx[k]) + own_share(wx[k + nx]));
-                let qi = if i % 2 == 1 { ci + 1 } else { ci - 1 };
-                let up = kc + ncx;
-                let (a, b) = (qi + ncx * cj, qi + ncx * (cj + 1));
-                for (l, r, share) in [(kc, up, own), (a, b, T::one() - own)] {
-                    rows[l].north = rows[l].north - t * share;
-                    rows[r].south = rows[r].south - t * share;
-                }
+        }
+        if j % 2 == 1 {
+            // Along y every cell adds to its own coarse cell's north coupling (and the south
+            // one of the cell above), and to its neighbouring aggregate's: coarse cell `ci`
+            // gets those of cells 2ci − 1, 2ci, 2ci + 1, 2ci + 2 in turn, summed here in that
+            // order without going through memory.
+            let (ty, rest) = scratch.split_at_mut(cols.len());
+            let (own_part, rest) = rest.split_at_mut(cols.len());
+            let nb_part = &mut rest[..cols.len()];
+            let (wx_row, wx_above) = (&wx[row..][cols.clone()], &wx[row + nx..][cols.clone()]);
+            for ((t, (o, n)), (&w, &w_above)) in ty
+                .iter()
+                .zip(own_part.iter_mut().zip(nb_part.iter_mut()))
+                .zip(wx_row.iter().zip(wx_above))
+            {
+                let own = half * (own_share(w) + own_share(w_above));
+                (*o, *n) = (*t * own, *t * (T::one() - own));
             }
+            let (own_part, nb_part) = (&*own_part, &*nb_part);
+            let (below, above) = rows[ncx * cj..].split_at_mut(ncx);
+            for ci in (cols.start - 1) / 2..=(cols.end - 1) / 2 {
+                let (mut north, mut south) = (below[ci].north, above[ci].south);
+                let cells = [
+                    (2 * ci - 1, nb_part),
+                    (2 * ci, own_part),
+                    (2 * ci + 1, own_part),
+                    (2 * ci + 2, nb_part),
+                ];
+                for (i, part) in cells {
+                    if cols.contains(&i) {
+                        let s = part[i - cols.start];
+                        (north, south) = (north - s, south - s);
+                    }
+                }
+                (below[ci].north, above[ci].south) = (north, south);
+            }
+        }
+        for i in cols.clone() {
+            let k = row + i;
             let e = excess[k];
             if e > T::zero() {
                 let (gx, gy) = self.own_halves(i, j, k);
