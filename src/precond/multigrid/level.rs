@@ -33,7 +33,7 @@
 
 use super::aggregate::Axis;
 use super::galerkin::galerkin_lumped;
-use super::paths::{conductance, own_share, ratio, series, FineConductances};
+use super::paths::{conductance, conductances_row, own_share, ratio, series, FineConductances};
 use super::transfer::Transfer;
 use super::CoarseOperator;
 use std::ops::Range;
@@ -212,7 +212,13 @@ impl<T: Scalar> Level<T> {
         // and three columns from every inactive cell and from the edges takes the fast paths
         // of `paths.rs` in passes 1 and 2.
         let mut clear = vec![true; ny];
-        let mut scratch = vec![T::zero(); 4 * nx];
+        for &k in fine.fixed().map_or(&[][..], |f| f.cells()) {
+            let (i, j) = (k % nx, k / nx);
+            if j < ny && i != 0 && i + 1 != nx {
+                clear[j] = false;
+            }
+        }
+        let mut scratch = vec![T::zero(); 5 * nx];
         let fast_cols = |clear: &[bool], j: usize| {
             if nx >= 8 && j >= 2 && j + 2 < ny && clear[j - 2..=j + 2].iter().all(|&c| c) {
                 // Whole pairs of cells, from an odd column.
@@ -223,29 +229,52 @@ impl<T: Scalar> Level<T> {
         };
         let mut north_below = vec![T::zero(); nx];
         for s in 0..ny + LAG2 {
-            // Pass 0: conductances, excess, and which aggregates carry an unknown.
+            // Pass 0: conductances, excess, and which aggregates carry an unknown. Cells 1 to
+            // nx − 2 of a clear row take the fast path.
             if s < ny {
                 let j = s;
+                let fast = if clear[j] && nx >= 3 { 1..nx - 1 } else { 0..0 };
                 let mut east_before = T::zero();
-                for (i, north_below) in north_below.iter_mut().enumerate() {
-                    let k = i + nx * j;
-                    if !active_fine(k) {
-                        (east_before, *north_below) = (T::zero(), T::zero());
-                        clear[j] &= i == 0 || i + 1 == nx;
+                for span in [0..fast.start, fast.clone(), fast.end..nx] {
+                    if span == fast && !fast.is_empty() {
+                        let found = (&mut east[..], &mut north[..], &mut excess[..]);
+                        let near = (&mut east_before, &mut north_below[..]);
+                        if !conductances_row(
+                            fine,
+                            j,
+                            fast.clone(),
+                            differ,
+                            near,
+                            found,
+                            &mut scratch,
+                        ) {
+                            return Ok(None);
+                        }
+                        let coarse_row = ncx * ay.parent(j);
+                        active[coarse_row + ax.parent(fast.start)
+                            ..=coarse_row + ax.parent(fast.end - 1)]
+                            .fill(true);
                         continue;
                     }
-                    active[ax.parent(i) + ncx * ay.parent(j)] = true;
-                    let c = fine.eliminated_coeffs(i, j);
-                    if (i > 0 && differ(east_before, c.west))
-                        || (j > 0 && differ(*north_below, c.south))
-                    {
-                        return Ok(None);
+                    for i in span {
+                        let k = i + nx * j;
+                        if !active_fine(k) {
+                            (east_before, north_below[i]) = (T::zero(), T::zero());
+                            continue;
+                        }
+                        active[ax.parent(i) + ncx * ay.parent(j)] = true;
+                        let c = fine.eliminated_coeffs(i, j);
+                        if (i > 0 && differ(east_before, c.west))
+                            || (j > 0 && differ(north_below[i], c.south))
+                        {
+                            return Ok(None);
+                        }
+                        (east_before, north_below[i]) = (c.east, c.north);
+                        east[k] = conductance(c.east);
+                        north[k] = conductance(c.north);
+                        let sum = c.center + c.west + c.east + c.south + c.north;
+                        excess[k] = if sum > T::zero() { sum } else { T::zero() };
                     }
-                    (east_before, *north_below) = (c.east, c.north);
-                    east[k] = conductance(c.east);
-                    north[k] = conductance(c.north);
-                    let sum = c.center + c.west + c.east + c.south + c.north;
-                    excess[k] = if sum > T::zero() { sum } else { T::zero() };
                 }
             }
             // Pass 1: interpolation weights towards the neighbouring aggregates.

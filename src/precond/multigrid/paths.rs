@@ -10,6 +10,7 @@
 //! the same (the set-up fingerprints of `benches/examples/setup_profile.rs` check it).
 
 use super::aggregate::split;
+use crate::operator::Stencil5;
 use crate::scalar::lit;
 use crate::{Coeffs5, Scalar};
 use std::ops::Range;
@@ -251,6 +252,64 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
             }
         }
     }
+}
+
+/// Pass 0 of level.rs (conductances, row-sum excess and the symmetry test) on cells `cols`
+/// of row `j` of `fine`, all of them active and `cols` not starting at the first column: the
+/// eliminated rows are gathered into `scratch` (five times `cols` long) first, the rest are
+/// loops without branches. `east_before` is the east coupling of the cell before `cols` and
+/// `north_below` the north couplings of the row below (both updated with this row's);
+/// `east`, `north` and `excess` are per fine cell. Returns false if a pair of couplings
+/// `differ`s (and then writes nothing but the scratch).
+#[allow(clippy::type_complexity)]
+pub(super) fn conductances_row<T: Scalar, R: Stencil5<T> + ?Sized>(
+    fine: &R,
+    j: usize,
+    cols: Range<usize>,
+    differ: impl Fn(T, T) -> bool,
+    (east_before, north_below): (&mut T, &mut [T]),
+    (east, north, excess): (&mut [T], &mut [T], &mut [T]),
+    scratch: &mut [T],
+) -> bool {
+    let len = cols.len();
+    debug_assert!(cols.start > 0 && len > 0);
+    let (cc, rest) = scratch.split_at_mut(len);
+    let (cw, rest) = rest.split_at_mut(len);
+    let (ce, rest) = rest.split_at_mut(len);
+    let (cs, rest) = rest.split_at_mut(len);
+    let cn = &mut rest[..len];
+    for (m, i) in cols.clone().enumerate() {
+        let c = fine.eliminated_coeffs(i, j);
+        (cc[m], cw[m], ce[m], cs[m], cn[m]) = (c.center, c.west, c.east, c.south, c.north);
+    }
+    let mut found = differ(*east_before, cw[0]);
+    for (&before, &west) in ce.iter().zip(&cw[1..]) {
+        found |= differ(before, west);
+    }
+    let north_below = &mut north_below[cols.clone()];
+    if j > 0 {
+        for (&below, &south) in north_below.iter().zip(cs.iter()) {
+            found |= differ(below, south);
+        }
+    }
+    if found {
+        return false;
+    }
+    *east_before = ce[len - 1];
+    north_below.copy_from_slice(cn);
+    let row = fine.grid().nx() * j;
+    for (g, &c) in east[row..][cols.clone()].iter_mut().zip(ce.iter()) {
+        *g = conductance(c);
+    }
+    for (g, &c) in north[row..][cols.clone()].iter_mut().zip(cn.iter()) {
+        *g = conductance(c);
+    }
+    let excess = &mut excess[row..][cols];
+    for (m, e) in excess.iter_mut().enumerate() {
+        let sum = cc[m] + cw[m] + ce[m] + cs[m] + cn[m];
+        *e = if sum > T::zero() { sum } else { T::zero() };
+    }
+    true
 }
 
 #[cfg(test)]
