@@ -180,7 +180,9 @@ impl<T: Scalar> Level<T> {
             south: T::zero(),
             north: T::zero(),
         };
-        let mut rows = vec![zero; nc];
+        // The coarse rows, zeroed a coarse row at a time as pass 2 comes to them (while the
+        // fresh memory is in cache, rather than in a pass of its own).
+        let mut rows: Vec<Coeffs5<T>> = Vec::with_capacity(nc);
         let mut active = vec![false; nc];
         let mut wx = vec![T::zero(); n];
         let mut wy = vec![T::zero(); n];
@@ -202,12 +204,12 @@ impl<T: Scalar> Level<T> {
         // The symmetry check of pass 0: each free cell's eliminated west and south couplings
         // against the east coupling of the cell before it and the north coupling of the cell
         // below it (zero for a fixed cell, whose eliminated row is an identity row).
-        // (Equal couplings never differ: checked first, without the conversions.)
+        // (Equal couplings never differ; `&` rather than `&&`, so that a loop of tests has no
+        // branches.)
         let differ = |a: T, b: T| {
-            let (a, b) = (to_f64(a), to_f64(b));
-            (a - b).abs() > rel_tol * a.abs().max(b.abs())
+            let (wide_a, wide_b) = (to_f64(a), to_f64(b));
+            (a != b) & ((wide_a - wide_b).abs() > rel_tol * wide_a.abs().max(wide_b.abs()))
         };
-        let differ = |a: T, b: T| a != b && differ(a, b);
         // Rows whose cells are all active but perhaps the first and the last; a cell two rows
         // and three columns from every inactive cell and from the edges takes the fast paths
         // of `paths.rs` in passes 1 and 2.
@@ -362,6 +364,8 @@ impl<T: Scalar> Level<T> {
             if s >= LAG2 {
                 let j = s - LAG2;
                 let cj = ay.parent(j);
+                // Pass 2 on row j adds into coarse rows up to cj + 1.
+                rows.resize(((cj + 2) * ncx).min(nc), zero);
                 // Row-sum excess `e` (storage, fixed neighbours) of cell `i`, reached from the
                 // coarse centre through the mean half-cell resistance, spread like the
                 // interpolation.
@@ -443,6 +447,7 @@ impl<T: Scalar> Level<T> {
                 (fast.end..nx).for_each(|i| cell(&mut rows, i));
             }
         }
+        rows.resize(nc, zero);
         let galerkin = rule == CoarseOperator::LumpedGalerkin;
         if galerkin {
             rows = galerkin_lumped(fine, &ax, &ay, &wx, &wy, grid, &active);
