@@ -175,10 +175,7 @@ impl<T: Scalar> Level<T> {
         };
         let zero = Coeffs5 {
             center: T::zero(),
-            west: T::zero(),
-            east: T::zero(),
-            south: T::zero(),
-            north: T::zero(),
+            ..Coeffs5::identity()
         };
         // The coarse rows, zeroed a coarse row at a time as pass 2 comes to them (while the
         // fresh memory is in cache, rather than in a pass of its own).
@@ -186,13 +183,7 @@ impl<T: Scalar> Level<T> {
         let mut active = vec![false; nc];
         let mut wx = vec![T::zero(); n];
         let mut wy = vec![T::zero(); n];
-        let on = |active: &[bool], kc: usize, fallback: usize| {
-            if active[kc] {
-                kc
-            } else {
-                fallback
-            }
-        };
+        let on = |active: &[bool], kc: usize, fb: usize| if active[kc] { kc } else { fb };
         // Three passes over the fine rows, fused into one sweep down the grid: pass 0 on row
         // `s`, pass 1 on row `s − LAG1`, pass 2 on row `s − LAG2`, so that each pass finds the
         // rows it reads already done (pass 1 on row j reads pass 0 up to row j + 1; pass 2 on

@@ -1,13 +1,15 @@
 //! The arithmetic of the paths between coarse centres that `Level::below` (level.rs) builds a
 //! coarse level from — conductance of a coupling, series conductance and interpolation weight
-//! of a path, the own share of a weight — and its fast paths for the interior of rows whose
-//! neighbourhood (two rows and two columns around each cell) has no inactive cell.
+//! of a path, the own share of a weight — and its fast paths: pass 0 on the cells of a row
+//! clear of inactive cells, passes 1 and 2 on the cells two rows and three columns away from
+//! every inactive cell and edge.
 //!
-//! A fast path does, cell by cell and in the same order, the arithmetic of the generic code in
-//! level.rs for a cell whose neighbours all exist and are active: every half-cell conductance
-//! is there, no neighbour is missing, and the neighbouring aggregates are the ones the
-//! geometry names. It leaves out the lookups and the branches on the edges, so the bits are
-//! the same (the set-up fingerprints of `benches/examples/setup_profile.rs` check it).
+//! A fast path does, cell by cell, the arithmetic of the generic code in level.rs for a cell
+//! whose neighbours all exist and are active: every half-cell conductance is there, no
+//! neighbour is missing, and the neighbouring aggregates are the ones the geometry names. It
+//! leaves out the lookups and the branches on the edges, and adds into each coarse coupling in
+//! the generic code's order, so the bits are the same (the set-up fingerprints of
+//! `benches/examples/setup_profile.rs` check it).
 
 use super::aggregate::split;
 use crate::operator::Stencil5;
