@@ -189,9 +189,16 @@ impl<T: Scalar> Banded5<T> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn cast<U: Scalar>(&self) -> Result<Banded5<U>, Error> {
-        let convert = |v: &[T]| -> Result<Vec<U>, Error> {
+        // Converted a block at a time, each block tested for finite values while it is in
+        // cache (a pass of its own over the copy would read it all again).
+        let mut finite = true;
+        let mut convert = |v: &[T]| -> Result<Vec<U>, Error> {
             let mut out = memory::with_capacity("the converted bands", v.len())?;
-            out.extend(v.iter().map(|&e| cast_scalar::<T, U>(e)));
+            for block in v.chunks(4096) {
+                let start = out.len();
+                out.extend(block.iter().map(|&e| cast_scalar::<T, U>(e)));
+                finite &= all_finite(&out[start..]);
+            }
             Ok(out)
         };
         // The source's lengths and fixed set were checked when it was built, so the copy is
@@ -208,7 +215,13 @@ impl<T: Scalar> Banded5<T> {
             first_nonpositive: None,
             rows_sum_to_zero: false,
         };
-        op.resurvey()?;
+        let found = match finite.then(|| op.survey_finite_bands()).flatten() {
+            Some(found) => found,
+            // As in `resurvey`: the survey cell by cell names the first cell at fault.
+            None => survey(op.grid, op.fixed.as_ref(), |i, j| op.coeffs(i, j))?,
+        };
+        op.rows_sum_to_zero = found.rows_sum_to_zero;
+        op.first_nonpositive = found.first_nonpositive.map(|(k, _)| (k, op.center[k]));
         Ok(op)
     }
 
@@ -338,6 +351,11 @@ impl<T: Scalar> Banded5<T> {
     }
 }
 
+/// Whether every entry of `band` is finite (a scan the compiler can vectorise).
+fn all_finite<T: Scalar>(band: &[T]) -> bool {
+    band.iter().fold(true, |all, v| all & v.is_finite()) // local: a flag
+}
+
 impl<T: Scalar> Banded5<T> {
     /// What [`survey`] finds, read from the bands directly (scans the compiler can vectorise),
     /// if every coefficient is finite and no coupling points off the grid; `None` otherwise.
@@ -349,10 +367,14 @@ impl<T: Scalar> Banded5<T> {
             &self.south,
             &self.north,
         ];
-        let finite = |b: &[T]| b.iter().fold(true, |all, v| all & v.is_finite()); // local: a flag
-        if !bands.iter().all(|band| finite(band)) {
+        if !bands.iter().all(|band| all_finite(band)) {
             return None;
         }
+        self.survey_finite_bands()
+    }
+
+    /// [`survey_bands`](Self::survey_bands) of bands already known to be finite.
+    fn survey_finite_bands(&self) -> Option<Survey> {
         let (nx, ny) = (self.grid.nx(), self.grid.ny());
         let zero = T::zero();
         let sides_clear =

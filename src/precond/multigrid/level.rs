@@ -31,8 +31,9 @@
 //! cells, coarse cells with no unknown under them) are left out of `P` and `R` and are identity
 //! rows, so the V-cycle stays symmetric.
 
-use super::aggregate::{split, Axis};
+use super::aggregate::Axis;
 use super::galerkin::galerkin_lumped;
+use super::paths::{conductance, conductances_row, own_share, ratio, series, FineConductances};
 use super::transfer::Transfer;
 use super::CoarseOperator;
 use std::ops::Range;
@@ -88,52 +89,6 @@ impl<T: Scalar> Stencil5<T> for LevelOperator<T> {
             let (south, row, north) = row_neighbourhood(x, first, nx, ny, j);
             row_product(|i| coeffs[i], south, row, north, y_row);
         }
-    }
-}
-
-/// The share of a cell's own aggregate among the aggregates it interpolates from.
-#[inline]
-fn own_share<T: Scalar>(w: T) -> T {
-    let (own, nb) = split(w);
-    ratio(own, own + nb)
-}
-
-/// Conductance of a coupling (zero for a non-negative one: only diffusion couplings count).
-#[inline]
-fn conductance<T: Scalar>(coupling: T) -> T {
-    if coupling < T::zero() {
-        -coupling
-    } else {
-        T::zero()
-    }
-}
-
-/// The path from one coarse centre to the next along a line of fine cells: half-cell
-/// conductance `g1` (None: the fine cell is the coarse centre), face conductance `gf`, half-cell
-/// conductance `g2` on the far side. Returns the share `w` of the far centre in the
-/// linear (flux-continuous) profile at the near fine cell, and the series conductance `G` of
-/// the whole path.
-#[inline]
-fn series<T: Scalar>(g1: Option<T>, gf: T, g2: Option<T>) -> (T, T) {
-    let zero = T::zero();
-    match (g1, g2) {
-        (None, None) => (zero, gf),
-        (None, Some(b)) => (zero, ratio(gf * b, gf + b)),
-        (Some(a), None) => (ratio(gf, gf + a), ratio(a * gf, a + gf)),
-        (Some(a), Some(b)) => {
-            let den = gf * b + a * b + a * gf;
-            (ratio(gf * b, den), ratio(a * gf * b, den))
-        }
-    }
-}
-
-/// `num / den`, zero when `den` is not positive.
-#[inline]
-fn ratio<T: Scalar>(num: T, den: T) -> T {
-    if den > T::zero() {
-        num / den
-    } else {
-        T::zero()
     }
 }
 
@@ -223,22 +178,15 @@ impl<T: Scalar> Level<T> {
         };
         let zero = Coeffs5 {
             center: T::zero(),
-            west: T::zero(),
-            east: T::zero(),
-            south: T::zero(),
-            north: T::zero(),
+            ..Coeffs5::identity()
         };
-        let mut rows = vec![zero; nc];
+        // The coarse rows, zeroed a coarse row at a time as pass 2 comes to them (while the
+        // fresh memory is in cache, rather than in a pass of its own).
+        let mut rows: Vec<Coeffs5<T>> = Vec::with_capacity(nc);
         let mut active = vec![false; nc];
         let mut wx = vec![T::zero(); n];
         let mut wy = vec![T::zero(); n];
-        let on = |active: &[bool], kc: usize, fallback: usize| {
-            if active[kc] {
-                kc
-            } else {
-                fallback
-            }
-        };
+        let on = |active: &[bool], kc: usize, fb: usize| if active[kc] { kc } else { fb };
         // Three passes over the fine rows, fused into one sweep down the grid: pass 0 on row
         // `s`, pass 1 on row `s − LAG1`, pass 2 on row `s − LAG2`, so that each pass finds the
         // rows it reads already done (pass 1 on row j reads pass 0 up to row j + 1; pass 2 on
@@ -250,40 +198,92 @@ impl<T: Scalar> Level<T> {
         // The symmetry check of pass 0: each free cell's eliminated west and south couplings
         // against the east coupling of the cell before it and the north coupling of the cell
         // below it (zero for a fixed cell, whose eliminated row is an identity row).
+        // (Equal couplings never differ; `&` rather than `&&`, so that a loop of tests has no
+        // branches.)
         let differ = |a: T, b: T| {
-            let (a, b) = (to_f64(a), to_f64(b));
-            (a - b).abs() > rel_tol * a.abs().max(b.abs())
+            let (wide_a, wide_b) = (to_f64(a), to_f64(b));
+            (a != b) & ((wide_a - wide_b).abs() > rel_tol * wide_a.abs().max(wide_b.abs()))
+        };
+        // Rows whose cells are all active but perhaps the first and the last; a cell two rows
+        // and three columns from every inactive cell and from the edges takes the fast paths
+        // of `paths.rs` in passes 1 and 2.
+        let mut clear = vec![true; ny];
+        for &k in fine.fixed().map_or(&[][..], |f| f.cells()) {
+            let (i, j) = (k % nx, k / nx);
+            if j < ny && i != 0 && i + 1 != nx {
+                clear[j] = false;
+            }
+        }
+        let mut scratch = vec![T::zero(); 5 * nx];
+        let fast_cols = |clear: &[bool], j: usize| {
+            if nx >= 8 && j >= 2 && j + 2 < ny && clear[j - 2..=j + 2].iter().all(|&c| c) {
+                // Whole pairs of cells, from an odd column.
+                3..3 + 2 * ((nx - 6) / 2)
+            } else {
+                0..0
+            }
         };
         let mut north_below = vec![T::zero(); nx];
         for s in 0..ny + LAG2 {
-            // Pass 0: conductances, excess, and which aggregates carry an unknown.
+            // Pass 0: conductances, excess, and which aggregates carry an unknown. Cells 1 to
+            // nx − 2 of a clear row take the fast path.
             if s < ny {
                 let j = s;
+                let fast = if clear[j] && nx >= 3 { 1..nx - 1 } else { 0..0 };
                 let mut east_before = T::zero();
-                for (i, north_below) in north_below.iter_mut().enumerate() {
-                    let k = i + nx * j;
-                    if !active_fine(k) {
-                        (east_before, *north_below) = (T::zero(), T::zero());
+                for span in [0..fast.start, fast.clone(), fast.end..nx] {
+                    if span == fast && !fast.is_empty() {
+                        let found = (&mut east[..], &mut north[..], &mut excess[..]);
+                        let near = (&mut east_before, &mut north_below[..]);
+                        if !conductances_row(
+                            fine,
+                            j,
+                            fast.clone(),
+                            differ,
+                            near,
+                            found,
+                            &mut scratch,
+                        ) {
+                            return Ok(None);
+                        }
+                        let coarse_row = ncx * ay.parent(j);
+                        active[coarse_row + ax.parent(fast.start)
+                            ..=coarse_row + ax.parent(fast.end - 1)]
+                            .fill(true);
                         continue;
                     }
-                    active[ax.parent(i) + ncx * ay.parent(j)] = true;
-                    let c = fine.eliminated_coeffs(i, j);
-                    if (i > 0 && differ(east_before, c.west))
-                        || (j > 0 && differ(*north_below, c.south))
-                    {
-                        return Ok(None);
+                    for i in span {
+                        let k = i + nx * j;
+                        if !active_fine(k) {
+                            (east_before, north_below[i]) = (T::zero(), T::zero());
+                            continue;
+                        }
+                        active[ax.parent(i) + ncx * ay.parent(j)] = true;
+                        let c = fine.eliminated_coeffs(i, j);
+                        if (i > 0 && differ(east_before, c.west))
+                            || (j > 0 && differ(north_below[i], c.south))
+                        {
+                            return Ok(None);
+                        }
+                        (east_before, north_below[i]) = (c.east, c.north);
+                        east[k] = conductance(c.east);
+                        north[k] = conductance(c.north);
+                        let sum = c.center + c.west + c.east + c.south + c.north;
+                        excess[k] = if sum > T::zero() { sum } else { T::zero() };
                     }
-                    (east_before, *north_below) = (c.east, c.north);
-                    east[k] = conductance(c.east);
-                    north[k] = conductance(c.north);
-                    let sum = c.center + c.west + c.east + c.south + c.north;
-                    excess[k] = if sum > T::zero() { sum } else { T::zero() };
                 }
             }
             // Pass 1: interpolation weights towards the neighbouring aggregates.
             if (LAG1..ny + LAG1).contains(&s) {
                 let j = s - LAG1;
-                for i in 0..nx {
+                let fast = fast_cols(&clear, j);
+                FineConductances::new(&east, &north, nx, ncx).weights(
+                    j,
+                    fast.clone(),
+                    &mut wx,
+                    &mut wy,
+                );
+                for i in (0..fast.start).chain(fast.end..nx) {
                     let k = i + nx * j;
                     if !active_fine(k) {
                         continue;
@@ -357,12 +357,37 @@ impl<T: Scalar> Level<T> {
             // corrections.
             if s >= LAG2 {
                 let j = s - LAG2;
-                for i in 0..nx {
+                let cj = ay.parent(j);
+                // Pass 2 on row j adds into coarse rows up to cj + 1.
+                rows.resize(((cj + 2) * ncx).min(nc), zero);
+                // Row-sum excess `e` (storage, fixed neighbours) of cell `i`, reached from the
+                // coarse centre through the mean half-cell resistance, spread like the
+                // interpolation.
+                let spread = |rows: &mut [Coeffs5<T>], i: usize, gx, gy, e: T| {
+                    let (k, ci) = (i + nx * j, ax.parent(i));
+                    let kc = ci + ncx * cj;
+                    let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
+                    let r = resist(gx).min(resist(gy));
+                    let contribution = ratio(e, T::one() + e * r);
+                    let (pi, qi, pj, qj) = (ci, ax.neighbour(i), cj, ay.neighbour(j));
+                    let (wxk, wyk) = (T::one() - own_share(wx[k]), T::one() - own_share(wy[k]));
+                    let (ux, uy) = (T::one() - wxk, T::one() - wyk);
+                    for (target, w) in [
+                        (pi + ncx * pj, ux * uy),
+                        (qi + ncx * pj, wxk * uy),
+                        (pi + ncx * qj, ux * wyk),
+                        (qi + ncx * qj, wxk * wyk),
+                    ] {
+                        let t = on(&active, target, kc);
+                        rows[t].center = rows[t].center + w * contribution;
+                    }
+                };
+                let cell = |rows: &mut [Coeffs5<T>], i: usize| {
                     let k = i + nx * j;
                     if !active_fine(k) {
-                        continue;
+                        return;
                     }
-                    let (ci, cj) = (ax.parent(i), ay.parent(j));
+                    let ci = ax.parent(i);
                     let kc = ci + ncx * cj;
                     let (gx, gy) = (half_x(&east, i, j), half_y(&north, i, j));
                     if i + 1 < nx && ax.parent(i + 1) != ci {
@@ -398,30 +423,25 @@ impl<T: Scalar> Level<T> {
                             rows[r].south = rows[r].south - t * share;
                         }
                     }
-                    // Row-sum excess (storage, fixed neighbours), reached from the coarse
-                    // centre through the mean half-cell resistance, spread like the
-                    // interpolation.
-                    let e = excess[k];
-                    if e > T::zero() {
-                        let resist = |g: Option<T>| g.map_or(T::zero(), |g| ratio(T::one(), g));
-                        let r = resist(gx).min(resist(gy));
-                        let contribution = ratio(e, T::one() + e * r);
-                        let (pi, qi, pj, qj) = (ci, ax.neighbour(i), cj, ay.neighbour(j));
-                        let (wxk, wyk) = (T::one() - own_share(wx[k]), T::one() - own_share(wy[k]));
-                        let (ux, uy) = (T::one() - wxk, T::one() - wyk);
-                        for (target, w) in [
-                            (pi + ncx * pj, ux * uy),
-                            (qi + ncx * pj, wxk * uy),
-                            (pi + ncx * qj, ux * wyk),
-                            (qi + ncx * qj, wxk * wyk),
-                        ] {
-                            let t = on(&active, target, kc);
-                            rows[t].center = rows[t].center + w * contribution;
-                        }
+                    if excess[k] > T::zero() {
+                        spread(rows, i, gx, gy, excess[k]);
                     }
-                }
+                };
+                // In row order: the first cells, the fast interior, the last cells.
+                let fast = fast_cols(&clear, j);
+                (0..fast.start).for_each(|i| cell(&mut rows, i));
+                let fine_rows = (&wx[..], &wy[..], &excess[..]);
+                FineConductances::new(&east, &north, nx, ncx).couplings(
+                    j,
+                    fast.clone(),
+                    fine_rows,
+                    (&mut rows, &mut scratch),
+                    |rows, i, gx, gy, e| spread(rows, i, Some(gx), Some(gy), e),
+                );
+                (fast.end..nx).for_each(|i| cell(&mut rows, i));
             }
         }
+        rows.resize(nc, zero);
         let galerkin = rule == CoarseOperator::LumpedGalerkin;
         if galerkin {
             rows = galerkin_lumped(fine, &ax, &ay, &wx, &wy, grid, &active);
