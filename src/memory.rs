@@ -43,6 +43,18 @@ pub(crate) fn refill<T: Clone>(
     Ok(())
 }
 
+/// `n` zeros, allocated zeroed (the pages are mapped as the entries are first written, so
+/// whoever writes them first touches them), or a typed error if they do not fit.
+pub(crate) fn zeroed<T: Clone + num_traits::Zero>(
+    what: &'static str,
+    n: usize,
+) -> Result<Vec<T>, Error> {
+    // The reservation is the fallible check; `vec!` then allocates zeroed memory for the
+    // float types.
+    drop(with_capacity::<T>(what, n)?);
+    Ok(vec![T::zero(); n])
+}
+
 fn too_large<T>(what: &'static str, n: usize) -> Error {
     let bytes = n as u128 * std::mem::size_of::<T>() as u128;
     Error::too_large(what, n, bytes)

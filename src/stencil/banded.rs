@@ -1,12 +1,15 @@
 //! `Banded5`: a 5-point operator stored as five owned coefficient arrays.
 
 use std::ops::Range;
+use std::sync::atomic::{AtomicBool, Ordering};
 
 use super::validate::Survey;
 use super::{cast_scalar, check_fixed, survey};
+use crate::blocks::Blocks;
 use crate::operator::{check_len, row_neighbourhood, row_product, row_sums_to_zero};
 use crate::operator::{Coeffs5, FixedCells, Stencil5};
 use crate::scalar::{is_positive, to_f64};
+use crate::space::Threaded;
 use crate::{memory, Error, Grid, Scalar};
 
 /// A 5-point operator stored as five coefficient arrays (center, west, east, south, north), one
@@ -189,16 +192,23 @@ impl<T: Scalar> Banded5<T> {
     /// # Ok::<(), quintet::Error>(())
     /// ```
     pub fn cast<U: Scalar>(&self) -> Result<Banded5<U>, Error> {
-        // Converted a block at a time, each block tested for finite values while it is in
-        // cache (a pass of its own over the copy would read it all again).
-        let mut finite = true;
+        // Converted a block at a time, on the threads of the pool (element by element, so the
+        // bits do not depend on them; the new pages are first touched in parallel too), each
+        // block tested for finite values while it is in cache (a pass of its own over the
+        // copy would read it all again).
+        let finite = AtomicBool::new(true);
+        let n = self.grid.cells();
+        let mut blocks = Blocks::<U>::new(n, Some(self.grid));
         let mut convert = |v: &[T]| -> Result<Vec<U>, Error> {
-            let mut out = memory::with_capacity("the converted bands", v.len())?;
-            for block in v.chunks(4096) {
-                let start = out.len();
-                out.extend(block.iter().map(|&e| cast_scalar::<T, U>(e)));
-                finite &= all_finite(&out[start..]);
-            }
+            let mut out = memory::zeroed("the converted bands", n)?;
+            blocks.for_each(&Threaded, &mut out, |cells, out| {
+                for (o, &e) in out.iter_mut().zip(&v[cells]) {
+                    *o = cast_scalar::<T, U>(e);
+                }
+                if !all_finite(out) {
+                    finite.store(false, Ordering::Relaxed);
+                }
+            });
             Ok(out)
         };
         // The source's lengths and fixed set were checked when it was built, so the copy is
@@ -215,6 +225,7 @@ impl<T: Scalar> Banded5<T> {
             first_nonpositive: None,
             rows_sum_to_zero: false,
         };
+        let finite = finite.into_inner();
         let found = match finite.then(|| op.survey_finite_bands()).flatten() {
             Some(found) => found,
             // As in `resurvey`: the survey cell by cell names the first cell at fault.
