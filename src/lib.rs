@@ -164,7 +164,8 @@
 //! them. For speed on large grids put the multigrid V-cycle in `f32` inside the `f64` PCG
 //! ([`SinglePrecision`]); for least memory use [`Symmetric5`] storage. The V-cycle smooths
 //! each level in two passes over its rows (all red-black sweeps of a phase travel down the
-//! grid together, fused with the grid transfers), on one thread, so its result too is the
+//! grid together, fused with the grid transfers), in bands of rows side by side, one per
+//! thread; every cell gets the same arithmetic whatever the bands, so its result too is the
 //! same for any thread count.
 //!
 //! ## Feature flags
