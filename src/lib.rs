@@ -258,6 +258,8 @@ mod scalar;
 pub mod space;
 mod stencil;
 pub mod stop;
+#[cfg(test)]
+mod testing;
 
 pub use balance::SystemBudget;
 pub use capacity::CapacityTerm;

@@ -2,19 +2,8 @@
 
 use super::split::{Split, Window, MARGIN};
 use crate::precond::multigrid::{Level, LevelOperator};
+use crate::testing::Numbers;
 use crate::{CoarseOperator, Coeffs5, FixedCells, Grid};
-
-/// A deterministic generator (xorshift64, common practice).
-struct Numbers(u64);
-
-impl Numbers {
-    fn next(&mut self) -> f64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        (self.0 >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
 
 /// A symmetric eliminated operator with conductances over four orders of magnitude, storage
 /// on some cells and inactive (fixed) cells scattered and in a block.

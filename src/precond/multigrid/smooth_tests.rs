@@ -5,19 +5,8 @@
 
 use super::{band_scratch_rows, Rows};
 use crate::precond::multigrid::{Multigrid, MultigridSettings};
+use crate::testing::Numbers;
 use crate::{Banded5, Coeffs5, FixedCells, Grid};
-
-/// A deterministic generator (xorshift64, common practice).
-struct Numbers(u64);
-
-impl Numbers {
-    fn next(&mut self) -> f64 {
-        self.0 ^= self.0 << 13;
-        self.0 ^= self.0 >> 7;
-        self.0 ^= self.0 << 17;
-        (self.0 >> 11) as f64 / (1u64 << 53) as f64
-    }
-}
 
 /// A symmetric diffusion operator with conductances over four orders of magnitude, a little
 /// storage, and scattered fixed cells.
