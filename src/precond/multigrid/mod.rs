@@ -56,6 +56,7 @@
 //! Results support, and do not replace, engineering judgement: check the report.
 
 mod aggregate;
+mod bands;
 mod direct;
 mod galerkin;
 mod level;
@@ -64,10 +65,11 @@ mod skew;
 mod smooth;
 mod transfer;
 
+use bands::scratch_rows;
 use direct::{CoarsestSolve, MAX_DIRECT_CELLS};
 pub(crate) use level::{active_cells, inverse_centers, Level, LevelOperator};
+use smooth::Rows;
 pub(crate) use smooth::{relax_from_zero, StoredRows};
-use smooth::{scratch_rows, Rows};
 
 use super::{check_built_for, Preconditioner};
 use crate::blocks::threads_for;

@@ -3,7 +3,8 @@
 //! ordering argument of the module notes), and each coarse cell adds its restriction terms in
 //! the same order.
 
-use super::{band_scratch_rows, Rows};
+use super::band_scratch_rows;
+use crate::precond::multigrid::smooth::Rows;
 use crate::precond::multigrid::{Multigrid, MultigridSettings};
 use crate::testing::Numbers;
 use crate::{Banded5, Coeffs5, FixedCells, Grid};
