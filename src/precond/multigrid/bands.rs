@@ -102,6 +102,41 @@ enum Coarse<'t, 'c, T> {
     },
 }
 
+impl<'t, T> Coarse<'t, '_, T> {
+    /// The transfer of the bands below and above a cut at fine row `m` (even): a restriction's
+    /// coarse rows split at coarse row `m / 2`, borrowed from this one.
+    fn split_at(&mut self, m: usize) -> (Coarse<'t, '_, T>, Coarse<'t, '_, T>) {
+        match self {
+            Coarse::Restrict {
+                transfer,
+                coarse_b,
+                first,
+            } => {
+                let ncx = transfer.coarse_width();
+                let (lower, upper) = coarse_b.split_at_mut((m / 2 - *first) * ncx);
+                let lower = Coarse::Restrict {
+                    transfer,
+                    coarse_b: lower,
+                    first: *first,
+                };
+                let upper = Coarse::Restrict {
+                    transfer,
+                    coarse_b: upper,
+                    first: m / 2,
+                };
+                (lower, upper)
+            }
+            Coarse::Prolong { transfer, coarse_x } => {
+                let (transfer, coarse_x) = (*transfer, &**coarse_x);
+                (
+                    Coarse::Prolong { transfer, coarse_x },
+                    Coarse::Prolong { transfer, coarse_x },
+                )
+            }
+        }
+    }
+}
+
 impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
     /// `ν` red-black sweeps from `x = 0` (red then black), then `coarse_b = Pᵀ·(b − A·x)` with
     /// the inactive cells left out, in one pass per band of rows. `scratch` holds seven rows
@@ -215,54 +250,13 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
             hi: node.hi,
             bands: node.bands - left,
         };
-        let coarse = match coarse {
-            Coarse::Restrict {
-                transfer,
-                coarse_b,
-                first,
-            } => {
-                let ncx = transfer.coarse_width();
-                let (c_lo, c_hi) = coarse_b.split_at_mut((m / 2 - first) * ncx);
-                join(
-                    parallel,
-                    || {
-                        let coarse = Coarse::Restrict {
-                            transfer,
-                            coarse_b: c_lo,
-                            first,
-                        };
-                        self.node(phase, lower, x_lo, s_lo, sweeps, parallel, coarse)
-                    },
-                    || {
-                        let coarse = Coarse::Restrict {
-                            transfer,
-                            coarse_b: c_hi,
-                            first: m / 2,
-                        };
-                        self.node(phase, upper, x_hi, s_hi, sweeps, parallel, coarse)
-                    },
-                );
-                Coarse::Restrict {
-                    transfer,
-                    coarse_b,
-                    first,
-                }
-            }
-            Coarse::Prolong { transfer, coarse_x } => {
-                join(
-                    parallel,
-                    || {
-                        let coarse = Coarse::Prolong { transfer, coarse_x };
-                        self.node(phase, lower, x_lo, s_lo, sweeps, parallel, coarse)
-                    },
-                    || {
-                        let coarse = Coarse::Prolong { transfer, coarse_x };
-                        self.node(phase, upper, x_hi, s_hi, sweeps, parallel, coarse)
-                    },
-                );
-                Coarse::Prolong { transfer, coarse_x }
-            }
-        };
+        let mut coarse = coarse;
+        let (c_lo, c_hi) = coarse.split_at(m);
+        join(
+            parallel,
+            || self.node(phase, lower, x_lo, s_lo, sweeps, parallel, c_lo),
+            || self.node(phase, upper, x_hi, s_hi, sweeps, parallel, c_hi),
+        );
         self.cut(phase, band, m, x, scratch, coarse);
     }
 
