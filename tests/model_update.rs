@@ -194,9 +194,21 @@ fn the_model_takes_the_multigrid_solver_the_natural_way() {
         Ok(Pcg::new(Multigrid::new(op, MultigridSettings::default())?))
     })
     .unwrap();
+    let mut residual = 0.0;
     for _ in 0..3 {
         let report = run.step().unwrap();
         assert!(report.iterations <= 10, "{report}");
+        residual = report.residual_norm;
     }
-    assert!(run.budget().unwrap().imbalance_percent().abs() < 1e-5);
+    // The budget's net is the sum of the last solve's residuals (the discrete balance of each
+    // cell; common practice), at most √n·‖r‖₂ by Cauchy–Schwarz: the imbalance is bounded by
+    // the stopping tolerance, not by how far below it the last iteration happened to land.
+    let budget = run.budget().unwrap();
+    let mean = 0.5 * (budget.total_in + budget.total_out);
+    let bound = 100.0 * (grid.cells() as f64).sqrt() * residual / mean;
+    assert!(
+        budget.imbalance_percent().abs() <= bound,
+        "{} % against {bound} %",
+        budget.imbalance_percent()
+    );
 }

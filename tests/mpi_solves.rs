@@ -234,7 +234,11 @@ fn bit_identical_solves(procs: &Processes) {
     for (nx, ny, storage, threads) in [(37, 29, 0.5, vec![1]), (400, 330, 0.05, vec![1, 2])] {
         let field = Field::new(nx, ny, storage);
         let reference = Partition::new(field.grid, single.clone()).unwrap();
-        let multigrid = [CoarseOperator::Upscaled, CoarseOperator::LumpedGalerkin];
+        let multigrid = [
+            CoarseOperator::Upscaled,
+            CoarseOperator::LumpedGalerkin,
+            CoarseOperator::LargerConductance,
+        ];
         let methods = [Method::Cg, Method::PcgJacobi]
             .into_iter()
             .chain(multigrid.map(Method::PcgMultigrid));
@@ -300,7 +304,8 @@ fn multigrid_counts(procs: &Processes) {
         *IterativeSolver::<f64>::options_mut(&mut serial) = options.clone();
         let serial = serial.solve(&banded, &rhs, &mut x).unwrap();
         let part = Partition::new(grid, procs.clone()).unwrap();
-        let method = Method::PcgMultigrid(CoarseOperator::Upscaled);
+        // The serial solver's default coarse operator.
+        let method = Method::PcgMultigrid(CoarseOperator::default());
         let (_, report) = solve(&field, &part, method, 1, options.clone());
         let report = report.unwrap();
         assert_eq!(report.iterations, serial.iterations, "{nx} x {ny}");
@@ -324,6 +329,7 @@ fn against_dense_lu(procs: &Processes) {
     let methods = [
         Method::PcgJacobi,
         Method::PcgMultigrid(CoarseOperator::Upscaled),
+        Method::PcgMultigrid(CoarseOperator::LargerConductance),
     ];
     for method in methods {
         let (x, report) = solve(

@@ -108,15 +108,52 @@ fn mg_pcg_on_poisson_is_grid_independent() {
     assert!(hi as f64 <= 1.3 * lo as f64, "{counts:?}");
 }
 
-/// MG-PCG on the layered-plus-blocks field (contrast 10⁴, harmonic-mean faces): at most 25
-/// iterations (the project target, checked here at 256² and 512²; 1024² and 2048² are measured by `examples/iterations.rs`).
+/// MG-PCG on the layered-plus-blocks field (contrast 10⁴, harmonic-mean faces) with the default
+/// settings: grid-independent like on Poisson (the defining property of multigrid;
+/// Trottenberg et al. 2001, from memory) — at most 12 iterations from 64² to 512², max/min at
+/// most 1.3 (the project target; the upscaled coarse operators alone needed 14–22 and grew
+/// with n). The f32 V-cycle inside f64 PCG, the configuration the docs recommend for large
+/// grids, is held to the same bound.
 #[test]
-fn mg_pcg_on_the_heterogeneous_field() {
-    for n in [256, 512] {
+fn mg_pcg_on_the_heterogeneous_field_is_grid_independent() {
+    let (mut counts, mut single) = (Vec::new(), Vec::new());
+    for n in [64, 128, 256, 512] {
         let (op, rhs, x0) = heterogeneous(n);
         let mg = Multigrid::new(&op, MultigridSettings::default()).unwrap();
-        let it = iterations(&mut Pcg::new(mg), &op, &rhs, &x0);
-        assert!(it <= 25, "n = {n}: {it} iterations");
+        counts.push(iterations(&mut Pcg::new(mg), &op, &rhs, &x0));
+        let op32 = op.cast::<f32>().unwrap();
+        let mg32 = Multigrid::new(&op32, MultigridSettings::default()).unwrap();
+        let mut pcg = Pcg::new(SinglePrecision::new(op32, mg32));
+        single.push(iterations(&mut pcg, &op, &rhs, &x0));
+    }
+    eprintln!("MG-PCG iterations, f64 V-cycle {counts:?}, f32 V-cycle {single:?}");
+    for c in [&counts, &single] {
+        let (lo, hi) = (*c.iter().min().unwrap(), *c.iter().max().unwrap());
+        assert!(hi <= 12, "{c:?}");
+        assert!(hi as f64 <= 1.3 * lo as f64, "{c:?}");
+    }
+}
+
+/// With the default coarse operators (upscaled, stiffened to the lumped Galerkin conductance
+/// where that is larger) the *plain* standalone V-cycle (`α = 1`) converges on the
+/// high-contrast field: it needs every eigenvalue of `B·A` below 2, i.e. coarse operators that
+/// do not under-estimate the energy of the interpolated corrections (Trottenberg et al. 2001,
+/// from memory). The upscaled operators alone diverged here. Bound: 1e-8 within 30 cycles
+/// (measured 10–13 from 64² to 512²).
+#[test]
+fn plain_v_cycle_converges_on_the_heterogeneous_field() {
+    for n in [64, 256] {
+        let (op, rhs, x0) = heterogeneous(n);
+        let plain = MultigridSettings {
+            energy_step: false,
+            ..Default::default()
+        };
+        let mut mg = Multigrid::new(&op, plain)
+            .unwrap()
+            .with_options(SolveOptions::default().tolerance(1e-8).max_iterations(30));
+        let mut x = x0.clone();
+        let report = mg.solve(&op, &rhs, &mut x).unwrap();
+        eprintln!("n = {n}: {report}");
     }
 }
 

@@ -52,11 +52,15 @@ fn bits_hash(x: &[f64]) -> u64 {
     h.finish()
 }
 
-/// Hashes of the `f32` copy and of hierarchies of `op` in `f64` and `f32`, both rules.
+/// Hashes of the `f32` copy and of hierarchies of `op` in `f64` and `f32`, every rule.
 fn fingerprints(name: &str, op: &Banded5<f64>) {
     let single = op.cast::<f32>().expect("finite coefficients");
     let mut line = format!("fingerprint {name}: f32 copy {:016x}", debug_hash(&single));
-    for rule in [CoarseOperator::Upscaled, CoarseOperator::LumpedGalerkin] {
+    for rule in [
+        CoarseOperator::Upscaled,
+        CoarseOperator::LumpedGalerkin,
+        CoarseOperator::LargerConductance,
+    ] {
         let settings = MultigridSettings {
             coarse_operator: rule,
             ..Default::default()

@@ -82,7 +82,11 @@ fn window_coarse_rows_and_weights_are_the_whole_grids() {
     for (nx, ny, seed) in [(37, 29, 1), (40, 33, 2), (53, 24, 3)] {
         let grid = Grid::new(nx, ny).unwrap();
         let whole = random_level(grid, seed);
-        for rule in [CoarseOperator::Upscaled, CoarseOperator::LumpedGalerkin] {
+        for rule in [
+            CoarseOperator::Upscaled,
+            CoarseOperator::LumpedGalerkin,
+            CoarseOperator::LargerConductance,
+        ] {
             let global = Level::below(&whole, rule).unwrap();
             let cnx = global.op.grid.nx();
             let xs = vec![0, MARGIN, 2 * MARGIN + 3, nx - MARGIN - 1, nx];

@@ -9,7 +9,8 @@ use crate::{Coeffs5, Grid, Scalar};
 use super::CoarseOperator;
 
 /// The Galerkin product `Pᵀ·A·P` (a 25-point stencil for this interpolation), lumped onto a
-/// 5-point stencil. A positive entry is dropped and added to both diagonals (which can only
+/// 5-point stencil, for the interpolation weights `weights(k) = (wx, wy)` of fine cell `k`
+/// (as the level stores them, see `aggregate::split`). A positive entry is dropped and added to both diagonals (which can only
 /// raise the energy). A negative entry `−g` between coarse cells `a` and `c` at offset
 /// `(dx, dy)` is spread over the L-shaped lattice paths from `a` to `c` (one for a straight
 /// offset, two otherwise), each edge of a path receiving `g·(dx² + dy²)/(|dx| + |dy|)` divided
@@ -21,8 +22,7 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
     fine: &R,
     ax: &Axis,
     ay: &Axis,
-    wx: &[T],
-    wy: &[T],
+    weights: impl Fn(usize) -> (T, T),
     grid: Grid,
     active: &[bool],
 ) -> Vec<Coeffs5<T>> {
@@ -33,7 +33,8 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
     let fine_active = |k: usize| !fixed.is_some_and(|f| f.contains(k));
     let p_row = |i: usize, j: usize, k: usize| -> [(usize, usize, T); 4] {
         let (pi, qi, pj, qj) = (ax.parent(i), ax.neighbour(i), ay.parent(j), ay.neighbour(j));
-        let ((u1, w1), (u2, w2)) = (split(wx[k]), split(wy[k]));
+        let (wx, wy) = weights(k);
+        let ((u1, w1), (u2, w2)) = (split(wx), split(wy));
         [
             (pi, pj, u1 * u2),
             (qi, pj, w1 * u2),
@@ -67,144 +68,182 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
                 nbrs[m] = (i, j + 1, k + nx, c.north);
                 m += 1;
             }
-            let pf = p_row(i, j, k);
+            // Row k of A·P, on the 3 × 3 coarse cells around k's own aggregate (every
+            // neighbour's aggregates lie there), then P's row k times it into the product.
+            let (pi, pj) = (ax.parent(i), ay.parent(j));
+            let mut ap = [[T::zero(); 3]; 3];
             for &(gi, gj, gk, a) in &nbrs[..m] {
                 if a == T::zero() || !fine_active(gk) {
                     continue;
                 }
-                let pg = p_row(gi, gj, gk);
-                for &(ci, cj, w1) in &pf {
-                    if w1 == T::zero() || !active[ci + ncx * cj] {
-                        continue;
-                    }
-                    for &(di, dj, w2) in &pg {
-                        if w2 == T::zero() || !active[di + ncx * dj] {
+                for (di, dj, w2) in p_row(gi, gj, gk) {
+                    let slot = &mut ap[dj + 1 - pj][di + 1 - pi];
+                    *slot = *slot + a * w2;
+                }
+            }
+            for (ci, cj, w1) in p_row(i, j, k) {
+                if w1 == T::zero() || !active[ci + ncx * cj] {
+                    continue;
+                }
+                let row = &mut gal[ci + ncx * cj];
+                for (dj, line) in ap.iter().enumerate() {
+                    for (di, &v) in line.iter().enumerate() {
+                        let (ti, tj) = (pi + di, pj + dj);
+                        // (ti − 1, tj − 1) is the coarse cell; its offset from (ci, cj) + 2.
+                        if v == T::zero() || !active[(ti - 1) + ncx * (tj - 1)] {
                             continue;
                         }
-                        let d = (di + 2 - ci) + 5 * (dj + 2 - cj);
-                        let slot = &mut gal[ci + ncx * cj][d];
-                        *slot = *slot + w1 * a * w2;
+                        let slot = &mut row[(ti + 1 - ci) + 5 * (tj + 1 - cj)];
+                        *slot = *slot + w1 * v;
                     }
                 }
             }
         }
     }
-    let zero = Coeffs5 {
-        center: T::zero(),
-        west: T::zero(),
-        east: T::zero(),
-        south: T::zero(),
-        north: T::zero(),
-    };
-    let mut rows = vec![zero; nc];
-    for (kc, row) in rows.iter_mut().enumerate() {
-        row.center = gal[kc][12];
-    }
+    // Per coarse cell: the conductance lumped onto its east and north edges, and what the
+    // dropped or blocked pairs add to its diagonal.
+    let mut east = vec![T::zero(); nc];
+    let mut north = vec![T::zero(); nc];
+    let mut diagonal = vec![T::zero(); nc];
     let half: T = lit(0.5);
     let two: T = lit(2.0);
-    // Add conductance h to the edge from coarse (ai, aj) one step towards (+1,0) or (0,+1).
-    let add_edge = |rows: &mut Vec<Coeffs5<T>>, ai: usize, aj: usize, east: bool, h: T| {
-        let a = ai + ncx * aj;
-        let b = if east { a + 1 } else { a + ncx };
-        rows[a].center = rows[a].center + h;
-        rows[b].center = rows[b].center + h;
-        if east {
-            rows[a].east = rows[a].east - h;
-            rows[b].west = rows[b].west - h;
-        } else {
-            rows[a].north = rows[a].north - h;
-            rows[b].south = rows[b].south - h;
-        }
-    };
+    let offsets = pair_offsets::<T>();
     for cj in 0..ncy {
         for ci in 0..ncx {
             let a = ci + ncx * cj;
             if !active[a] {
                 continue;
             }
-            for dy in -2i64..=2 {
-                for dx in -2i64..=2 {
-                    // Each unordered pair once: offsets in the upper half-plane.
-                    if dy < 0 || (dy == 0 && dx <= 0) {
-                        continue;
-                    }
-                    let (ti, tj) = (ci as i64 + dx, cj as i64 + dy);
-                    if ti < 0 || tj < 0 || ti >= ncx as i64 || tj >= ncy as i64 {
-                        continue;
-                    }
-                    let (ti, tj) = (ti as usize, tj as usize);
-                    let c = ti + ncx * tj;
-                    let d_ac = ((dx + 2) + 5 * (dy + 2)) as usize;
-                    let d_ca = ((2 - dx) + 5 * (2 - dy)) as usize;
-                    let v = half * (gal[a][d_ac] + gal[c][d_ca]);
-                    if v == T::zero() || !active[c] {
-                        continue;
-                    }
-                    // Remove the pair's term from the diagonals (it contributed −v to each).
-                    rows[a].center = rows[a].center + v;
-                    rows[c].center = rows[c].center + v;
-                    if v > T::zero() {
-                        continue;
-                    }
-                    let gcond = -v;
-                    let len = (dx.unsigned_abs() + dy.unsigned_abs()) as usize;
-                    // The two L-shaped paths: x first, then y; y first, then x.
-                    let path = |x_first: bool| -> Vec<(usize, usize, bool)> {
-                        let mut steps = Vec::with_capacity(len);
-                        let (mut i, mut j) = (ci as i64, cj as i64);
-                        let sx = dx.signum();
-                        let moves_x = (0..dx.unsigned_abs()).map(|_| true);
-                        let moves_y = (0..dy.unsigned_abs()).map(|_| false);
-                        let order: Vec<bool> = if x_first {
-                            moves_x.chain(moves_y).collect()
-                        } else {
-                            moves_y.chain(moves_x).collect()
-                        };
-                        for mx in order {
-                            if mx {
-                                let ni = i + sx;
-                                steps.push((i.min(ni) as usize, j as usize, true));
-                                i = ni;
-                            } else {
-                                steps.push((i as usize, j as usize, false));
-                                j += 1;
-                            }
-                        }
-                        steps
-                    };
-                    let open = |steps: &[(usize, usize, bool)]| {
-                        steps.iter().all(|&(i, j, east)| {
-                            let b = if east {
-                                (i + 1) + ncx * j
-                            } else {
-                                i + ncx * (j + 1)
-                            };
-                            active[i + ncx * j] && active[b]
-                        })
-                    };
-                    let paths: Vec<Vec<(usize, usize, bool)>> = if dx == 0 || dy == 0 {
-                        vec![path(true)]
-                    } else {
-                        vec![path(true), path(false)]
-                    };
-                    let usable: Vec<&Vec<(usize, usize, bool)>> =
-                        paths.iter().filter(|p| open(p)).collect();
-                    if usable.is_empty() {
-                        rows[a].center = rows[a].center + two * gcond;
-                        rows[c].center = rows[c].center + two * gcond;
-                        continue;
-                    }
-                    let weight = (dx * dx + dy * dy) as f64 / len as f64;
-                    let share =
-                        gcond * lit::<T>(weight) / T::from(usable.len()).unwrap_or_else(T::one);
-                    for p in usable {
-                        for &(i, j, east) in p {
-                            add_edge(&mut rows, i, j, east, share);
-                        }
+            for pair in &offsets {
+                let (ti, tj) = (ci as i64 + pair.dx, cj as i64 + pair.dy);
+                if ti < 0 || ti >= ncx as i64 || tj >= ncy as i64 {
+                    continue;
+                }
+                let c = ti as usize + ncx * tj as usize;
+                let v = half * (gal[a][pair.slot] + gal[c][24 - pair.slot]);
+                if v == T::zero() || !active[c] {
+                    continue;
+                }
+                // Remove the pair's term from the diagonals (it contributed −v to each).
+                diagonal[a] = diagonal[a] + v;
+                diagonal[c] = diagonal[c] + v;
+                if v > T::zero() {
+                    continue;
+                }
+                let gcond = -v;
+                let open = |p: &Path| {
+                    p.steps().iter().all(|&(di, dj, along_x)| {
+                        let from = (ci as i64 + di) as usize + ncx * (cj as i64 + dj) as usize;
+                        active[from] && active[if along_x { from + 1 } else { from + ncx }]
+                    })
+                };
+                let usable = [&pair.paths[0], &pair.paths[1]];
+                let usable = &usable[..pair.count];
+                let count = usable.iter().filter(|p| open(p)).count();
+                if count == 0 {
+                    diagonal[a] = diagonal[a] + two * gcond;
+                    diagonal[c] = diagonal[c] + two * gcond;
+                    continue;
+                }
+                let share = gcond * pair.weight / T::from(count).unwrap_or_else(T::one);
+                for p in usable.iter().filter(|p| open(p)) {
+                    for &(di, dj, along_x) in p.steps() {
+                        let from = (ci as i64 + di) as usize + ncx * (cj as i64 + dj) as usize;
+                        let edge = if along_x { &mut east } else { &mut north };
+                        edge[from] = edge[from] + share;
                     }
                 }
             }
         }
     }
-    rows
+    (0..nc)
+        .map(|a| {
+            let (west, south) = (
+                if a % ncx > 0 { east[a - 1] } else { T::zero() },
+                if a >= ncx { north[a - ncx] } else { T::zero() },
+            );
+            Coeffs5 {
+                center: gal[a][12] + diagonal[a] + east[a] + west + north[a] + south,
+                west: -west,
+                east: -east[a],
+                south: -south,
+                north: -north[a],
+            }
+        })
+        .collect()
+}
+
+/// One of the twelve offsets `(dx, dy)` of a coarse pair in the upper half-plane (each
+/// unordered pair once), with its slot in the 5 × 5 neighbourhood, the weight each path edge
+/// receives per unit of conductance, and its L-shaped lattice paths (one for a straight
+/// offset, two for a diagonal one).
+struct PairOffset<T> {
+    dx: i64,
+    dy: i64,
+    slot: usize,
+    weight: T,
+    paths: [Path; 2],
+    count: usize,
+}
+
+/// The twelve pair offsets, in the order the lumping visits them.
+fn pair_offsets<T: Scalar>() -> Vec<PairOffset<T>> {
+    let mut offsets = Vec::with_capacity(12);
+    for dy in 0i64..=2 {
+        for dx in -2i64..=2 {
+            if dy == 0 && dx <= 0 {
+                continue;
+            }
+            let weight = (dx * dx + dy * dy) as f64 / (dx.abs() + dy.abs()) as f64;
+            offsets.push(PairOffset {
+                dx,
+                dy,
+                slot: ((dx + 2) + 5 * (dy + 2)) as usize,
+                weight: lit(weight),
+                paths: [lattice_path(dx, dy, true), lattice_path(dx, dy, false)],
+                count: if dx == 0 || dy == 0 { 1 } else { 2 },
+            });
+        }
+    }
+    offsets
+}
+
+/// A lattice path of at most four unit steps between coarse cells: per step the cell it leaves,
+/// relative to the path's start (the lower of the two cells for a step towards −x), and
+/// whether it runs along x.
+struct Path {
+    steps: [(i64, i64, bool); 4],
+    len: usize,
+}
+
+impl Path {
+    fn steps(&self) -> &[(i64, i64, bool)] {
+        &self.steps[..self.len]
+    }
+}
+
+/// The L-shaped path by the offset `(dx, dy)` (`dy ≥ 0`, at most two cells each way) from the
+/// cell at `(0, 0)`: the x steps first when `x_first`, else the y steps first.
+fn lattice_path(dx: i64, dy: i64, x_first: bool) -> Path {
+    let mut path = Path {
+        steps: [(0, 0, false); 4],
+        len: 0,
+    };
+    let (mut i, mut j) = (0i64, 0i64);
+    for along_x in [x_first, !x_first] {
+        let moves = if along_x { dx.abs() } else { dy };
+        for _ in 0..moves {
+            path.steps[path.len] = if along_x {
+                let next = i + dx.signum();
+                let step = (i.min(next), j, true);
+                i = next;
+                step
+            } else {
+                j += 1;
+                (i, j - 1, false)
+            };
+            path.len += 1;
+        }
+    }
+    path
 }

@@ -34,6 +34,7 @@
 use super::aggregate::Axis;
 use super::galerkin::galerkin_lumped;
 use super::paths::{conductance, conductances_row, own_share, ratio, series, FineConductances};
+use super::stiffen::stiffen;
 use super::transfer::Transfer;
 use super::CoarseOperator;
 use std::ops::Range;
@@ -96,13 +97,13 @@ impl<T: Scalar> Stencil5<T> for LevelOperator<T> {
 #[derive(Clone, Debug)]
 pub(crate) struct Level<T> {
     pub(crate) op: LevelOperator<T>,
-    ax: Axis,
-    ay: Axis,
+    pub(super) ax: Axis,
+    pub(super) ay: Axis,
     /// Per fine cell: weight of the neighbouring aggregate in the east-west direction (kept
     /// in `f32`, which is ample for a weight in [0, 1] and halves the storage in `f64`).
-    wx: Vec<f32>,
+    pub(super) wx: Vec<f32>,
     /// Per fine cell: weight of the neighbouring aggregate in the south-north direction.
-    wy: Vec<f32>,
+    pub(super) wy: Vec<f32>,
     /// Correction being computed on this level.
     pub(crate) x: Vec<T>,
     /// Restricted residual (right-hand side of this level).
@@ -444,7 +445,7 @@ impl<T: Scalar> Level<T> {
         rows.resize(nc, zero);
         let galerkin = rule == CoarseOperator::LumpedGalerkin;
         if galerkin {
-            rows = galerkin_lumped(fine, &ax, &ay, &wx, &wy, grid, &active);
+            rows = galerkin_lumped(fine, &ax, &ay, |k| (wx[k], wy[k]), grid, &active);
         }
         for (kc, (row, on)) in rows.iter_mut().zip(active.iter_mut()).enumerate() {
             if !*on {
@@ -473,7 +474,7 @@ impl<T: Scalar> Level<T> {
         }
         let inverse_centers = inverse_centers(&rows, |k| active[k]);
         let inactive = FixedCells::new(grid, (0..nc).filter(|&k| !active[k]))?;
-        Ok(Some(Level {
+        let mut level = Level {
             op: LevelOperator {
                 grid,
                 rows,
@@ -486,7 +487,11 @@ impl<T: Scalar> Level<T> {
             wy: narrow(wy),
             x: vec![T::zero(); nc],
             b: vec![T::zero(); nc],
-        }))
+        };
+        if rule == CoarseOperator::LargerConductance {
+            stiffen(&mut level, fine, false);
+        }
+        Ok(Some(level))
     }
 
     /// The transfers between this level and the next finer one.

@@ -9,7 +9,10 @@
 //!   cells) and parallel (across a coarse face) combination, so it follows the user's jumping
 //!   coefficients instead of assuming a model problem. In a homogeneous medium it is the
 //!   rediscretised operator. [`CoarseOperator::LumpedGalerkin`] builds it instead from the
-//!   Galerkin product `Pᵀ·A·P`, lumped back onto 5 points.
+//!   Galerkin product `Pᵀ·A·P`, lumped back onto 5 points. The default,
+//!   [`CoarseOperator::LargerConductance`], takes per coarse face the larger of the two
+//!   conductances, so the coarse operator does not under-estimate the energy of corrections
+//!   across layer boundaries.
 //! * **Transfers**: operator-dependent interpolation between coarse cell centres (`P`): each
 //!   fine cell takes the value of a flux-continuous linear profile between its own and the
 //!   neighbouring aggregate's centre (bilinear interpolation in a homogeneous medium, none
@@ -43,9 +46,11 @@
 //! `tests/multigrid.rs`): on the
 //! Dirichlet Poisson problem one V(3,3) cycle reduces the residual by a factor of about 0.09,
 //! whatever the grid size, and MG-PCG needs 6 iterations to 10⁻⁸ at every size from 64² to
-//! 2048². On a layered field with blocks (conductivity contrast 10⁴) MG-PCG needs 13–20
-//! iterations over the same sizes with the default [`CoarseOperator::Upscaled`], and 9–10 with
-//! [`CoarseOperator::LumpedGalerkin`] (which needs 6–9 on Poisson). With the upscaled operators the *plain* standalone
+//! 2048². On a layered field with blocks (conductivity contrast 10⁴) MG-PCG needs 9 iterations
+//! at every size from 64² to 2048² with the default [`CoarseOperator::LargerConductance`], the
+//! plain standalone cycle 9–13; with [`CoarseOperator::Upscaled`] 13–20 (14–24 with the `f32`
+//! V-cycle), growing with n, and 9–11 with [`CoarseOperator::LumpedGalerkin`] (which needs 6–9
+//! on Poisson). With the upscaled operators the *plain* standalone
 //! cycle diverges on that field: the coarse operators of the lower levels under-estimate the
 //! energy of some interpolated corrections across layer boundaries, so the cycle over-corrects
 //! them (eigenvalues of `B·A` above 2). PCG only needs `B` SPD and is unaffected; the
@@ -63,6 +68,7 @@ mod level;
 mod paths;
 mod skew;
 mod smooth;
+mod stiffen;
 mod transfer;
 
 use bands::scratch_rows;
@@ -90,26 +96,39 @@ const SYMMETRY_TOLERANCE: f64 = 1e-10;
 /// stencil).
 ///
 /// ```
-/// assert_eq!(quintet::CoarseOperator::default(), quintet::CoarseOperator::Upscaled);
+/// use quintet::CoarseOperator;
+/// assert_eq!(CoarseOperator::default(), CoarseOperator::LargerConductance);
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
 #[non_exhaustive]
 pub enum CoarseOperator {
+    /// The [`Upscaled`](Self::Upscaled) operator with each coarse face raised to the
+    /// [`LumpedGalerkin`](Self::LumpedGalerkin) conductance where that one is larger; centers
+    /// from the upscaled row-sum excess. Where the coefficients are smooth it is the upscaled
+    /// operator (bit for bit on Poisson); at layer boundaries and block edges it adds the
+    /// energy the upscaling misses there. Measured from 64² to 2048²: 9 MG-PCG iterations on
+    /// the contrast-10⁴ test field (upscaled alone: 13–24, growing with n), 6 on Poisson, and
+    /// a convergent plain standalone cycle. The set-up computes the Galerkin product on every
+    /// level whose couplings are not all equal, which costs more than the upscaling alone
+    /// (measured in the README's performance table). A non-symmetric operator's coarse levels
+    /// use the upscaled rule for their symmetric part (on the advection test the stiffening
+    /// cost up to two BiCGSTAB iterations).
+    #[default]
+    LargerConductance,
     /// Conductances upscaled along lines of cells: series along the line (half-cell, face,
     /// half-cell), parallel across a coarse face, shared between the coarse lines like the
     /// interpolation. In a homogeneous medium it is the rediscretised coarse operator, which
     /// gives the best V-cycle on smooth coefficients (about 0.1 per V(3,3) cycle on Poisson,
     /// independent of the grid). On high-contrast fields it can under-estimate the energy of
     /// some corrections, so the plain standalone cycle may diverge there (PCG is fine).
-    #[default]
     Upscaled,
     /// The Galerkin product `Pᵀ·A·P` (25-point for this interpolation), lumped onto the
     /// 5-point stencil: the lumping reproduces the energy of linear functions, so the coarse
     /// operator follows the interpolation closely on any field. Measured from 64² to 2048²:
-    /// 9–10 MG-PCG iterations on the contrast-10⁴ test field (instead of 13–20) and a
+    /// 9–11 MG-PCG iterations on the contrast-10⁴ test field (upscaled: 13–24) and a
     /// convergent plain standalone cycle (about 0.2–0.3 per cycle); on Poisson 6–9 PCG
     /// iterations (instead of 6) and a slower cycle (0.13 → 0.25 per cycle from 128² to 512²).
-    /// Setup costs about twice as much.
+    /// Its set-up costs more than the upscaling.
     LumpedGalerkin,
 }
 
@@ -139,7 +158,7 @@ pub struct MultigridSettings {
     /// `true`. PCG ignores it, and so does the standalone solver on a non-symmetric operator
     /// (no energy norm: it runs the plain cycle).
     pub energy_step: bool,
-    /// How coarse operators are built. Default [`CoarseOperator::Upscaled`].
+    /// How coarse operators are built. Default [`CoarseOperator::LargerConductance`].
     pub coarse_operator: CoarseOperator,
 }
 
@@ -176,7 +195,7 @@ impl Default for MultigridSettings {
             coarsest_cells: 256,
             max_levels: 32,
             energy_step: true,
-            coarse_operator: CoarseOperator::Upscaled,
+            coarse_operator: CoarseOperator::LargerConductance,
         }
     }
 }

@@ -100,6 +100,11 @@ pub(crate) fn below_nonsymmetric<T: Scalar, R: Stencil5<T> + ?Sized>(
     fine: &R,
     rule: CoarseOperator,
 ) -> Result<Level<T>, Error> {
+    // The stiffening of the default rule is for symmetric operators (see `stiffen.rs`).
+    let rule = match rule {
+        CoarseOperator::LargerConductance => CoarseOperator::Upscaled,
+        other => other,
+    };
     let mut level = Level::below(&SymmetricPart::new(fine), rule)?;
     add_skew_part(&mut level, fine);
     Ok(level)
