@@ -108,7 +108,11 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
     let half: T = lit(0.5);
     let two: T = lit(2.0);
     let offsets = pair_offsets::<T>();
+    // Coarse rows whose cells are all active: a pair inside three such rows has every path
+    // open (a path stays in the box spanned by its two cells).
+    let full_row: Vec<bool> = active.chunks(ncx).map(|r| r.iter().all(|&on| on)).collect();
     for cj in 0..ncy {
+        let all_open = full_row[cj..(cj + 3).min(ncy)].iter().all(|&full| full);
         for ci in 0..ncx {
             let a = ci + ncx * cj;
             if !active[a] {
@@ -139,14 +143,18 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
                 };
                 let usable = [&pair.paths[0], &pair.paths[1]];
                 let usable = &usable[..pair.count];
-                let count = usable.iter().filter(|p| open(p)).count();
+                let count = if all_open {
+                    pair.count
+                } else {
+                    usable.iter().filter(|p| open(p)).count()
+                };
                 if count == 0 {
                     diagonal[a] = diagonal[a] + two * gcond;
                     diagonal[c] = diagonal[c] + two * gcond;
                     continue;
                 }
                 let share = gcond * pair.weight / T::from(count).unwrap_or_else(T::one);
-                for p in usable.iter().filter(|p| open(p)) {
+                for p in usable.iter().filter(|p| all_open || open(p)) {
                     for &(di, dj, along_x) in p.steps() {
                         let from = (ci as i64 + di) as usize + ncx * (cj as i64 + dj) as usize;
                         let edge = if along_x { &mut east } else { &mut north };
