@@ -42,7 +42,10 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
             (qi, qj, w1 * w2),
         ]
     };
-    let mut gal = vec![[T::zero(); 25]; nc];
+    // Per coarse cell a: the entries (a, c) of the product for c at the offsets of the upper
+    // half-plane (`upper_slot`), itself first; the product is symmetric, so each unordered
+    // pair is summed once.
+    let mut gal = vec![[T::zero(); 13]; nc];
     for j in 0..ny {
         for i in 0..nx {
             let k = i + nx * j;
@@ -88,13 +91,19 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
                 let row = &mut gal[ci + ncx * cj];
                 for (dj, line) in ap.iter().enumerate() {
                     for (di, &v) in line.iter().enumerate() {
-                        let (ti, tj) = (pi + di, pj + dj);
-                        // (ti − 1, tj − 1) is the coarse cell; its offset from (ci, cj) + 2.
-                        if v == T::zero() || !active[(ti - 1) + ncx * (tj - 1)] {
+                        // The coarse cell (pi + di − 1, pj + dj − 1), at this offset from
+                        // (ci, cj).
+                        let (ox, oy) = (
+                            (pi + di) as i64 - 1 - ci as i64,
+                            (pj + dj) as i64 - 1 - cj as i64,
+                        );
+                        let Some(slot) = upper_slot(ox, oy) else {
+                            continue;
+                        };
+                        if v == T::zero() || !active[(pi + di - 1) + ncx * (pj + dj - 1)] {
                             continue;
                         }
-                        let slot = &mut row[(ti + 1 - ci) + 5 * (tj + 1 - cj)];
-                        *slot = *slot + w1 * v;
+                        row[slot] = row[slot] + w1 * v;
                     }
                 }
             }
@@ -105,7 +114,6 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
     let mut east = vec![T::zero(); nc];
     let mut north = vec![T::zero(); nc];
     let mut diagonal = vec![T::zero(); nc];
-    let half: T = lit(0.5);
     let two: T = lit(2.0);
     let offsets = pair_offsets::<T>();
     // Coarse rows whose cells are all active: a pair inside three such rows has every path
@@ -124,7 +132,7 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
                     continue;
                 }
                 let c = ti as usize + ncx * tj as usize;
-                let v = half * (gal[a][pair.slot] + gal[c][24 - pair.slot]);
+                let v = gal[a][pair.slot];
                 if v == T::zero() || !active[c] {
                     continue;
                 }
@@ -171,7 +179,7 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
                 if a >= ncx { north[a - ncx] } else { T::zero() },
             );
             Coeffs5 {
-                center: gal[a][12] + diagonal[a] + east[a] + west + north[a] + south,
+                center: gal[a][0] + diagonal[a] + east[a] + west + north[a] + south,
                 west: -west,
                 east: -east[a],
                 south: -south,
@@ -181,8 +189,20 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
         .collect()
 }
 
+/// Index of the offset `(ox, oy)` (each in `−2..=2`) among the thirteen of the upper half-plane
+/// with the origin (`oy > 0`, or `oy = 0` and `ox ≥ 0`), the origin first; `None` for the
+/// others.
+#[inline]
+fn upper_slot(ox: i64, oy: i64) -> Option<usize> {
+    match oy {
+        0 if ox >= 0 => Some(ox as usize),
+        1 | 2 => Some((3 + 5 * (oy - 1) + ox + 2) as usize),
+        _ => None,
+    }
+}
+
 /// One of the twelve offsets `(dx, dy)` of a coarse pair in the upper half-plane (each
-/// unordered pair once), with its slot in the 5 × 5 neighbourhood, the weight each path edge
+/// unordered pair once), with its `upper_slot`, the weight each path edge
 /// receives per unit of conductance, and its L-shaped lattice paths (one for a straight
 /// offset, two for a diagonal one).
 struct PairOffset<T> {
@@ -206,7 +226,7 @@ fn pair_offsets<T: Scalar>() -> Vec<PairOffset<T>> {
             offsets.push(PairOffset {
                 dx,
                 dy,
-                slot: ((dx + 2) + 5 * (dy + 2)) as usize,
+                slot: upper_slot(dx, dy).unwrap_or(0),
                 weight: lit(weight),
                 paths: [lattice_path(dx, dy, true), lattice_path(dx, dy, false)],
                 count: if dx == 0 || dy == 0 { 1 } else { 2 },
