@@ -154,7 +154,8 @@ pub struct MultigridSettings {
     /// `α = (r·z)/(z·Az)` that minimises the energy norm of the error along it (one extra
     /// matrix–vector product per cycle). With it, every cycle reduces the error for any SPD
     /// operator; without it (`α = 1`, the plain cycle) the iteration diverges when the V-cycle
-    /// over-corrects, as it does on high-contrast fields (see the module notes). Default
+    /// over-corrects, as it does on high-contrast fields with [`CoarseOperator::Upscaled`] (see
+    /// the module notes; with the default operators it converged there too). Default
     /// `true`. PCG ignores it, and so does the standalone solver on a non-symmetric operator
     /// (no energy norm: it runs the plain cycle).
     pub energy_step: bool,
