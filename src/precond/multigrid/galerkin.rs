@@ -1,12 +1,21 @@
 //! The lumped Galerkin coarse operator ([`CoarseOperator::LumpedGalerkin`]).
 
+use std::ops::Range;
+
 use super::aggregate::{split, Axis};
+use super::MAX_BANDS;
+use crate::blocks::{join, threads_for};
 use crate::operator::Stencil5;
 use crate::scalar::lit;
+use crate::space::Threaded;
 use crate::{Coeffs5, Grid, Scalar};
 
 #[cfg(doc)]
 use super::CoarseOperator;
+
+/// Fewest coarse rows a band of the product's passes takes (a band re-reads two fine rows on
+/// each side and two coarse rows below).
+const MIN_BAND_ROWS: usize = 16;
 
 /// The Galerkin product `Pᵀ·A·P` (a 25-point stencil for this interpolation), lumped onto a
 /// 5-point stencil, for the interpolation weights `weights(k) = (wx, wy)` of fine cell `k`
@@ -22,156 +31,68 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
     fine: &R,
     ax: &Axis,
     ay: &Axis,
-    weights: impl Fn(usize) -> (T, T),
+    weights: impl Fn(usize) -> (T, T) + Sync,
     grid: Grid,
     active: &[bool],
 ) -> Vec<Coeffs5<T>> {
-    let g = fine.grid();
-    let (nx, ny) = (g.nx(), g.ny());
-    let (ncx, ncy, nc) = (grid.nx(), grid.ny(), grid.cells());
-    let fixed = fine.fixed();
-    let fine_active = |k: usize| !fixed.is_some_and(|f| f.contains(k));
-    let p_row = |i: usize, j: usize, k: usize| -> [(usize, usize, T); 4] {
-        let (pi, qi, pj, qj) = (ax.parent(i), ax.neighbour(i), ay.parent(j), ay.neighbour(j));
-        let (wx, wy) = weights(k);
-        let ((u1, w1), (u2, w2)) = (split(wx), split(wy));
-        [
-            (pi, pj, u1 * u2),
-            (qi, pj, w1 * u2),
-            (pi, qj, u1 * w2),
-            (qi, qj, w1 * w2),
-        ]
+    let bands = threads_for(&Threaded, fine.grid().cells()).min(MAX_BANDS);
+    galerkin_in_bands(fine, (ax, ay, &weights), grid, active, bands)
+}
+
+/// [`galerkin_lumped`] with each pass cut into `bands` bands of coarse rows, side by side.
+/// A band writes only its own coarse rows and visits the fine (or coarse) rows that reach them
+/// in the order of one serial pass, so every sum is added in the same order for any `bands`.
+fn galerkin_in_bands<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync>(
+    fine: &R,
+    (ax, ay, weights): (&Axis, &Axis, &W),
+    grid: Grid,
+    active: &[bool],
+    bands: usize,
+) -> Vec<Coeffs5<T>> {
+    let (ncx, nc) = (grid.nx(), grid.cells());
+    let product = Product {
+        fine,
+        ax,
+        ay,
+        weights,
+        ncx,
+        ncy: grid.ny(),
+        active,
+        offsets: pair_offsets(),
+        // Coarse rows whose cells are all active: a pair inside three such rows has every
+        // path open (a path stays in the box spanned by its two cells).
+        full_row: active.chunks(ncx).map(|r| r.iter().all(|&on| on)).collect(),
     };
     // Per coarse cell a: the entries (a, c) of the product for c at the offsets of the upper
     // half-plane (`upper_slot`), itself first; the product is symmetric, so each unordered
     // pair is summed once.
     let mut gal = vec![[T::zero(); 13]; nc];
-    for j in 0..ny {
-        for i in 0..nx {
-            let k = i + nx * j;
-            if !fine_active(k) {
-                continue;
-            }
-            let c = fine.eliminated_coeffs(i, j);
-            let mut nbrs = [(i, j, k, c.center); 5];
-            let mut m = 1;
-            if i > 0 {
-                nbrs[m] = (i - 1, j, k - 1, c.west);
-                m += 1;
-            }
-            if i + 1 < nx {
-                nbrs[m] = (i + 1, j, k + 1, c.east);
-                m += 1;
-            }
-            if j > 0 {
-                nbrs[m] = (i, j - 1, k - nx, c.south);
-                m += 1;
-            }
-            if j + 1 < ny {
-                nbrs[m] = (i, j + 1, k + nx, c.north);
-                m += 1;
-            }
-            // Row k of A·P, on the 3 × 3 coarse cells around k's own aggregate (every
-            // neighbour's aggregates lie there), then P's row k times it into the product.
-            let (pi, pj) = (ax.parent(i), ay.parent(j));
-            let mut ap = [[T::zero(); 3]; 3];
-            for &(gi, gj, gk, a) in &nbrs[..m] {
-                if a == T::zero() || !fine_active(gk) {
-                    continue;
-                }
-                for (di, dj, w2) in p_row(gi, gj, gk) {
-                    let slot = &mut ap[dj + 1 - pj][di + 1 - pi];
-                    *slot = *slot + a * w2;
-                }
-            }
-            for (ci, cj, w1) in p_row(i, j, k) {
-                if w1 == T::zero() || !active[ci + ncx * cj] {
-                    continue;
-                }
-                let row = &mut gal[ci + ncx * cj];
-                for (dj, line) in ap.iter().enumerate() {
-                    for (di, &v) in line.iter().enumerate() {
-                        // The coarse cell (pi + di − 1, pj + dj − 1), at this offset from
-                        // (ci, cj).
-                        let (ox, oy) = (
-                            (pi + di) as i64 - 1 - ci as i64,
-                            (pj + dj) as i64 - 1 - cj as i64,
-                        );
-                        let Some(slot) = upper_slot(ox, oy) else {
-                            continue;
-                        };
-                        if v == T::zero() || !active[(pi + di - 1) + ncx * (pj + dj - 1)] {
-                            continue;
-                        }
-                        row[slot] = row[slot] + w1 * v;
-                    }
-                }
-            }
-        }
-    }
+    in_bands(
+        0..grid.ny(),
+        bands,
+        &mut [&mut gal[..]],
+        ncx,
+        &|rows, out| {
+            product.product_rows(rows, out[0]);
+        },
+    );
     // Per coarse cell: the conductance lumped onto its east and north edges, and what the
     // dropped or blocked pairs add to its diagonal.
     let mut east = vec![T::zero(); nc];
     let mut north = vec![T::zero(); nc];
     let mut diagonal = vec![T::zero(); nc];
-    let two: T = lit(2.0);
-    let offsets = pair_offsets::<T>();
-    // Coarse rows whose cells are all active: a pair inside three such rows has every path
-    // open (a path stays in the box spanned by its two cells).
-    let full_row: Vec<bool> = active.chunks(ncx).map(|r| r.iter().all(|&on| on)).collect();
-    for cj in 0..ncy {
-        let all_open = full_row[cj..(cj + 3).min(ncy)].iter().all(|&full| full);
-        for ci in 0..ncx {
-            let a = ci + ncx * cj;
-            if !active[a] {
-                continue;
-            }
-            for pair in &offsets {
-                let (ti, tj) = (ci as i64 + pair.dx, cj as i64 + pair.dy);
-                if ti < 0 || ti >= ncx as i64 || tj >= ncy as i64 {
-                    continue;
-                }
-                let c = ti as usize + ncx * tj as usize;
-                let v = gal[a][pair.slot];
-                if v == T::zero() || !active[c] {
-                    continue;
-                }
-                // Remove the pair's term from the diagonals (it contributed −v to each).
-                diagonal[a] = diagonal[a] + v;
-                diagonal[c] = diagonal[c] + v;
-                if v > T::zero() {
-                    continue;
-                }
-                let gcond = -v;
-                let open = |p: &Path| {
-                    p.steps().iter().all(|&(di, dj, along_x)| {
-                        let from = (ci as i64 + di) as usize + ncx * (cj as i64 + dj) as usize;
-                        active[from] && active[if along_x { from + 1 } else { from + ncx }]
-                    })
-                };
-                let usable = [&pair.paths[0], &pair.paths[1]];
-                let usable = &usable[..pair.count];
-                let count = if all_open {
-                    pair.count
-                } else {
-                    usable.iter().filter(|p| open(p)).count()
-                };
-                if count == 0 {
-                    diagonal[a] = diagonal[a] + two * gcond;
-                    diagonal[c] = diagonal[c] + two * gcond;
-                    continue;
-                }
-                let share = gcond * pair.weight / T::from(count).unwrap_or_else(T::one);
-                for p in usable.iter().filter(|p| all_open || open(p)) {
-                    for &(di, dj, along_x) in p.steps() {
-                        let from = (ci as i64 + di) as usize + ncx * (cj as i64 + dj) as usize;
-                        let edge = if along_x { &mut east } else { &mut north };
-                        edge[from] = edge[from] + share;
-                    }
-                }
-            }
-        }
-    }
+    in_bands(
+        0..grid.ny(),
+        bands,
+        &mut [&mut east[..], &mut north[..], &mut diagonal[..]],
+        ncx,
+        &|rows, out| {
+            let [east, north, diagonal] = out else {
+                unreachable!("three outputs")
+            };
+            product.lump_rows(&gal, rows, [east, north, diagonal]);
+        },
+    );
     (0..nc)
         .map(|a| {
             let (west, south) = (
@@ -187,6 +108,208 @@ pub(crate) fn galerkin_lumped<T: Scalar, R: Stencil5<T> + ?Sized>(
             }
         })
         .collect()
+}
+
+/// Run `pass(rows, outputs)` on `bands` bands of the coarse rows `rows`, each output cut at
+/// the same rows (`ncx` entries per row): halves side by side on the pool, recursively.
+fn in_bands<E: Send>(
+    rows: Range<usize>,
+    bands: usize,
+    outputs: &mut [&mut [E]],
+    ncx: usize,
+    pass: &(dyn Fn(Range<usize>, &mut [&mut [E]]) + Sync),
+) {
+    if bands <= 1 || rows.len() < 2 * MIN_BAND_ROWS {
+        pass(rows, outputs);
+        return;
+    }
+    let mid = rows.start + rows.len() * (bands / 2) / bands;
+    let mut low: Vec<&mut [E]> = Vec::with_capacity(outputs.len());
+    let mut high: Vec<&mut [E]> = Vec::with_capacity(outputs.len());
+    for out in outputs.iter_mut() {
+        let (l, h) = std::mem::take(out).split_at_mut((mid - rows.start) * ncx);
+        low.push(l);
+        high.push(h);
+    }
+    join(
+        true,
+        || in_bands(rows.start..mid, bands / 2, &mut low, ncx, pass),
+        || in_bands(mid..rows.end, bands - bands / 2, &mut high, ncx, pass),
+    );
+}
+
+/// What both passes of the product read.
+struct Product<'a, T, R: ?Sized, W> {
+    fine: &'a R,
+    ax: &'a Axis,
+    ay: &'a Axis,
+    weights: &'a W,
+    ncx: usize,
+    ncy: usize,
+    active: &'a [bool],
+    offsets: Vec<PairOffset<T>>,
+    full_row: Vec<bool>,
+}
+
+impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<'_, T, R, W> {
+    /// Row `k` (fine cell `(i, j)`) of `P`: coarse cell and weight of its four entries.
+    #[inline]
+    fn p_row(&self, i: usize, j: usize, k: usize) -> [(usize, usize, T); 4] {
+        let (ax, ay) = (self.ax, self.ay);
+        let (pi, qi, pj, qj) = (ax.parent(i), ax.neighbour(i), ay.parent(j), ay.neighbour(j));
+        let (wx, wy) = (self.weights)(k);
+        let ((u1, w1), (u2, w2)) = (split(wx), split(wy));
+        [
+            (pi, pj, u1 * u2),
+            (qi, pj, w1 * u2),
+            (pi, qj, u1 * w2),
+            (qi, qj, w1 * w2),
+        ]
+    }
+
+    /// The product's entries of the coarse rows `rows` into `gal` (those rows only): the fine
+    /// rows whose `P` rows reach them (`2·start − 1` to `2·end`; one more on each side is
+    /// visited), in grid order.
+    fn product_rows(&self, rows: Range<usize>, gal: &mut [[T; 13]]) {
+        let g = self.fine.grid();
+        let (nx, ny, ncx, active) = (g.nx(), g.ny(), self.ncx, self.active);
+        let base = rows.start * ncx;
+        let fixed = self.fine.fixed();
+        let fine_active = |k: usize| !fixed.is_some_and(|f| f.contains(k));
+        for j in (2 * rows.start).saturating_sub(2)..(2 * rows.end + 2).min(ny) {
+            for i in 0..nx {
+                let k = i + nx * j;
+                if !fine_active(k) {
+                    continue;
+                }
+                let c = self.fine.eliminated_coeffs(i, j);
+                let mut nbrs = [(i, j, k, c.center); 5];
+                let mut m = 1;
+                if i > 0 {
+                    nbrs[m] = (i - 1, j, k - 1, c.west);
+                    m += 1;
+                }
+                if i + 1 < nx {
+                    nbrs[m] = (i + 1, j, k + 1, c.east);
+                    m += 1;
+                }
+                if j > 0 {
+                    nbrs[m] = (i, j - 1, k - nx, c.south);
+                    m += 1;
+                }
+                if j + 1 < ny {
+                    nbrs[m] = (i, j + 1, k + nx, c.north);
+                    m += 1;
+                }
+                // Row k of A·P, on the 3 × 3 coarse cells around k's own aggregate (every
+                // neighbour's aggregates lie there), then P's row k times it into the product.
+                let (pi, pj) = (self.ax.parent(i), self.ay.parent(j));
+                let mut ap = [[T::zero(); 3]; 3];
+                for &(gi, gj, gk, a) in &nbrs[..m] {
+                    if a == T::zero() || !fine_active(gk) {
+                        continue;
+                    }
+                    for (di, dj, w2) in self.p_row(gi, gj, gk) {
+                        let slot = &mut ap[dj + 1 - pj][di + 1 - pi];
+                        *slot = *slot + a * w2;
+                    }
+                }
+                for (ci, cj, w1) in self.p_row(i, j, k) {
+                    if !rows.contains(&cj) || w1 == T::zero() || !active[ci + ncx * cj] {
+                        continue;
+                    }
+                    let row = &mut gal[ci + ncx * cj - base];
+                    for (dj, line) in ap.iter().enumerate() {
+                        for (di, &v) in line.iter().enumerate() {
+                            // The coarse cell (pi + di − 1, pj + dj − 1), at this offset from
+                            // (ci, cj).
+                            let (ox, oy) = (
+                                (pi + di) as i64 - 1 - ci as i64,
+                                (pj + dj) as i64 - 1 - cj as i64,
+                            );
+                            let Some(slot) = upper_slot(ox, oy) else {
+                                continue;
+                            };
+                            if v == T::zero() || !active[(pi + di - 1) + ncx * (pj + dj - 1)] {
+                                continue;
+                            }
+                            row[slot] = row[slot] + w1 * v;
+                        }
+                    }
+                }
+            }
+        }
+    }
+
+    /// The lumping of every pair into the edges and diagonals of the coarse rows `rows` (those
+    /// rows only: `east`, `north`, `diagonal` start at row `rows.start`): the pairs whose first
+    /// cell lies up to two rows below, in grid order.
+    fn lump_rows(&self, gal: &[[T; 13]], rows: Range<usize>, out: [&mut &mut [T]; 3]) {
+        let [east, north, diagonal] = out;
+        let (ncx, ncy, active) = (self.ncx, self.ncy, self.active);
+        let base = rows.start * ncx;
+        let two: T = lit(2.0);
+        let mine = |k: usize| rows.contains(&(k / ncx));
+        let add = |v: &mut [T], k: usize, h: T| {
+            if mine(k) {
+                v[k - base] = v[k - base] + h;
+            }
+        };
+        for cj in rows.start.saturating_sub(2)..rows.end {
+            let all_open = self.full_row[cj..(cj + 3).min(ncy)]
+                .iter()
+                .all(|&full| full);
+            for ci in 0..ncx {
+                let a = ci + ncx * cj;
+                if !active[a] {
+                    continue;
+                }
+                for pair in &self.offsets {
+                    let (ti, tj) = (ci as i64 + pair.dx, cj as i64 + pair.dy);
+                    if ti < 0 || ti >= ncx as i64 || tj >= ncy as i64 {
+                        continue;
+                    }
+                    let c = ti as usize + ncx * tj as usize;
+                    let v = gal[a][pair.slot];
+                    if v == T::zero() || !active[c] {
+                        continue;
+                    }
+                    // Remove the pair's term from the diagonals (it contributed −v to each).
+                    add(diagonal, a, v);
+                    add(diagonal, c, v);
+                    if v > T::zero() {
+                        continue;
+                    }
+                    let gcond = -v;
+                    let open = |p: &Path| {
+                        p.steps().iter().all(|&(di, dj, along_x)| {
+                            let from = (ci as i64 + di) as usize + ncx * (cj as i64 + dj) as usize;
+                            active[from] && active[if along_x { from + 1 } else { from + ncx }]
+                        })
+                    };
+                    let usable = [&pair.paths[0], &pair.paths[1]];
+                    let usable = &usable[..pair.count];
+                    let count = if all_open {
+                        pair.count
+                    } else {
+                        usable.iter().filter(|p| open(p)).count()
+                    };
+                    if count == 0 {
+                        add(diagonal, a, two * gcond);
+                        add(diagonal, c, two * gcond);
+                        continue;
+                    }
+                    let share = gcond * pair.weight / T::from(count).unwrap_or_else(T::one);
+                    for p in usable.iter().filter(|p| all_open || open(p)) {
+                        for &(di, dj, along_x) in p.steps() {
+                            let from = (ci as i64 + di) as usize + ncx * (cj as i64 + dj) as usize;
+                            add(if along_x { east } else { north }, from, share);
+                        }
+                    }
+                }
+            }
+        }
+    }
 }
 
 /// Index of the offset `(ox, oy)` (each in `−2..=2`) among the thirteen of the upper half-plane
@@ -274,4 +397,42 @@ fn lattice_path(dx: i64, dy: i64, x_first: bool) -> Path {
         }
     }
     path
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::level::Level;
+    use super::super::CoarseOperator;
+    use super::*;
+    use crate::testing::{diffusion, Numbers};
+
+    /// The passes in 2 to 6 bands of coarse rows, serial and on the pool, give the bits of one
+    /// band, on fields with conductances over four decades, fixed cells (some on band cuts),
+    /// storage, and odd and even sides.
+    #[test]
+    fn bands_give_the_bits_of_one_pass() {
+        let mut numbers = Numbers(5);
+        for (nx, ny) in [(40, 200), (33, 259), (17, 330)] {
+            let fixed = [0, nx + 3, 64 * nx + 5, 65 * nx, 130 * nx + 1, nx * ny - 1];
+            let storage: Vec<f64> = (0..nx * ny).map(|_| numbers.next()).collect();
+            let mut conductance = || 10f64.powf(4.0 * numbers.next() - 2.0);
+            let op = diffusion(nx, ny, &mut conductance, &|k| storage[k], &fixed);
+            let level: Level<f64> = Level::below(&op, CoarseOperator::Upscaled).unwrap();
+            let grid = level.op.grid;
+            let active: Vec<bool> = (0..grid.cells())
+                .map(|k| !level.op.inactive.contains(k))
+                .collect();
+            let weights = |k: usize| (f64::from(level.wx[k]), f64::from(level.wy[k]));
+            let build = |bands| {
+                galerkin_in_bands(&op, (&level.ax, &level.ay, &weights), grid, &active, bands)
+                    .iter()
+                    .map(|c| [c.center, c.west, c.east, c.south, c.north].map(f64::to_bits))
+                    .collect::<Vec<_>>()
+            };
+            let one = build(1);
+            for bands in 2..=6 {
+                assert_eq!(one, build(bands), "{nx} x {ny}, {bands} bands");
+            }
+        }
+    }
 }

@@ -122,49 +122,7 @@ fn uniform_couplings<T: Scalar, R: Stencil5<T> + ?Sized>(fine: &R) -> bool {
 mod tests {
     use super::super::CoarseOperator;
     use super::*;
-    use crate::testing::Numbers;
-    use crate::{Banded5, FixedCells, Grid};
-
-    /// A diffusion operator on `nx × ny` cells with face conductances from `conductance`,
-    /// a storage term `storage(k)` on the diagonal and the cells `fixed` fixed.
-    fn field(
-        nx: usize,
-        ny: usize,
-        conductance: &mut dyn FnMut() -> f64,
-        storage: &dyn Fn(usize) -> f64,
-        fixed: &[usize],
-    ) -> Banded5<f64> {
-        let grid = Grid::new(nx, ny).unwrap();
-        let east: Vec<f64> = (0..grid.cells()).map(|_| conductance()).collect();
-        let north: Vec<f64> = (0..grid.cells()).map(|_| conductance()).collect();
-        let op = Banded5::from_fn(grid, |i, j| {
-            let k = i + nx * j;
-            // Face conductances; a face on the wall joins the zero value outside (Dirichlet)
-            // through the cell's own east or north conductance.
-            let faces = [
-                (i > 0).then(|| east[k - 1]),
-                (i + 1 < nx).then_some(east[k]),
-                (j > 0).then(|| north[k - nx]),
-                (j + 1 < ny).then_some(north[k]),
-            ];
-            let coupling = |f: Option<f64>| f.map_or(0.0, |g| -g);
-            let wall = |f: Option<f64>, own: f64| f.unwrap_or(own);
-            Coeffs5 {
-                center: wall(faces[0], east[k])
-                    + wall(faces[1], east[k])
-                    + wall(faces[2], north[k])
-                    + wall(faces[3], north[k])
-                    + storage(k),
-                west: coupling(faces[0]),
-                east: coupling(faces[1]),
-                south: coupling(faces[2]),
-                north: coupling(faces[3]),
-            }
-        })
-        .unwrap();
-        op.with_fixed(FixedCells::new(grid, fixed.iter().copied()).unwrap())
-            .unwrap()
-    }
+    use crate::testing::{diffusion as field, Numbers};
 
     fn bits(level: &Level<f64>) -> Vec<[u64; 5]> {
         level
