@@ -110,6 +110,9 @@ fn galerkin_in_bands<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) 
         .collect()
 }
 
+/// A pass over a band of coarse rows, writing the band's part of each output.
+type BandPass<'a, E> = dyn Fn(Range<usize>, &mut [&mut [E]]) + Sync + 'a;
+
 /// Run `pass(rows, outputs)` on `bands` bands of the coarse rows `rows`, each output cut at
 /// the same rows (`ncx` entries per row): halves side by side on the pool, recursively.
 fn in_bands<E: Send>(
@@ -117,7 +120,7 @@ fn in_bands<E: Send>(
     bands: usize,
     outputs: &mut [&mut [E]],
     ncx: usize,
-    pass: &(dyn Fn(Range<usize>, &mut [&mut [E]]) + Sync),
+    pass: &BandPass<'_, E>,
 ) {
     if bands <= 1 || rows.len() < 2 * MIN_BAND_ROWS {
         pass(rows, outputs);
