@@ -61,8 +61,10 @@ mod direct;
 mod galerkin;
 mod level;
 mod paths;
+mod setup_bands;
 mod skew;
 mod smooth;
+mod sweep;
 mod transfer;
 
 use bands::scratch_rows;
