@@ -33,7 +33,7 @@
 
 use super::aggregate::Axis;
 use super::galerkin::galerkin_lumped;
-use super::setup_bands::{sweep_in_bands, Swept};
+use super::setup_bands::{in_pieces, sweep_in_bands, Swept};
 use super::sweep::Sweep;
 use super::transfer::Transfer;
 use super::CoarseOperator;
@@ -187,32 +187,43 @@ impl<T: Scalar> Level<T> {
         if galerkin {
             rows = galerkin_lumped(fine, &ax, &ay, &wx, &wy, grid, &active);
         }
-        for (kc, (row, on)) in rows.iter_mut().zip(active.iter_mut()).enumerate() {
-            if !*on {
-                *row = Coeffs5::identity();
-                continue;
+        // Per coarse cell: the center, the cells without an unknown, the inverse center; in
+        // pieces side by side like the sweep's bands, the first pivot at fault reported.
+        let finish = |first: usize, rows: &mut [Coeffs5<T>], on: &mut [bool], inv: &mut [f32]| {
+            let cells = rows.iter_mut().zip(on.iter_mut()).zip(inv.iter_mut());
+            for (m, ((row, on), inv)) in cells.enumerate() {
+                if !*on {
+                    *row = Coeffs5::identity();
+                    continue;
+                }
+                let couplings = row.west + row.east + row.south + row.north;
+                if !galerkin {
+                    row.center = row.center - couplings;
+                }
+                if row.center == T::zero() && couplings == T::zero() {
+                    // Every fine cell of the aggregate follows a neighbouring aggregate (their
+                    // internal couplings are zero) and nothing interpolates from this one: it
+                    // carries no unknown.
+                    *row = Coeffs5::identity();
+                    *on = false;
+                    continue;
+                }
+                if !(row.center.is_finite() && row.center > T::zero()) {
+                    return Some(first + m);
+                }
+                *inv = narrow_one(T::one() / row.center);
             }
-            let couplings = row.west + row.east + row.south + row.north;
-            if !galerkin {
-                row.center = row.center - couplings;
-            }
-            if row.center == T::zero() && couplings == T::zero() {
-                // Every fine cell of the aggregate follows a neighbouring aggregate (their
-                // internal couplings are zero) and nothing interpolates from this one: it
-                // carries no unknown.
-                *row = Coeffs5::identity();
-                *on = false;
-                continue;
-            }
-            if !(row.center.is_finite() && row.center > T::zero()) {
-                let (ci, cj) = grid.coords(kc);
-                return Err(Error::pivot(
-                    Location::on(g, g.index(2 * ci, 2 * cj)),
-                    to_f64(row.center),
-                ));
-            }
+            None
+        };
+        let mut inverse_centers = vec![0.0f32; nc];
+        let pieces = (&mut rows[..], &mut active[..], &mut inverse_centers[..]);
+        if let Some(kc) = in_pieces(pieces, bands, parallel, &finish) {
+            let (ci, cj) = grid.coords(kc);
+            return Err(Error::pivot(
+                Location::on(g, g.index(2 * ci, 2 * cj)),
+                to_f64(rows[kc].center),
+            ));
         }
-        let inverse_centers = inverse_centers(&rows, |k| active[k]);
         let inactive = FixedCells::new(grid, (0..nc).filter(|&k| !active[k]))?;
         Ok(Some(Level {
             op: LevelOperator {

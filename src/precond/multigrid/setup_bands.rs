@@ -165,6 +165,49 @@ fn split_off<'a, U>(v: &mut &'a mut [U], len: usize) -> &'a mut [U] {
     head
 }
 
+/// `finish(first, rows, flags, inverse)` on (at most) `pieces` consecutive pieces of the
+/// coarse cells (`first` the index of a piece's first cell), side by side when `parallel`;
+/// the first `Some` in the order of the pieces.
+#[allow(clippy::type_complexity)]
+pub(super) fn in_pieces<T: Scalar, F>(
+    (rows, active, inverse): (&mut [Coeffs5<T>], &mut [bool], &mut [f32]),
+    pieces: usize,
+    parallel: bool,
+    finish: &F,
+) -> Option<usize>
+where
+    F: Fn(usize, &mut [Coeffs5<T>], &mut [bool], &mut [f32]) -> Option<usize> + Sync,
+{
+    fn go<T: Scalar, F>(
+        first: usize,
+        (rows, active, inverse): (&mut [Coeffs5<T>], &mut [bool], &mut [f32]),
+        pieces: usize,
+        parallel: bool,
+        finish: &F,
+    ) -> Option<usize>
+    where
+        F: Fn(usize, &mut [Coeffs5<T>], &mut [bool], &mut [f32]) -> Option<usize> + Sync,
+    {
+        if pieces <= 1 {
+            return finish(first, rows, active, inverse);
+        }
+        let mid = rows.len() * (pieces / 2) / pieces;
+        let (rows, high_rows) = rows.split_at_mut(mid);
+        let (active, high_active) = active.split_at_mut(mid);
+        let (inverse, high_inverse) = inverse.split_at_mut(mid);
+        let (low, high) = join(
+            parallel,
+            || go(first, (rows, active, inverse), pieces / 2, parallel, finish),
+            || {
+                let high = (high_rows, high_active, high_inverse);
+                go(first + mid, high, pieces - pieces / 2, parallel, finish)
+            },
+        );
+        low.or(high)
+    }
+    go(0, (rows, active, inverse), pieces, parallel, finish)
+}
+
 /// A coarse row entry before any addition.
 fn zero<T: Scalar>() -> Coeffs5<T> {
     Coeffs5 {

@@ -162,3 +162,36 @@ fn any_band_finds_an_asymmetry() {
         }
     }
 }
+
+/// Two pairs of cells coupled so strongly that their paths' products overflow (the coarse
+/// centers come out NaN), one in the first and one in the last piece of the coarse cells:
+/// every number of bands reports the first, as one sweep does.
+#[test]
+fn the_first_pivot_at_fault_is_reported() {
+    let grid = Grid::new(30, 240).unwrap();
+    let strong = |i: usize, j: usize| (j == 20 || j == 200) && (i == 20 || i == 21);
+    let op = Banded5::from_fn(grid, |i, j| {
+        let mut c = Coeffs5::laplacian(grid, i, j);
+        if strong(i, j) {
+            c.center += 1.5e308;
+            if i == 20 {
+                c.east = -1.5e308;
+            } else {
+                c.west = -1.5e308;
+            }
+        }
+        c
+    })
+    .unwrap();
+    let one = Level::below_in_bands(&op, CoarseOperator::Upscaled, 1e-10, 1, false).unwrap_err();
+    assert_eq!(one.kind(), crate::ErrorKind::PivotBreakdown);
+    for bands in 1..=6 {
+        for parallel in [false, true] {
+            let err = Level::below_in_bands(&op, CoarseOperator::Upscaled, 1e-10, bands, parallel)
+                .unwrap_err();
+            assert_eq!(format!("{err:?}"), format!("{one:?}"), "{bands} bands");
+        }
+    }
+    // The first pair's neighbourhood is named (cell (18, 18)), not the second's.
+    assert!(format!("{one}").contains("j = 18)"), "{one}");
+}
