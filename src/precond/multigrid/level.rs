@@ -149,8 +149,9 @@ impl<T: Scalar> Level<T> {
         rel_tol: f64,
     ) -> Result<Option<Level<T>>, Error> {
         // Bands of rows side by side on the pool's threads for a large level (the same bits
-        // in any number of bands).
-        let bands = threads_for(&Threaded, fine.grid().cells());
+        // in any number of bands); at most as many as the smoother's, since every cut adds
+        // a serial step of 13 fine rows.
+        let bands = threads_for(&Threaded, fine.grid().cells()).min(super::MAX_BANDS);
         Self::below_in_bands(fine, rule, rel_tol, bands, bands > 1)
     }
 
