@@ -66,9 +66,11 @@ mod direct;
 mod galerkin;
 mod level;
 mod paths;
+mod setup_bands;
 mod skew;
 mod smooth;
 mod stiffen;
+mod sweep;
 mod transfer;
 
 use bands::scratch_rows;

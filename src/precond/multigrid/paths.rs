@@ -81,28 +81,30 @@ pub(super) fn ratio<T: Scalar>(num: T, den: T) -> T {
 }
 
 /// What the fast paths read of a fine level: its conductances towards east and north, per
-/// fine cell, and the sides of the fine and coarse grids.
+/// fine cell of the rows from `first` on, and the sides of the fine and coarse grids.
 pub(super) struct FineConductances<'a, T> {
     east: &'a [T],
     north: &'a [T],
     nx: usize,
     ncx: usize,
+    first: usize,
 }
 
 impl<'a, T: Scalar> FineConductances<'a, T> {
-    /// The conductances towards east and north of a fine grid `nx` cells wide over a coarse
-    /// grid `ncx` cells wide.
-    pub(super) fn new(east: &'a [T], north: &'a [T], nx: usize, ncx: usize) -> Self {
+    /// The conductances towards east and north of the rows from `first` on of a fine grid
+    /// `nx` cells wide over a coarse grid `ncx` cells wide.
+    pub(super) fn new(east: &'a [T], north: &'a [T], nx: usize, ncx: usize, first: usize) -> Self {
         FineConductances {
             east,
             north,
             nx,
             ncx,
+            first,
         }
     }
 
-    /// The half-cell conductance from cell `k` (column `i`, row `j`) to its aggregate's centre
-    /// along x and along y.
+    /// The half-cell conductance from cell `k` (column `i`, row `j`; `k` counted from the
+    /// window's first row) to its aggregate's centre along x and along y.
     #[inline]
     fn own_halves(&self, i: usize, j: usize, k: usize) -> (T, T) {
         let two = lit::<T>(2.0);
@@ -115,7 +117,7 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
     /// own half-cell, on the face and on the far half-cell (`series`' order; the half-cells
     /// are to be doubled).
     fn paths_y(&self, j: usize, cols: Range<usize>) -> [&[T]; 3] {
-        let at = |r: usize| &self.north[r * self.nx..][cols.clone()];
+        let at = |r: usize| &self.north[(r - self.first) * self.nx..][cols.clone()];
         if j % 2 == 1 {
             [at(j - 1), at(j), at(j + 1)]
         } else {
@@ -128,7 +130,7 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
     /// are entries `2m`, `2m + 1`, `2m + 2` (half-cell, face, half-cell) for pair `m`.
     fn paths_x(&self, j: usize, cols: Range<usize>) -> &[T] {
         debug_assert!(cols.start % 2 == 1 && cols.len() % 2 == 0);
-        &self.east[self.nx * j..][cols.start - 1..cols.end]
+        &self.east[self.nx * (j - self.first)..][cols.start - 1..cols.end]
     }
 
     /// Pass 1 of level.rs (interpolation weights) on cells `cols` of row `j` (see
@@ -140,7 +142,7 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
         }
         let two: T = lit(2.0);
         let weight = |a: T, gf: T, b: T| series(Some(a), gf, Some(b)).0;
-        let row = self.nx * j;
+        let row = self.nx * (j - self.first);
         let [own, face, far] = self.paths_y(j, cols.clone());
         let wy = &mut wy[row..][cols.clone()];
         for (w, ((&a, &gf), &b)) in wy.iter_mut().zip(own.iter().zip(face).zip(far)) {
@@ -160,15 +162,15 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
 
     /// Pass 2 of level.rs (coarse couplings, and the row-sum excess through `spread`, given
     /// the cell, its half-cell conductances along x and y and the excess) on cells `cols` of
-    /// row `j` (see [`paths_x`](Self::paths_x)), adding into the coarse `rows` in the same
-    /// order. The series conductances come first, into `scratch` (at least 7/2 × `cols`
-    /// long), in loops the compiler can vectorise.
+    /// row `j` (see [`paths_x`](Self::paths_x)), adding into the coarse `rows` (the coarse
+    /// rows from `rows_first` on) in the same order. The series conductances come first, into
+    /// `scratch` (at least 7/2 × `cols` long), in loops the compiler can vectorise.
     pub(super) fn couplings(
         &self,
         j: usize,
         cols: Range<usize>,
         (wx, wy, excess): (&[T], &[T], &[T]),
-        (rows, scratch): (&mut [Coeffs5<T>], &mut [T]),
+        (rows, rows_first, scratch): (&mut [Coeffs5<T>], usize, &mut [T]),
         mut spread: impl FnMut(&mut [Coeffs5<T>], usize, T, T, T),
     ) {
         if cols.is_empty() {
@@ -194,16 +196,17 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
         // The neighbouring coarse row of this fine row (it is inside the grid: the row is
         // two rows away from either end).
         let qj = if j % 2 == 1 { cj + 1 } else { cj - 1 };
-        let row = nx * j;
+        let row = nx * (j - self.first);
+        let base = ncx * rows_first;
         // Each coupling of a coarse cell gets the contributions of this row's cells in their
         // order, as in the generic code: the x paths add to the east and west couplings, the
         // y paths to the north and south ones, the excess to the centers.
         for (m, &t) in tx.iter().enumerate() {
             let i = cols.start + 2 * m;
             let (k, ci) = (row + i, i / 2);
-            let kc = ci + ncx * cj;
+            let kc = ci + ncx * cj - base;
             let own = half * (own_share(wy[k]) + own_share(wy[k + 1]));
-            let a = ci + ncx * qj;
+            let a = ci + ncx * qj - base;
             for (l, r, share) in [(kc, kc + 1, own), (a, a + 1, T::one() - own)] {
                 rows[l].east = rows[l].east - t * share;
                 rows[r].west = rows[r].west - t * share;
@@ -227,7 +230,7 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
                 (*o, *n) = (*t * own, *t * (T::one() - own));
             }
             let (own_part, nb_part) = (&*own_part, &*nb_part);
-            let (below, above) = rows[ncx * cj..].split_at_mut(ncx);
+            let (below, above) = rows[ncx * cj - base..].split_at_mut(ncx);
             for ci in (cols.start - 1) / 2..=(cols.end - 1) / 2 {
                 let (mut north, mut south) = (below[ci].north, above[ci].south);
                 let cells = [
@@ -261,7 +264,7 @@ impl<'a, T: Scalar> FineConductances<'a, T> {
 /// eliminated rows are gathered into `scratch` (five times `cols` long) first, the rest are
 /// loops without branches. `east_before` is the east coupling of the cell before `cols` and
 /// `north_below` the north couplings of the row below (both updated with this row's);
-/// `east`, `north` and `excess` are per fine cell. Returns false if a pair of couplings
+/// `east`, `north` and `excess` are the row's cells. Returns false if a pair of couplings
 /// `differ`s (and then writes nothing but the scratch).
 #[allow(clippy::type_complexity)]
 pub(super) fn conductances_row<T: Scalar, R: Stencil5<T> + ?Sized>(
@@ -299,14 +302,13 @@ pub(super) fn conductances_row<T: Scalar, R: Stencil5<T> + ?Sized>(
     }
     *east_before = ce[len - 1];
     north_below.copy_from_slice(cn);
-    let row = fine.grid().nx() * j;
-    for (g, &c) in east[row..][cols.clone()].iter_mut().zip(ce.iter()) {
+    for (g, &c) in east[cols.clone()].iter_mut().zip(ce.iter()) {
         *g = conductance(c);
     }
-    for (g, &c) in north[row..][cols.clone()].iter_mut().zip(cn.iter()) {
+    for (g, &c) in north[cols.clone()].iter_mut().zip(cn.iter()) {
         *g = conductance(c);
     }
-    let excess = &mut excess[row..][cols];
+    let excess = &mut excess[cols];
     for (m, e) in excess.iter_mut().enumerate() {
         let sum = cc[m] + cw[m] + ce[m] + cs[m] + cn[m];
         *e = if sum > T::zero() { sum } else { T::zero() };
