@@ -252,9 +252,9 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
         let (ncx, ncy, active) = (self.ncx, self.ncy, self.active);
         let base = rows.start * ncx;
         let two: T = lit(2.0);
-        let mine = |k: usize| rows.contains(&(k / ncx));
+        let mine = base..rows.end * ncx;
         let add = |v: &mut [T], k: usize, h: T| {
-            if mine(k) {
+            if mine.contains(&k) {
                 v[k - base] = v[k - base] + h;
             }
         };
