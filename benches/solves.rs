@@ -6,10 +6,17 @@
 //! CG and SOR take thousands of iterations at 2048² (minutes per sample), so they run at 256²
 //! and 1024² only; MIC(0), MG and the direct solver run at all three sizes.
 //!
+//! A second group, `multigrid_contrast`, times on the layered contrast-10⁴ field at 1024² the
+//! hierarchy's set-up (cast to `f32` included) and the whole MG-PCG solve with the f32 V-cycle,
+//! for each coarse-operator rule.
+//!
 //! `cargo bench -p quintet-bench --bench solves`
 
 #[path = "support/mod.rs"]
 mod support;
+
+#[path = "../tests/precond_problems/mod.rs"]
+mod precond_problems;
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
 use quintet::prelude::*;
@@ -98,5 +105,42 @@ fn bench_solves(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, bench_solves);
+fn bench_contrast(c: &mut Criterion) {
+    let mut group = c.benchmark_group("multigrid_contrast");
+    group.sample_size(10);
+    let n = 1024;
+    let (op, rhs, x0) = precond_problems::heterogeneous(n);
+    let mut ws = Workspace::for_grid(op.grid());
+    group.throughput(Throughput::Elements((n * n) as u64));
+    for rule in [
+        CoarseOperator::LargerConductance,
+        CoarseOperator::Upscaled,
+        CoarseOperator::LumpedGalerkin,
+    ] {
+        let settings = MultigridSettings {
+            coarse_operator: rule,
+            ..Default::default()
+        };
+        let name = format!("{rule:?}");
+        group.bench_function(BenchmarkId::new("f32_setup", &name), |b| {
+            b.iter(|| {
+                let single = op.cast::<f32>().expect("finite");
+                Multigrid::new(&single, settings).expect("setup")
+            })
+        });
+        group.bench_function(BenchmarkId::new("f32_pcg_setup_and_solve", &name), |b| {
+            b.iter(|| {
+                let single = op.cast::<f32>().expect("finite");
+                let mg = Multigrid::new(&single, settings).expect("setup");
+                let mut pcg = Pcg::new(SinglePrecision::new(single, mg)).with_options(options());
+                let mut x = x0.clone();
+                pcg.solve_with(&op, &rhs, &mut x, &mut ws)
+                    .expect("converges")
+            })
+        });
+    }
+    group.finish();
+}
+
+criterion_group!(benches, bench_solves, bench_contrast);
 criterion_main!(benches);
