@@ -34,7 +34,7 @@
 use super::aggregate::Axis;
 use super::galerkin::galerkin_lumped;
 use super::setup_bands::{in_pieces, sweep_in_bands, Swept};
-use super::stiffen::stiffen;
+use super::stiffen::{stiffen, CoarseLevel};
 use super::sweep::Sweep;
 use super::transfer::Transfer;
 use super::CoarseOperator;
@@ -242,9 +242,25 @@ impl<T: Scalar> Level<T> {
             b: vec![T::zero(); nc],
         };
         if rule == CoarseOperator::LargerConductance {
-            stiffen(&mut level, fine, false);
+            level.stiffen_from(fine, false);
         }
         Ok(Some(level))
+    }
+
+    /// Raise the couplings of this level, built by the upscaled rule from `fine`, to the lumped
+    /// Galerkin conductance where that is larger (`stiffen.rs`; `always`: also when the fine
+    /// couplings are all equal).
+    pub(super) fn stiffen_from<R: Stencil5<T> + ?Sized>(&mut self, fine: &R, always: bool) {
+        let coarse = CoarseLevel {
+            grid: self.op.grid,
+            inactive: &self.op.inactive,
+            axes: (&self.ax, &self.ay),
+            weights: (&self.wx, &self.wy),
+        };
+        if stiffen(fine, coarse, &mut self.op.rows, always) {
+            let inactive = &self.op.inactive;
+            self.inverse_centers = inverse_centers(&self.op.rows, |k| !inactive.contains(k));
+        }
     }
 
     /// The transfers between this level and the next finer one.

@@ -70,6 +70,8 @@ mod setup_bands;
 mod skew;
 mod smooth;
 mod stiffen;
+#[cfg(test)]
+mod stiffen_tests;
 mod sweep;
 mod transfer;
 

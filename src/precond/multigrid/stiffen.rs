@@ -21,50 +21,59 @@
 //!
 //! On a level with even sides whose couplings between unknowns are all equal the Galerkin
 //! product is not computed: there it never came out larger than the upscaled conductance (the
-//! unit test below builds both ways on such fields with storage and fixed cells and compares
-//! the bits), and skipping it keeps the set-up of a homogeneous problem near the upscaled cost.
+//! unit test in `stiffen_tests.rs` builds both ways on such fields with storage and fixed
+//! cells and compares the bits), and skipping it keeps the set-up of a homogeneous problem near
+//! the upscaled cost.
 //! (Beside the one-cell-wide aggregates of an odd side it is larger, so such levels are
 //! stiffened.)
 
+use super::aggregate::Axis;
 use super::galerkin::galerkin_lumped;
-use super::level::{inverse_centers, Level};
-use crate::operator::Stencil5;
-use crate::{Coeffs5, Scalar};
+use crate::operator::{FixedCells, Stencil5};
+use crate::{Coeffs5, Grid, Scalar};
 
 #[cfg(doc)]
 use super::CoarseOperator;
 
-/// Raise each coupling of `level` (built by the upscaled rule from `fine`) to the lumped
-/// Galerkin conductance where that is larger (see the module notes); nothing to do when the
-/// fine couplings between unknowns are all equal, unless `always`.
+/// A coarse level as the stiffening sees it: its grid, its cells without an unknown, and the
+/// interpolation from the finer level (axes and the stored `f32` weights).
+pub(super) struct CoarseLevel<'a> {
+    pub(super) grid: Grid,
+    pub(super) inactive: &'a FixedCells,
+    pub(super) axes: (&'a Axis, &'a Axis),
+    pub(super) weights: (&'a [f32], &'a [f32]),
+}
+
+/// Raise each coupling of the coarse `rows` (built by the upscaled rule from `fine`) to the
+/// lumped Galerkin conductance where that is larger (see the module notes); `false`, with
+/// nothing done, when the fine couplings between unknowns are all equal, unless `always`.
+/// The caller recomputes what depends on the centers.
 pub(super) fn stiffen<T: Scalar, R: Stencil5<T> + ?Sized>(
-    level: &mut Level<T>,
     fine: &R,
+    coarse: CoarseLevel<'_>,
+    rows: &mut [Coeffs5<T>],
     always: bool,
-) {
+) -> bool {
     if !always && uniform_couplings(fine) {
-        return;
+        return false;
     }
-    let grid = level.op.grid;
-    let active: Vec<bool> = (0..grid.cells())
-        .map(|k| !level.op.inactive.contains(k))
+    let active: Vec<bool> = (0..coarse.grid.cells())
+        .map(|k| !coarse.inactive.contains(k))
         .collect();
-    let (wx, wy) = (&level.wx, &level.wy);
+    let (wx, wy) = coarse.weights;
     let widen = |w: f32| T::from(w).unwrap_or_else(T::zero);
     let galerkin = galerkin_lumped(
         fine,
-        &level.ax,
-        &level.ay,
+        coarse.axes.0,
+        coarse.axes.1,
         |k| (widen(wx[k]), widen(wy[k])),
-        grid,
+        coarse.grid,
         &active,
     );
     let couplings = |r: &Coeffs5<T>| r.west + r.east + r.south + r.north;
     // The stronger coupling is the more negative one.
     let stronger = |u: T, g: T| if g < u { g } else { u };
-    for ((row, g), _) in level
-        .op
-        .rows
+    for ((row, g), _) in rows
         .iter_mut()
         .zip(&galerkin)
         .zip(&active)
@@ -83,13 +92,13 @@ pub(super) fn stiffen<T: Scalar, R: Stencil5<T> + ?Sized>(
             ..stiff
         };
     }
-    level.inverse_centers = inverse_centers(&level.op.rows, |k| active[k]);
+    true
 }
 
 /// Whether both sides of `fine` are even and every coupling between two unknowns has the same
 /// value (couplings to fixed cells and the centers may differ). (Next to the one-cell-wide
 /// aggregates of an odd side the Galerkin product is larger even in a uniform medium.)
-fn uniform_couplings<T: Scalar, R: Stencil5<T> + ?Sized>(fine: &R) -> bool {
+pub(super) fn uniform_couplings<T: Scalar, R: Stencil5<T> + ?Sized>(fine: &R) -> bool {
     let g = fine.grid();
     if g.nx() % 2 == 1 || g.ny() % 2 == 1 {
         return false;
@@ -116,89 +125,4 @@ fn uniform_couplings<T: Scalar, R: Stencil5<T> + ?Sized>(fine: &R) -> bool {
         }
     }
     true
-}
-
-#[cfg(test)]
-mod tests {
-    use super::super::CoarseOperator;
-    use super::*;
-    use crate::testing::{diffusion as field, Numbers};
-
-    fn bits(level: &Level<f64>) -> Vec<[u64; 5]> {
-        level
-            .op
-            .rows
-            .iter()
-            .map(|c| [c.center, c.west, c.east, c.south, c.north].map(f64::to_bits))
-            .collect()
-    }
-
-    /// The claim behind skipping uniform levels: where all couplings are equal, the stiffened
-    /// operator is the upscaled one, bit for bit, whatever the storage, fixed cells and sides.
-    #[test]
-    fn uniform_couplings_keep_the_upscaled_operator() {
-        let mut numbers = Numbers(7);
-        for (nx, ny) in [(16, 16), (18, 12), (34, 28), (10, 40)] {
-            let fixed = [0, nx + 3, nx * ny / 2 + 1, nx * ny - 1];
-            let storage: Vec<f64> = (0..nx * ny).map(|_| numbers.next()).collect();
-            for (store, cells) in [(false, &[][..]), (true, &fixed[..]), (false, &fixed[..])] {
-                let op = field(
-                    nx,
-                    ny,
-                    &mut || 1.5,
-                    &|k| if store { storage[k] } else { 0.0 },
-                    cells,
-                );
-                assert!(uniform_couplings(&op));
-                // An odd side is not skipped: its one-cell-wide aggregates are stiffened.
-                let odd = field(nx + 1, ny, &mut || 1.5, &|_| 0.0, &[]);
-                assert!(!uniform_couplings(&odd));
-                let plain = Level::below(&op, CoarseOperator::Upscaled).unwrap();
-                let mut forced = plain.clone();
-                stiffen(&mut forced, &op, true);
-                assert_eq!(
-                    bits(&plain),
-                    bits(&forced),
-                    "{nx} x {ny}, {store}, {cells:?}"
-                );
-            }
-        }
-    }
-
-    /// On random fields (conductances over four decades) the stiffened coarse operator is a
-    /// symmetric M-matrix with non-negative excess — weakly diagonally dominant, so positive
-    /// semi-definite by Gershgorin's circle theorem — whose every coupling is at least as strong
-    /// as the upscaled one, and stronger somewhere.
-    #[test]
-    fn stiffened_levels_are_symmetric_m_matrices() {
-        let mut numbers = Numbers(11);
-        for (nx, ny) in [(24, 24), (31, 18)] {
-            let fixed = [nx, 2 * nx + 5, nx * ny - 2];
-            let mut conductance = || 10f64.powf(4.0 * numbers.next() - 2.0);
-            let op = field(nx, ny, &mut conductance, &|_| 0.0, &fixed);
-            assert!(!uniform_couplings(&op));
-            let plain = Level::below(&op, CoarseOperator::Upscaled).unwrap();
-            let stiff = Level::below(&op, CoarseOperator::LargerConductance).unwrap();
-            let (cnx, rows) = (stiff.op.grid.nx(), &stiff.op.rows);
-            let mut raised = 0;
-            for (k, (s, p)) in rows.iter().zip(&plain.op.rows).enumerate() {
-                for (a, b) in [(s.west, p.west), (s.east, p.east)] {
-                    assert!(a <= b && a <= 0.0, "cell {k}");
-                    raised += usize::from(a < b);
-                }
-                for (a, b) in [(s.south, p.south), (s.north, p.north)] {
-                    assert!(a <= b && a <= 0.0, "cell {k}");
-                }
-                let excess = s.center + s.west + s.east + s.south + s.north;
-                assert!(excess >= -1e-12 * s.center, "cell {k}: excess {excess}");
-                if k % cnx + 1 < cnx {
-                    assert_eq!(s.east.to_bits(), rows[k + 1].west.to_bits());
-                }
-                if k + cnx < rows.len() {
-                    assert_eq!(s.north.to_bits(), rows[k + cnx].south.to_bits());
-                }
-            }
-            assert!(raised > 0);
-        }
-    }
 }
