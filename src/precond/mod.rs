@@ -33,8 +33,9 @@
 //! | 10 | 9 / 11–13 / 14–16 | 17 / 22 / 32 | 45 / 67 / 106 (along), 107 / 194 / 361 (against) |
 //! | 100 | 9 / 15 / 28 | 8 / 11 / 14 | 12 / 16 / 23 (along), 74 / 142 / 277 (against) |
 //!
-//! (Multigrid ranges: default upscaled / lumped Galerkin coarse operators.) Multigrid with the
-//! red-black Gauss–Seidel smoother keeps its grid-independent count up to cell Péclet 1; from
+//! (Multigrid ranges: upscaled / lumped Galerkin coarse operators; the default
+//! [`CoarseOperator::LargerConductance`] builds the upscaled ones for a non-symmetric
+//! operator.) Multigrid with the red-black Gauss–Seidel smoother keeps its grid-independent count up to cell Péclet 1; from
 //! Péclet 10 on its count grows with the grid (9 → 28 cycles from 64² to 256² at Péclet 100),
 //! and SIP, whose incomplete factors come closer to exact as advection dominates (in either
 //! direction), needs fewer iterations at a fraction of the work each. SOR
