@@ -586,11 +586,11 @@ impl SplitLevel {
         let (cols, rows) = self.win.own_local();
         let nx = self.win.i.len();
         {
-            let active = active_cells(&self.op);
+            let inactive = Some(&self.op.inactive);
             let transfer = self.below.transfer();
             for j in rows {
                 let x_row = &mut self.x[j * nx..][..nx];
-                transfer.prolong_row(j, cols.clone(), x_row, &active, &self.below.x);
+                transfer.prolong_row(j, cols.clone(), x_row, inactive, &self.below.x);
             }
         }
         for _ in 0..nu {

@@ -15,7 +15,6 @@
 //! coarse cell the same sum, whatever the bands — the bits do not depend on the thread count
 //! (unit test `bands_tests.rs`: 1 to 6 bands, serial and side by side, bit for bit).
 
-use super::level::active_cells;
 use super::smooth::{Phase, Rows};
 use super::transfer::Transfer;
 use crate::blocks::{join, threads_for};
@@ -277,7 +276,6 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
         let (terms, ring) = rest.split_at_mut(2 * nx);
         let ring = &mut ring[..4 * nx];
         let (lo, hi, sweeps) = (band.lo, band.hi, band.sweeps);
-        let active = active_cells(self.op);
         let inactive = self.op.fixed().filter(|f| !f.is_empty());
         let (mut restrict, prolong_from) = match coarse {
             Coarse::Restrict {
@@ -290,7 +288,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
         let prolong = |x: &mut [T], j: usize| {
             if let Some((transfer, coarse_x)) = prolong_from {
                 let row = &mut x[(j - lo) * nx..][..nx];
-                transfer.prolong_row(j, 0..nx, row, &active, coarse_x);
+                transfer.prolong_row(j, 0..nx, row, inactive, coarse_x);
             }
         };
         if lo < hi {

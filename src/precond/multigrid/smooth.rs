@@ -150,9 +150,30 @@ impl<T: Scalar> StoredRows<'_, T> {
             &self.inv[base..][..nx],
         );
         let first = cols.start + (cols.start + j + colour) % 2;
+        let relax = |row: &mut [T], i: usize, s: T| row[i] = row[i] + (b[i] - s) * widen(inv[i]);
+        // Interior cells of interior rows without the tests for missing neighbours: the
+        // product in `cell_product`'s order, so the same bits.
+        let (Some(xs), Some(xn)) = (south, north) else {
+            for i in (first..cols.end).step_by(2) {
+                let s = cell_product(&|i| coeffs[i], i, south, row, north);
+                relax(row, i, s);
+            }
+            return;
+        };
+        let (xs, xn) = (&xs[..nx], &xn[..nx]);
         for i in (first..cols.end).step_by(2) {
-            let s = cell_product(&|i| coeffs[i], i, south, row, north);
-            row[i] = row[i] + (b[i] - s) * widen(inv[i]);
+            if i == 0 || i + 1 == nx {
+                let s = cell_product(&|i| coeffs[i], i, south, row, north);
+                relax(row, i, s);
+                continue;
+            }
+            let c = coeffs[i];
+            let s = c.center * row[i]
+                + c.west * row[i - 1]
+                + c.east * row[i + 1]
+                + c.south * xs[i]
+                + c.north * xn[i];
+            relax(row, i, s);
         }
     }
 }

@@ -139,29 +139,38 @@ impl<'a> Transfer<'a> {
                 // zero at an inactive cell (adding zero to a sum that started at +0 leaves it
                 // as skipping the cell does: the sum is never −0).
                 let (own, nb) = terms.split_at_mut(nx);
-                let nb = &mut nb[..nx];
-                let cells = own
-                    .iter_mut()
-                    .zip(nb.iter_mut())
-                    .zip(wx.iter().zip(wy))
-                    .zip(r);
-                for (k, (((own, nb), (&wx, &wy)), &ri)) in (base..).zip(cells) {
-                    let ((ux, wxs), (uy, wys)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
-                    let share_y = if yp { uy } else { wys };
-                    (*own, *nb) = if active(k) {
-                        (ux * share_y * ri, wxs * share_y * ri)
-                    } else {
-                        (T::zero(), T::zero())
-                    };
+                let (own, nb) = (&mut own[..nx], &mut nb[..nx]);
+                if inactive.is_some() {
+                    own.fill(T::zero());
+                    nb.fill(T::zero());
                 }
+                for_active_runs(inactive, base, 0..nx, |run| {
+                    let cells = own[run.clone()]
+                        .iter_mut()
+                        .zip(nb[run.clone()].iter_mut())
+                        .zip(wx[run.clone()].iter().zip(&wy[run.clone()]))
+                        .zip(&r[run]);
+                    for (((own, nb), (&wx, &wy)), &ri) in cells {
+                        let ((ux, wxs), (uy, wys)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
+                        let share_y = if yp { uy } else { wys };
+                        (*own, *nb) = (ux * share_y * ri, wxs * share_y * ri);
+                    }
+                });
                 // A regular coarse cell `ci` (1 ≤ ci, 2·ci + 3 < nx) takes, in cell order, the
                 // neighbour term of cell 2ci − 1, the own terms of 2ci and 2ci + 1 and the
                 // neighbour term of 2ci + 2.
                 let regular = (nx.saturating_sub(2) / 2).max(1).min(out.len());
-                let (own, nb) = (&own[..nx], &nb[..nx]);
-                for (ci, acc) in out[..regular].iter_mut().enumerate().skip(1) {
-                    let i = 2 * ci;
-                    *acc = *acc + nb[i - 1] + own[i] + own[i + 1] + nb[i + 2];
+                // Pairs of cells, so the loop needs no bounds checks: coarse cell ci takes
+                // nb[2ci − 1] (first of pair ci − 1 of nb[1..]), own[2ci], own[2ci + 1] (pair
+                // ci − 1 of own[2..]) and nb[2ci + 2] (first of pair ci − 1 of nb[4..]).
+                let (own, nb) = (&*own, &*nb);
+                let terms = nb[1.min(nx)..]
+                    .chunks_exact(2)
+                    .zip(own[2.min(nx)..].chunks_exact(2))
+                    .zip(nb[4.min(nx)..].chunks_exact(2));
+                let regular_cells = out.iter_mut().take(regular).skip(1);
+                for (acc, ((before, pair), after)) in regular_cells.zip(terms) {
+                    *acc = *acc + before[0] + pair[0] + pair[1] + after[0];
                 }
                 self.gather_ends(yp, yq, base, r, wx, wy, active, regular, out);
             } else {
@@ -213,15 +222,15 @@ impl<'a> Transfer<'a> {
         }
     }
 
-    /// `x += P·coarse_x` on the cells `cols` of the fine row `j` (`x` that whole row), cells
-    /// where `!active(k)` left out.
+    /// `x += P·coarse_x` on the cells `cols` of the fine row `j` (`x` that whole row), the
+    /// cells of `inactive` (the fine level's inactive cells, if it has any) left out.
     #[inline]
     pub(crate) fn prolong_row<T: Scalar>(
         &self,
         j: usize,
         cols: Range<usize>,
         x: &mut [T],
-        active: impl Fn(usize) -> bool,
+        inactive: Option<&FixedCells>,
         coarse_x: &[T],
     ) {
         let nx = x.len();
@@ -237,31 +246,49 @@ impl<'a> Transfer<'a> {
         let start = cols.start.max(2).min(cols.end);
         let regular = start..cols.end.min(nx.saturating_sub(1)).max(start);
         let (own, nb) = (&coarse_x[p..], &coarse_x[q..]);
-        let cells = x[regular.clone()]
-            .iter_mut()
-            .zip(&wx[regular.clone()])
-            .zip(&wy[regular.clone()]);
-        for (i, ((v, &wx), &wy)) in regular.clone().zip(cells) {
-            if !active(base + i) {
-                continue;
-            }
+        // Cell i: own[pi]·ux·uy + own[qi]·wx·uy + nb[pi]·ux·wy + nb[qi]·wx·wy, with
+        // pi = i/2 and qi = pi ∓ 1 for even and odd i, in that order after a zero.
+        let interpolate = |wx: f32, wy: f32, own_p: T, own_q: T, nb_p: T, nb_q: T| {
+            let ((ux, wx), (uy, wy)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
+            T::zero() + ux * uy * own_p + wx * uy * own_q + ux * wy * nb_p + wx * wy * nb_q
+        };
+        let single = |x: &mut [T], i: usize| {
             let pi = i / 2;
             let qi = if i % 2 == 1 { pi + 1 } else { pi - 1 };
-            let ((ux, wx), (uy, wy)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
-            let e = T::zero()
-                + ux * uy * own[pi]
-                + wx * uy * own[qi]
-                + ux * wy * nb[pi]
-                + wx * wy * nb[qi];
-            *v = *v + e;
-        }
+            x[i] = x[i] + interpolate(wx[i], wy[i], own[pi], own[qi], nb[pi], nb[qi]);
+        };
+        for_active_runs(inactive, base, regular.clone(), |run| {
+            // An odd first cell alone, then pairs of cells (2m, 2m + 1) sharing pi = m, with
+            // the coarse values m − 1, m, m + 1 from three offset slices: a loop without
+            // bounds checks or branches, which the compiler vectorises.
+            let mut start = run.start;
+            if start % 2 == 1 {
+                single(x, start);
+                start += 1;
+            }
+            let end = start + (run.end.max(start) - start) / 2 * 2;
+            let (m0, m1) = (start / 2, end / 2);
+            let pairs = x[start..end]
+                .chunks_exact_mut(2)
+                .zip(wx[start..end].chunks_exact(2))
+                .zip(wy[start..end].chunks_exact(2));
+            let (own3, nb3) = (neighbours(own, m0..m1), neighbours(nb, m0..m1));
+            for (((v, wx), wy), (((&o0, &o1), &o2), ((&n0, &n1), &n2))) in pairs.zip(own3.zip(nb3))
+            {
+                v[0] = v[0] + interpolate(wx[0], wy[0], o1, o0, n1, n0);
+                v[1] = v[1] + interpolate(wx[1], wy[1], o1, o2, n1, n2);
+            }
+            if end < run.end {
+                single(x, end);
+            }
+        });
         let ends = if regular.is_empty() {
             cols.clone().chain(0..0)
         } else {
             (cols.start..regular.start).chain(regular.end..cols.end)
         };
         for i in ends {
-            if !active(base + i) {
+            if inactive.is_some_and(|f| f.contains(base + i)) {
                 continue;
             }
             let mut e = T::zero();
@@ -273,8 +300,49 @@ impl<'a> Transfer<'a> {
     }
 }
 
+/// `(c[m − 1], c[m], c[m + 1])` for `m` in `range` (which starts at 1 or later), from three
+/// offset slices.
+#[inline(always)]
+fn neighbours<T>(c: &[T], range: Range<usize>) -> impl Iterator<Item = ((&T, &T), &T)> {
+    let (m0, m1) = (range.start, range.end);
+    let (before, at, after) = (&c[m0 - 1..m1 - 1], &c[m0..m1], &c[m0 + 1..m1 + 1]);
+    before.iter().zip(at).zip(after)
+}
+
+/// Calls `f` with each run of cells in `cols` (indices within a row whose first cell is
+/// `base`) that holds no cell of `inactive`, in order: all of `cols` at once without inactive
+/// cells, so the loops over a run need no test per cell.
+#[inline]
+pub(crate) fn for_active_runs(
+    inactive: Option<&FixedCells>,
+    base: usize,
+    cols: Range<usize>,
+    mut f: impl FnMut(Range<usize>),
+) {
+    let Some(set) = inactive else {
+        if !cols.is_empty() {
+            f(cols);
+        }
+        return;
+    };
+    let mut start = cols.start;
+    for &k in set.in_range(base + cols.start..base + cols.end) {
+        if start < k - base {
+            f(start..k - base);
+        }
+        start = k - base + 1;
+    }
+    if start < cols.end {
+        f(start..cols.end);
+    }
+}
+
 /// A stored `f32` weight in the level's scalar type (exact: `f32` widens to `f64` exactly).
 #[inline(always)]
 fn widen<T: Scalar>(w: f32) -> T {
     T::from(w).unwrap_or_else(T::zero)
 }
+
+#[cfg(test)]
+#[path = "transfer_tests.rs"]
+mod tests;
