@@ -103,7 +103,19 @@ pub(super) fn uniform_couplings<T: Scalar, R: Stencil5<T> + ?Sized>(fine: &R) ->
     if g.nx() % 2 == 1 || g.ny() % 2 == 1 {
         return false;
     }
-    let fixed = fine.fixed();
+    let fixed = fine.fixed().filter(|f| !f.is_empty());
+    if fixed.is_none() {
+        // Every cell an unknown: the given couplings are the eliminated ones, and the first
+        // (sides even, so at least 2) is cell 0's east.
+        let (nx, ny) = (g.nx(), g.ny());
+        let first = fine.coeffs(0, 0).east;
+        return (0..ny).all(|j| {
+            (0..nx).all(|i| {
+                let c = fine.coeffs(i, j);
+                (i + 1 == nx || c.east == first) && (j + 1 == ny || c.north == first)
+            })
+        });
+    }
     let free = |k: usize| !fixed.is_some_and(|f| f.contains(k));
     let mut first: Option<T> = None;
     for j in 0..g.ny() {

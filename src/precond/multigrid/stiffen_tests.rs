@@ -46,6 +46,34 @@ fn uniform_couplings_keep_the_upscaled_operator() {
     }
 }
 
+/// Without fixed cells, one interior face of another conductance anywhere (last row and
+/// column included) makes the couplings non-uniform; a different wall conductance (it only
+/// enters a center) does not.
+#[test]
+fn uniform_couplings_find_one_different_face() {
+    let (nx, ny) = (6, 4);
+    let cells = nx * ny;
+    for changed in 0..2 * cells {
+        let mut call = 0;
+        let mut conductance = || {
+            call += 1;
+            if call - 1 == changed {
+                2.0
+            } else {
+                1.5
+            }
+        };
+        let op = field(nx, ny, &mut conductance, &|_| 0.0, &[]);
+        // `field` draws every cell's east, then every cell's north conductance.
+        let interior = if changed < cells {
+            changed % nx + 1 < nx
+        } else {
+            (changed - cells) / nx + 1 < ny
+        };
+        assert_eq!(uniform_couplings(&op), !interior, "conductance {changed}");
+    }
+}
+
 /// On random fields (conductances over four decades) the stiffened coarse operator is a
 /// symmetric M-matrix with non-negative excess — weakly diagonally dominant, so positive
 /// semi-definite by Gershgorin's circle theorem — whose every coupling is at least as strong
