@@ -172,6 +172,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
     /// The lumping of every pair into the edges and diagonals of the coarse rows `rows` (those
     /// rows only: `east`, `north`, `diagonal` start at row `rows.start`): the pairs whose first
     /// cell lies up to two rows below, in grid order.
+    #[inline(never)]
     fn lump_rows(&self, gal: &[[T; 13]], rows: Range<usize>, out: [&mut &mut [T]; 3]) {
         let [east, north, diagonal] = out;
         let (ncx, ncy, active) = (self.ncx, self.ncy, self.active);

@@ -9,7 +9,7 @@ use std::ops::Range;
 use super::aggregate::split;
 use super::galerkin::Product;
 use crate::operator::Stencil5;
-use crate::Scalar;
+use crate::{Coeffs5, Scalar};
 
 impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<'_, T, R, W> {
     /// The product's entries of the coarse rows `rows` into `gal` (those rows only): the fine
@@ -18,7 +18,6 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
     /// around `k`'s own aggregate (every neighbour's aggregates lie there), the neighbours in
     /// the order centre, west, east, south, north; then `P`'s row `k` times it into the rows
     /// of the product. The rows of `P` are computed once per fine row, into a ring of three.
-    #[inline(never)]
     pub(super) fn product_rows(&self, rows: Range<usize>, gal: &mut [[T; 13]]) {
         let g = self.fine.grid();
         let (nx, ny, ncx, active) = (g.nx(), g.ny(), self.ncx, self.active);
@@ -48,6 +47,13 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
                 *p = [u1 * u2, w1 * u2, u1 * w2, w1 * w2];
             }
         };
+        // Fine columns with the pattern of aggregates of a cell away from the ends.
+        let canon_x: Vec<bool> = (0..nx)
+            .map(|i| {
+                let rel = |ii: usize| (cols[ii].0 + 1 - cols[i].0, cols[ii].1 + 1 - cols[i].0);
+                i > 0 && i + 1 < nx && [rel(i - 1), rel(i), rel(i + 1)] == block_pattern(i % 2 == 1)
+            })
+            .collect();
         if first > 0 {
             fill(&mut ring, first - 1);
         }
@@ -84,6 +90,10 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
                 continue;
             }
             let ty = [1, qj + 1 - pj];
+            let canon_y = j > 0
+                && j + 1 < ny
+                && [below, here, above] == block_pattern(j % 2 == 1).map(|(a, b)| (3 * a, 3 * b));
+            let fast_row = open && canon_y;
             for i in 0..nx {
                 let k = i + nx * j;
                 if !fine_active(k) {
@@ -91,6 +101,34 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
                 }
                 let c = self.fine.eliminated_coeffs(i, j);
                 let (pi, qi) = cols[i];
+                if fast_row && canon_x[i] {
+                    let p = [
+                        p_here[i],
+                        p_here[i - 1],
+                        p_here[i + 1],
+                        p_below[i],
+                        p_above[i],
+                    ];
+                    let on = [
+                        c.west != T::zero() && fine_active(k - 1),
+                        c.east != T::zero() && fine_active(k + 1),
+                        c.south != T::zero() && fine_active(k - nx),
+                        c.north != T::zero() && fine_active(k + nx),
+                    ];
+                    let row_of = |ci: usize, sy: usize| {
+                        let cj = if sy == 0 { pj } else { qj };
+                        let a = ci + ncx * cj;
+                        (mine_y[sy] && active[a]).then(|| a - base)
+                    };
+                    let targets = [row_of(pi, 0), row_of(qi, 0), row_of(pi, 1), row_of(qi, 1)];
+                    match (i % 2 == 1, j % 2 == 1) {
+                        (false, false) => interior_cell::<T, false, false>(&c, on, p, targets, gal),
+                        (true, false) => interior_cell::<T, true, false>(&c, on, p, targets, gal),
+                        (false, true) => interior_cell::<T, false, true>(&c, on, p, targets, gal),
+                        (true, true) => interior_cell::<T, true, true>(&c, on, p, targets, gal),
+                    }
+                    continue;
+                }
                 let rel_x = |ii: usize| (cols[ii].0 + 1 - pi, cols[ii].1 + 1 - pi);
                 let mut ap = [T::zero(); 9];
                 let mut add =
@@ -122,7 +160,16 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
                         continue;
                     }
                     let row = &mut gal[ci + ncx * cj - base];
-                    for &(e, slot) in UPPER_ENTRIES[ty[sy]][tx[sx]].iter() {
+                    let entries = UPPER_ENTRIES[ty[sy]][tx[sx]].iter();
+                    if open {
+                        // A zero entry keeps the sum as it is (selected, not branched on).
+                        for &(e, slot) in entries {
+                            let (v, sum) = (ap[e], row[slot]);
+                            row[slot] = if v == T::zero() { sum } else { sum + w1 * v };
+                        }
+                        continue;
+                    }
+                    for &(e, slot) in entries {
                         let v = ap[e];
                         if v == T::zero()
                             || !(open || active[(pi + e % 3 - 1) + ncx * (pj + e / 3 - 1)])
@@ -133,6 +180,72 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
                     }
                 }
             }
+        }
+    }
+}
+
+/// Block positions (0 to 2 along one axis, from the own aggregate's predecessor) of the parent
+/// and neighbour aggregates of the previous, own and next fine cells, for a fine cell away
+/// from the ends of its axis, by its parity (the left cell of a pair looks back, the right
+/// one forward).
+const fn block_pattern(odd: bool) -> [(usize, usize); 3] {
+    if odd {
+        [(1, 0), (1, 2), (2, 1)]
+    } else {
+        [(0, 1), (1, 0), (1, 2)]
+    }
+}
+
+/// One fine cell of [`Product::product_rows`] with [`block_pattern`] along both axes and its
+/// 3 × 3 coarse cells all active: the sums of the general path, every block position known at
+/// compile time. `p`: `P`'s rows of the own, west, east, south and north cells; `on`: whether
+/// the west, east, south and north couplings count (nonzero, to an unknown); `targets`: the
+/// row of `gal` of each coarse cell of the own `P` row, if this band's and active.
+#[inline(always)]
+fn interior_cell<T: Scalar, const XODD: bool, const YODD: bool>(
+    c: &Coeffs5<T>,
+    on: [bool; 4],
+    p: [[T; 4]; 5],
+    targets: [Option<usize>; 4],
+    gal: &mut [[T; 13]],
+) {
+    let (x, y) = (block_pattern(XODD), block_pattern(YODD));
+    let mut ap = [T::zero(); 9];
+    let mut add = |a: T, w: [T; 4], (x0, x1): (usize, usize), (y0, y1): (usize, usize)| {
+        let entries = [3 * y0 + x0, 3 * y0 + x1, 3 * y1 + x0, 3 * y1 + x1];
+        for (e, w2) in entries.into_iter().zip(w) {
+            ap[e] = ap[e] + a * w2;
+        }
+    };
+    if c.center != T::zero() {
+        add(c.center, p[0], x[1], y[1]);
+    }
+    if on[0] {
+        add(c.west, p[1], x[0], y[1]);
+    }
+    if on[1] {
+        add(c.east, p[2], x[2], y[1]);
+    }
+    if on[2] {
+        add(c.south, p[3], x[1], y[0]);
+    }
+    if on[3] {
+        add(c.north, p[4], x[1], y[2]);
+    }
+    // Targets in the order of the P row: (parent, parent), (neighbour, parent), (parent,
+    // neighbour), (neighbour, neighbour).
+    let (tx, ty) = ([1, x[1].1], [1, y[1].1]);
+    for (t, (target, w1)) in targets.into_iter().zip(p[0]).enumerate() {
+        let Some(r) = target else {
+            continue;
+        };
+        if w1 == T::zero() {
+            continue;
+        }
+        let row = &mut gal[r];
+        for &(e, slot) in UPPER_ENTRIES[ty[t / 2]][tx[t % 2]].iter() {
+            let (v, sum) = (ap[e], row[slot]);
+            row[slot] = if v == T::zero() { sum } else { sum + w1 * v };
         }
     }
 }
