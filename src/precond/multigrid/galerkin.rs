@@ -175,6 +175,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
     #[inline(never)]
     fn lump_rows(&self, gal: &[[T; 13]], rows: Range<usize>, out: [&mut &mut [T]; 3]) {
         let [east, north, diagonal] = out;
+        let (east, north, diagonal): (&mut [T], &mut [T], &mut [T]) = (east, north, diagonal);
         let (ncx, ncy, active) = (self.ncx, self.ncy, self.active);
         let base = rows.start * ncx;
         let two: T = lit(2.0);
@@ -204,25 +205,25 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
                 if inner_row && ci >= 2 && ci + 2 < ncx {
                     let (gal_a, own) = (&gal[a], a - base);
                     for pair in &inner {
+                        // The skips of the general path below, as selects: a zero `v` adds
+                        // nothing, a positive one nothing to the edges.
                         let v = gal_a[pair.slot];
-                        if v == T::zero() {
-                            continue;
-                        }
-                        diagonal[own] = diagonal[own] + v;
+                        let (no_diagonal, no_edges) = (v == T::zero(), v >= T::zero());
                         let c = own + pair.to;
-                        diagonal[c] = diagonal[c] + v;
-                        if v > T::zero() {
-                            continue;
+                        for d in [own, c] {
+                            let sum = diagonal[d];
+                            diagonal[d] = if no_diagonal { sum } else { sum + v };
                         }
-                        let share = -v * pair.weight / pair.count;
-                        for &(off, along_x) in pair.edges() {
-                            let from = own.wrapping_add_signed(off);
-                            let edge = if along_x {
-                                &mut east[from]
-                            } else {
-                                &mut north[from]
-                            };
-                            *edge = *edge + share;
+                        // `/ count` as `· (1 / count)`: the same bits, count being 1 or 2.
+                        let share = -v * pair.weight * pair.inverse_count;
+                        // The edges of a pair's paths are distinct, so east and north apart.
+                        for &off in pair.east() {
+                            let edge = &mut east[own.wrapping_add_signed(off)];
+                            *edge = if no_edges { *edge } else { *edge + share };
+                        }
+                        for &off in pair.north() {
+                            let edge = &mut north[own.wrapping_add_signed(off)];
+                            *edge = if no_edges { *edge } else { *edge + share };
                         }
                     }
                     continue;
@@ -301,15 +302,20 @@ struct PairOffset<T> {
 }
 
 /// A [`PairOffset`] for a first cell at least two columns from each side whose pairs are all
-/// open: the offset of the second cell and of each edge of its paths (in the order of the
-/// paths, then of their steps) as index offsets on a coarse grid `ncx` cells wide.
+/// open: the offset of the second cell and of the east and north edges of its paths (in the
+/// order of the paths, then of their steps) as index offsets on a coarse grid `ncx` cells
+/// wide.
 struct InnerPair<T> {
     slot: usize,
     to: usize,
     weight: T,
-    count: T,
-    edges: [(isize, bool); 8],
-    len: usize,
+    /// `1 / count` of the paths, 1 or 1/2: exact, so multiplying by it is dividing by the
+    /// count (both round the same real number).
+    inverse_count: T,
+    east: [isize; 4],
+    east_len: usize,
+    north: [isize; 4],
+    north_len: usize,
 }
 
 impl<T: Scalar> InnerPair<T> {
@@ -319,22 +325,37 @@ impl<T: Scalar> InnerPair<T> {
             slot: pair.slot,
             to: (pair.dx as isize + ncx * pair.dy as isize) as usize,
             weight: pair.weight,
-            count: T::from(pair.count).unwrap_or_else(T::one),
-            edges: [(0, false); 8],
-            len: 0,
+            inverse_count: if pair.count == 2 { lit(0.5) } else { T::one() },
+            east: [0; 4],
+            east_len: 0,
+            north: [0; 4],
+            north_len: 0,
         };
         for path in &pair.paths[..pair.count] {
             for &(di, dj, along_x) in path.steps() {
-                inner.edges[inner.len] = (di as isize + ncx * dj as isize, along_x);
-                inner.len += 1;
+                let off = di as isize + ncx * dj as isize;
+                if along_x {
+                    inner.east[inner.east_len] = off;
+                    inner.east_len += 1;
+                } else {
+                    inner.north[inner.north_len] = off;
+                    inner.north_len += 1;
+                }
             }
         }
         inner
     }
 
+    /// Offsets of the east edges of the paths (those of the x steps), in path order.
     #[inline]
-    fn edges(&self) -> &[(isize, bool)] {
-        &self.edges[..self.len]
+    fn east(&self) -> &[isize] {
+        &self.east[..self.east_len]
+    }
+
+    /// Offsets of the north edges of the paths, in path order.
+    #[inline]
+    fn north(&self) -> &[isize] {
+        &self.north[..self.north_len]
     }
 }
 
