@@ -2,7 +2,7 @@
 
 use std::ops::Range;
 
-use super::aggregate::{split, Axis};
+use super::aggregate::Axis;
 use super::MAX_BANDS;
 use crate::blocks::{join, threads_for};
 use crate::operator::Stencil5;
@@ -50,19 +50,7 @@ fn galerkin_in_bands<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) 
     bands: usize,
 ) -> Vec<Coeffs5<T>> {
     let (ncx, nc) = (grid.nx(), grid.cells());
-    let product = Product {
-        fine,
-        ax,
-        ay,
-        weights,
-        ncx,
-        ncy: grid.ny(),
-        active,
-        offsets: pair_offsets(),
-        // Coarse rows whose cells are all active: a pair inside three such rows has every
-        // path open (a path stays in the box spanned by its two cells).
-        full_row: active.chunks(ncx).map(|r| r.iter().all(|&on| on)).collect(),
-    };
+    let product = Product::new(fine, (ax, ay, weights), grid, active);
     // Per coarse cell a: the entries (a, c) of the product for c at the offsets of the upper
     // half-plane (`upper_slot`), itself first; the product is symmetric, so each unordered
     // pair is summed once.
@@ -141,114 +129,53 @@ fn in_bands<E: Send>(
     );
 }
 
-/// What both passes of the product read.
-struct Product<'a, T, R: ?Sized, W> {
-    fine: &'a R,
-    ax: &'a Axis,
-    ay: &'a Axis,
-    weights: &'a W,
-    ncx: usize,
-    ncy: usize,
-    active: &'a [bool],
+/// What both passes of the product read (the first pass is in `galerkin_rows.rs`).
+pub(super) struct Product<'a, T, R: ?Sized, W> {
+    pub(super) fine: &'a R,
+    pub(super) ax: &'a Axis,
+    pub(super) ay: &'a Axis,
+    pub(super) weights: &'a W,
+    pub(super) ncx: usize,
+    pub(super) ncy: usize,
+    pub(super) active: &'a [bool],
     offsets: Vec<PairOffset<T>>,
-    full_row: Vec<bool>,
+    /// Coarse rows whose cells are all active: a pair inside three such rows has every path
+    /// open (a path stays in the box spanned by its two cells).
+    pub(super) full_row: Vec<bool>,
+}
+
+impl<'a, T: Scalar, R: Stencil5<T> + ?Sized, W> Product<'a, T, R, W> {
+    /// The product of `fine` with the interpolation `(ax, ay, weights)` onto the coarse
+    /// `grid` whose cells `active` carry an unknown.
+    pub(super) fn new(
+        fine: &'a R,
+        (ax, ay, weights): (&'a Axis, &'a Axis, &'a W),
+        grid: Grid,
+        active: &'a [bool],
+    ) -> Self {
+        let ncx = grid.nx();
+        Product {
+            fine,
+            ax,
+            ay,
+            weights,
+            ncx,
+            ncy: grid.ny(),
+            active,
+            offsets: pair_offsets(),
+            full_row: active.chunks(ncx).map(|r| r.iter().all(|&on| on)).collect(),
+        }
+    }
 }
 
 impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<'_, T, R, W> {
-    /// Row `k` (fine cell `(i, j)`) of `P`: coarse cell and weight of its four entries.
-    #[inline]
-    fn p_row(&self, i: usize, j: usize, k: usize) -> [(usize, usize, T); 4] {
-        let (ax, ay) = (self.ax, self.ay);
-        let (pi, qi, pj, qj) = (ax.parent(i), ax.neighbour(i), ay.parent(j), ay.neighbour(j));
-        let (wx, wy) = (self.weights)(k);
-        let ((u1, w1), (u2, w2)) = (split(wx), split(wy));
-        [
-            (pi, pj, u1 * u2),
-            (qi, pj, w1 * u2),
-            (pi, qj, u1 * w2),
-            (qi, qj, w1 * w2),
-        ]
-    }
-
-    /// The product's entries of the coarse rows `rows` into `gal` (those rows only): the fine
-    /// rows whose `P` rows reach them (`2·start − 1` to `2·end`; one more on each side is
-    /// visited), in grid order.
-    fn product_rows(&self, rows: Range<usize>, gal: &mut [[T; 13]]) {
-        let g = self.fine.grid();
-        let (nx, ny, ncx, active) = (g.nx(), g.ny(), self.ncx, self.active);
-        let base = rows.start * ncx;
-        let fixed = self.fine.fixed();
-        let fine_active = |k: usize| !fixed.is_some_and(|f| f.contains(k));
-        for j in (2 * rows.start).saturating_sub(2)..(2 * rows.end + 2).min(ny) {
-            for i in 0..nx {
-                let k = i + nx * j;
-                if !fine_active(k) {
-                    continue;
-                }
-                let c = self.fine.eliminated_coeffs(i, j);
-                let mut nbrs = [(i, j, k, c.center); 5];
-                let mut m = 1;
-                if i > 0 {
-                    nbrs[m] = (i - 1, j, k - 1, c.west);
-                    m += 1;
-                }
-                if i + 1 < nx {
-                    nbrs[m] = (i + 1, j, k + 1, c.east);
-                    m += 1;
-                }
-                if j > 0 {
-                    nbrs[m] = (i, j - 1, k - nx, c.south);
-                    m += 1;
-                }
-                if j + 1 < ny {
-                    nbrs[m] = (i, j + 1, k + nx, c.north);
-                    m += 1;
-                }
-                // Row k of A·P, on the 3 × 3 coarse cells around k's own aggregate (every
-                // neighbour's aggregates lie there), then P's row k times it into the product.
-                let (pi, pj) = (self.ax.parent(i), self.ay.parent(j));
-                let mut ap = [[T::zero(); 3]; 3];
-                for &(gi, gj, gk, a) in &nbrs[..m] {
-                    if a == T::zero() || !fine_active(gk) {
-                        continue;
-                    }
-                    for (di, dj, w2) in self.p_row(gi, gj, gk) {
-                        let slot = &mut ap[dj + 1 - pj][di + 1 - pi];
-                        *slot = *slot + a * w2;
-                    }
-                }
-                for (ci, cj, w1) in self.p_row(i, j, k) {
-                    if !rows.contains(&cj) || w1 == T::zero() || !active[ci + ncx * cj] {
-                        continue;
-                    }
-                    let row = &mut gal[ci + ncx * cj - base];
-                    for (dj, line) in ap.iter().enumerate() {
-                        for (di, &v) in line.iter().enumerate() {
-                            // The coarse cell (pi + di − 1, pj + dj − 1), at this offset from
-                            // (ci, cj).
-                            let (ox, oy) = (
-                                (pi + di) as i64 - 1 - ci as i64,
-                                (pj + dj) as i64 - 1 - cj as i64,
-                            );
-                            let Some(slot) = upper_slot(ox, oy) else {
-                                continue;
-                            };
-                            if v == T::zero() || !active[(pi + di - 1) + ncx * (pj + dj - 1)] {
-                                continue;
-                            }
-                            row[slot] = row[slot] + w1 * v;
-                        }
-                    }
-                }
-            }
-        }
-    }
-
     /// The lumping of every pair into the edges and diagonals of the coarse rows `rows` (those
     /// rows only: `east`, `north`, `diagonal` start at row `rows.start`): the pairs whose first
     /// cell lies up to two rows below, in grid order.
+    #[inline(never)]
     fn lump_rows(&self, gal: &[[T; 13]], rows: Range<usize>, out: [&mut &mut [T]; 3]) {
         let [east, north, diagonal] = out;
+        let (east, north, diagonal): (&mut [T], &mut [T], &mut [T]) = (east, north, diagonal);
         let (ncx, ncy, active) = (self.ncx, self.ncy, self.active);
         let base = rows.start * ncx;
         let two: T = lit(2.0);
@@ -258,13 +185,47 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
                 v[k - base] = v[k - base] + h;
             }
         };
+        let inner: Vec<InnerPair<T>> = self
+            .offsets
+            .iter()
+            .map(|p| InnerPair::new(p, ncx))
+            .collect();
         for cj in rows.start.saturating_sub(2)..rows.end {
             let all_open = self.full_row[cj..(cj + 3).min(ncy)]
                 .iter()
                 .all(|&full| full);
+            // Every cell a pair from this row reaches (rows cj to cj + 2) exists, is active,
+            // and is this band's: no test per pair but the two columns on each side.
+            let inner_row = all_open && cj >= rows.start && cj + 2 < rows.end.min(ncy);
             for ci in 0..ncx {
                 let a = ci + ncx * cj;
                 if !active[a] {
+                    continue;
+                }
+                if inner_row && ci >= 2 && ci + 2 < ncx {
+                    let (gal_a, own) = (&gal[a], a - base);
+                    for pair in &inner {
+                        // The skips of the general path below, as selects: a zero `v` adds
+                        // nothing, a positive one nothing to the edges.
+                        let v = gal_a[pair.slot];
+                        let (no_diagonal, no_edges) = (v == T::zero(), v >= T::zero());
+                        let c = own + pair.to;
+                        for d in [own, c] {
+                            let sum = diagonal[d];
+                            diagonal[d] = if no_diagonal { sum } else { sum + v };
+                        }
+                        // `/ count` as `· (1 / count)`: the same bits, count being 1 or 2.
+                        let share = -v * pair.weight * pair.inverse_count;
+                        // The edges of a pair's paths are distinct, so east and north apart.
+                        for &off in pair.east() {
+                            let edge = &mut east[own.wrapping_add_signed(off)];
+                            *edge = if no_edges { *edge } else { *edge + share };
+                        }
+                        for &off in pair.north() {
+                            let edge = &mut north[own.wrapping_add_signed(off)];
+                            *edge = if no_edges { *edge } else { *edge + share };
+                        }
+                    }
                     continue;
                 }
                 for pair in &self.offsets {
@@ -319,7 +280,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) + Sync> Product<
 /// with the origin (`oy > 0`, or `oy = 0` and `ox ≥ 0`), the origin first; `None` for the
 /// others.
 #[inline]
-fn upper_slot(ox: i64, oy: i64) -> Option<usize> {
+pub(super) fn upper_slot(ox: i64, oy: i64) -> Option<usize> {
     match oy {
         0 if ox >= 0 => Some(ox as usize),
         1 | 2 => Some((3 + 5 * (oy - 1) + ox + 2) as usize),
@@ -338,6 +299,64 @@ struct PairOffset<T> {
     weight: T,
     paths: [Path; 2],
     count: usize,
+}
+
+/// A [`PairOffset`] for a first cell at least two columns from each side whose pairs are all
+/// open: the offset of the second cell and of the east and north edges of its paths (in the
+/// order of the paths, then of their steps) as index offsets on a coarse grid `ncx` cells
+/// wide.
+struct InnerPair<T> {
+    slot: usize,
+    to: usize,
+    weight: T,
+    /// `1 / count` of the paths, 1 or 1/2: exact, so multiplying by it is dividing by the
+    /// count (both round the same real number).
+    inverse_count: T,
+    east: [isize; 4],
+    east_len: usize,
+    north: [isize; 4],
+    north_len: usize,
+}
+
+impl<T: Scalar> InnerPair<T> {
+    fn new(pair: &PairOffset<T>, ncx: usize) -> Self {
+        let ncx = ncx as isize;
+        let mut inner = InnerPair {
+            slot: pair.slot,
+            to: (pair.dx as isize + ncx * pair.dy as isize) as usize,
+            weight: pair.weight,
+            inverse_count: if pair.count == 2 { lit(0.5) } else { T::one() },
+            east: [0; 4],
+            east_len: 0,
+            north: [0; 4],
+            north_len: 0,
+        };
+        for path in &pair.paths[..pair.count] {
+            for &(di, dj, along_x) in path.steps() {
+                let off = di as isize + ncx * dj as isize;
+                if along_x {
+                    inner.east[inner.east_len] = off;
+                    inner.east_len += 1;
+                } else {
+                    inner.north[inner.north_len] = off;
+                    inner.north_len += 1;
+                }
+            }
+        }
+        inner
+    }
+
+    /// Offsets of the east edges of the paths (those of the x steps), in path order.
+    #[inline]
+    fn east(&self) -> &[isize] {
+        &self.east[..self.east_len]
+    }
+
+    /// Offsets of the north edges of the paths, in path order.
+    #[inline]
+    fn north(&self) -> &[isize] {
+        &self.north[..self.north_len]
+    }
 }
 
 /// The twelve pair offsets, in the order the lumping visits them.

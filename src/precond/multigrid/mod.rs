@@ -64,6 +64,7 @@ mod aggregate;
 mod bands;
 mod direct;
 mod galerkin;
+mod galerkin_rows;
 mod level;
 mod paths;
 mod setup_bands;
