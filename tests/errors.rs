@@ -230,6 +230,17 @@ fn settings_out_of_range() {
         estimate_relaxation(&op, 0).unwrap_err().subject(),
         Some("steps")
     );
+    for omega in [0.0, 2.0, -1.0, 2.5, f64::NAN, f64::INFINITY] {
+        let settings = MultigridSettings {
+            smoothing_omega: Some(omega),
+            ..Default::default()
+        };
+        let err = Multigrid::new(&op, settings).unwrap_err();
+        assert_eq!(
+            (err.kind(), err.subject()),
+            (ErrorKind::InvalidSetting, Some("smoothing_omega"))
+        );
+    }
 }
 
 #[test]

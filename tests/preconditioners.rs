@@ -54,6 +54,31 @@ fn all_preconditioners(op: &Banded5<f64>) -> Vec<Box<dyn Preconditioner<f64> + '
             )
             .unwrap(),
         ),
+        // Red-black SOR smoothing near both ends of its range (0, 2): the mirrored sweeps keep
+        // the V-cycle symmetric and positive definite for any ω there (common practice).
+        Box::new(
+            Multigrid::new(
+                op,
+                MultigridSettings {
+                    smoothing_omega: Some(1.9),
+                    coarsest_cells: 4,
+                    ..Default::default()
+                },
+            )
+            .unwrap(),
+        ),
+        Box::new(
+            Multigrid::new(
+                op,
+                MultigridSettings {
+                    smoothing_omega: Some(0.5),
+                    smoothing_sweeps: 1,
+                    coarsest_cells: 4,
+                    ..Default::default()
+                },
+            )
+            .unwrap(),
+        ),
     ]
 }
 

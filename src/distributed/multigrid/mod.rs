@@ -12,7 +12,7 @@ use super::stencil::DistributedStencil;
 use super::transport::Transport;
 use crate::operator::{cell_product, check_len};
 use crate::precond::multigrid::{
-    active_cells, inverse_centers, relax_from_zero, Level, LevelOperator, StoredRows,
+    active_cells, inverse_centers, over_relax, relax_from_zero, Level, LevelOperator, StoredRows,
 };
 use crate::precond::Preconditioner;
 use crate::space::{first_flagged, Combine, Serial, Space};
@@ -508,7 +508,8 @@ impl SplitLevel {
             return Err(Error::pivot(at, value[0]));
         }
         let below = below?;
-        let inv = inverse_centers(&op.rows, |k| active[k]);
+        let mut inv = inverse_centers(&op.rows, |k| active[k]);
+        over_relax(&mut inv, settings.omega(true));
         let n = win.cells();
         Ok(SplitLevel {
             win,
@@ -720,8 +721,11 @@ impl GatheredLevel {
             rows,
             inactive,
         };
+        // The split levels' relaxation factor (the operator is symmetric), whatever the
+        // symmetry check of the gathered rows finds.
         let below = MultigridSettings {
             max_levels: settings.max_levels - above,
+            smoothing_omega: Some(settings.omega(true)),
             ..settings
         };
         let mg = Multigrid::new(&op, below)?;

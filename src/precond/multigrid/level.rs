@@ -308,6 +308,17 @@ pub(crate) fn inverse_centers<T: Scalar>(
         .collect()
 }
 
+/// Scale a level's inverse centers by the smoother's relaxation factor `omega`
+/// ([`MultigridSettings::smoothing_omega`](super::MultigridSettings::smoothing_omega)): the
+/// red-black half-sweeps then move each cell `ω` times its Gauss–Seidel correction. `ω = 1`
+/// leaves them as they are.
+pub(crate) fn over_relax(inverse_centers: &mut [f32], omega: f64) {
+    if omega != 1.0 {
+        let w = omega as f32;
+        inverse_centers.iter_mut().for_each(|v| *v *= w);
+    }
+}
+
 /// `v` in `f32`, element by element ([`narrow_one`]); an `f32` vector is returned as it is.
 fn narrow<T: Scalar>(mut v: Vec<T>) -> Vec<f32> {
     match (&mut v as &mut dyn std::any::Any).downcast_mut::<Vec<f32>>() {

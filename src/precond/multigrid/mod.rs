@@ -17,9 +17,11 @@
 //!   fine cell takes the value of a flux-continuous linear profile between its own and the
 //!   neighbouring aggregate's centre (bilinear interpolation in a homogeneous medium, none
 //!   across a barrier); restriction is its transpose (`R = Pᵀ`); fixed cells are left out.
-//! * **Smoother**: red-black Gauss–Seidel, `ν` sweeps red-then-black before the coarse
-//!   correction and `ν` sweeps black-then-red after it (the mirror image), so the V-cycle is a
-//!   symmetric operator.
+//! * **Smoother**: red-black SOR, `ν` sweeps red-then-black before the coarse correction and
+//!   `ν` sweeps black-then-red after it (the mirror image), so the V-cycle is a symmetric
+//!   operator. Each cell moves ω times its Gauss–Seidel correction
+//!   ([`MultigridSettings::smoothing_omega`]: by default 1.3 for a symmetric operator,
+//!   Gauss–Seidel's 1 for a non-symmetric one).
 //! * **Coarsest level**: solved exactly by a banded Cholesky factorisation.
 //!
 //! **Non-symmetric operators** (upwinded advection–diffusion, any operator whose eliminated
@@ -31,15 +33,16 @@
 //! the coupling would otherwise turn positive (the hybrid scheme's rule), so coarse operators
 //! of an M-matrix stay M-matrices. The coarsest level is solved by a banded LU factorisation.
 //! The symmetric construction is untouched (same bits as before). The cycle is the same
-//! (red-black Gauss–Seidel), but it is no longer a symmetric operator, so it is a
+//! (red-black sweeps, by default with ω = 1: Gauss–Seidel), but it is no longer a symmetric
+//! operator, so it is a
 //! preconditioner for non-symmetric Krylov drivers, not for PCG; the standalone solver runs
 //! the plain cycle (`α = 1`: without symmetry there is no energy norm to minimise) and needs
 //! only positive centers. Measured counts by cell Péclet number are in the
 //! [preconditioner notes](super): grid-independent (7–8 V(3,3) cycles) up to Péclet 1,
 //! growing with the grid from Péclet 10 on.
 //!
-//! With `A` symmetric positive definite, every coarse operator is SPD and each Gauss–Seidel
-//! sweep is a contraction in the energy norm, so the V-cycle `B` is symmetric positive
+//! With `A` symmetric positive definite, every coarse operator is SPD and each red-black SOR
+//! sweep with 0 < ω < 2 is a contraction in the energy norm, so the V-cycle `B` is symmetric positive
 //! definite (its error operator `I − B·A` has every eigenvalue below 1) and PCG may use it.
 //!
 //! **Measured** (`cargo run --release -p quintet-bench --example iterations`,
@@ -78,7 +81,7 @@ mod transfer;
 
 use bands::scratch_rows;
 use direct::{CoarsestSolve, MAX_DIRECT_CELLS};
-pub(crate) use level::{active_cells, inverse_centers, Level, LevelOperator};
+pub(crate) use level::{active_cells, inverse_centers, over_relax, Level, LevelOperator};
 use smooth::Rows;
 pub(crate) use smooth::{relax_from_zero, StoredRows};
 
@@ -93,6 +96,10 @@ use crate::{Error, Grid, LinearOperator, Progress, Report, Scalar};
 
 /// Most bands of rows the smoother cuts a level into (one per thread).
 const MAX_BANDS: usize = 16;
+
+/// The smoother's default relaxation factor for a symmetric operator
+/// ([`MultigridSettings::smoothing_omega`]).
+const SYMMETRIC_OMEGA: f64 = 1.3;
 
 /// Relative tolerance below which the fine operator counts as symmetric.
 const SYMMETRY_TOLERANCE: f64 = 1e-10;
@@ -144,12 +151,22 @@ pub enum CoarseOperator {
 /// let s = MultigridSettings { smoothing_sweeps: 1, ..Default::default() };
 /// assert_eq!(s.coarsest_cells, MultigridSettings::default().coarsest_cells);
 /// ```
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(Clone, Copy, Debug, PartialEq)]
 pub struct MultigridSettings {
-    /// Red-black Gauss–Seidel sweeps before the coarse correction, and (mirrored) after it.
+    /// Red-black sweeps before the coarse correction, and (mirrored) after it.
     /// At least 1, at most 16. Default 3 (on the high-contrast test field, 2 sweeps cost a few
     /// more PCG iterations than 3; on Poisson both give a grid-independent count).
     pub smoothing_sweeps: usize,
+    /// Relaxation factor ω of the red-black sweeps on every level: each cell moves `ω` times
+    /// its Gauss–Seidel correction (1 is Gauss–Seidel, above 1 over-relaxation, as in SOR).
+    /// `Some(ω)` with ω between 0 and 2, both excluded: in that range the mirrored sweeps
+    /// keep the V-cycle symmetric and positive definite for an SPD operator. Default `None`:
+    /// 1.3 for a symmetric operator, where over-relaxation damps the smooth end of the
+    /// oscillatory modes that red-black Gauss–Seidel leaves to the coarse levels (chosen by
+    /// measured MG-PCG iteration counts, README "Iteration counts by grid size"), and 1 for a
+    /// non-symmetric one, where over-relaxing the sweeps along the flow overshoots (on upwind
+    /// advection at cell Péclet 10 the V-cycle then stops helping BiCGSTAB).
+    pub smoothing_omega: Option<f64>,
     /// Coarsening stops at a level with at most this many cells, which is then solved exactly.
     /// At least 1, at most 4096. Default 256.
     pub coarsest_cells: usize,
@@ -175,6 +192,10 @@ impl MultigridSettings {
         if !(1..=16).contains(&self.smoothing_sweeps) {
             return bad("smoothing_sweeps", self.smoothing_sweeps, "1 to 16 sweeps");
         }
+        if let Some(omega) = self.smoothing_omega.filter(|w| !(*w > 0.0 && *w < 2.0)) {
+            let allowed = "a factor between 0 and 2, both excluded";
+            return Err(Error::setting("smoothing_omega", omega, allowed));
+        }
         if !(1..=MAX_DIRECT_CELLS).contains(&self.coarsest_cells) {
             return bad("coarsest_cells", self.coarsest_cells, "1 to 4096 cells");
         }
@@ -182,6 +203,13 @@ impl MultigridSettings {
             return bad("max_levels", 0, "at least 1 level");
         }
         Ok(())
+    }
+
+    /// The smoother's relaxation factor for an operator that is `symmetric` or not
+    /// ([`smoothing_omega`](Self::smoothing_omega)).
+    pub(crate) fn omega(&self, symmetric: bool) -> f64 {
+        let default = if symmetric { SYMMETRIC_OMEGA } else { 1.0 };
+        self.smoothing_omega.unwrap_or(default)
     }
 
     /// Whether a level on `grid`, below `coarse_levels_above` coarse levels (0 for the fine
@@ -198,6 +226,7 @@ impl Default for MultigridSettings {
     fn default() -> MultigridSettings {
         MultigridSettings {
             smoothing_sweeps: 3,
+            smoothing_omega: None,
             coarsest_cells: 256,
             max_levels: 32,
             energy_step: true,
@@ -326,17 +355,24 @@ impl<T: Scalar> Multigrid<T> {
             None => CoarsestSolve::new(fine, symmetric)?,
             Some(l) => CoarsestSolve::new(&l.op, symmetric)?,
         };
+        // Every level's smoother moves ω times the Gauss–Seidel correction (folded into its
+        // inverse centers; ω = 1 changes nothing).
+        let omega = settings.omega(symmetric);
+        for level in &mut levels {
+            level::over_relax(&mut level.inverse_centers, omega);
+        }
         // Row by row (no division of the cell index), in cell order: the centers of a row
         // gathered first, so that the divisions run as a loop the compiler vectorises; then
-        // 0 at the fixed cells.
-        let nx = grid.nx();
+        // 0 at the fixed cells. The product with ω is exact for ω = 1.
+        let (nx, w) = (grid.nx(), omega as f32);
         let mut fine_inverse_centers = Vec::with_capacity(grid.cells());
         let mut centers = vec![T::zero(); nx];
         for j in 0..grid.ny() {
             for (i, center) in centers.iter_mut().enumerate() {
                 *center = op.coeffs(i, j).center;
             }
-            fine_inverse_centers.extend(centers.iter().map(|&c| level::narrow_one(T::one() / c)));
+            let inverse = centers.iter().map(|&c| level::narrow_one(T::one() / c) * w);
+            fine_inverse_centers.extend(inverse);
         }
         for &k in fine.fixed().map_or(&[][..], |f| f.cells()) {
             if let Some(inverse) = fine_inverse_centers.get_mut(k) {
