@@ -23,7 +23,7 @@ use crate::{Coeffs5, Error, FixedCells, LinearOperator, Location, Multigrid, Mul
 const SYMMETRY_TOLERANCE: f64 = 1e-10;
 
 /// A multigrid V-cycle for a [`DistributedStencil`], as a PCG preconditioner: the hierarchy of
-/// [`Multigrid`] (2 × 2 aggregation, operator-dependent interpolation, red-black Gauss–Seidel;
+/// [`Multigrid`] (2 × 2 aggregation, operator-dependent interpolation, red-black SOR sweeps;
 /// same coarse operators, transfers and smoother), with the finer levels split over the
 /// processes and the coarser ones gathered. The operator must be symmetric (PCG's use);
 /// applying the cycle allocates nothing.

@@ -47,13 +47,15 @@
 //!
 //! **Measured** (`cargo run --release -p quintet-bench --example iterations`,
 //! `tests/multigrid.rs`): on the
-//! Dirichlet Poisson problem one V(3,3) cycle reduces the residual by a factor of about 0.09,
-//! whatever the grid size, and MG-PCG needs 6 iterations to 10⁻⁸ at every size from 64² to
-//! 2048². On a layered field with blocks (conductivity contrast 10⁴) MG-PCG needs 9 iterations
-//! at every size from 64² to 2048² with the default [`CoarseOperator::LargerConductance`], the
-//! plain standalone cycle 9–13; with [`CoarseOperator::Upscaled`] 13–20 (14–24 with the `f32`
-//! V-cycle), growing with n, and 9–11 with [`CoarseOperator::LumpedGalerkin`] (which needs 6–9
-//! on Poisson). With the upscaled operators the *plain* standalone
+//! Dirichlet Poisson problem one V(3,3) cycle reduces the residual by a factor of about 0.08
+//! (0.09 with Gauss–Seidel sweeps, ω = 1), whatever the grid size, and MG-PCG needs 6
+//! iterations to 10⁻⁸ at every size from 64² to 2048² (5 at 1024²; with the `f32` V-cycle 7 at
+//! 4096²). On a layered field with blocks (conductivity contrast 10⁴) MG-PCG needs 8–9
+//! iterations at every size from 64² to 2048² with the default
+//! [`CoarseOperator::LargerConductance`], the plain standalone cycle 10–11 at 64² and 256².
+//! Measured with Gauss–Seidel sweeps (ω = 1): with [`CoarseOperator::Upscaled`] 13–20 (14–24
+//! with the `f32` V-cycle), growing with n, and 9–11 with [`CoarseOperator::LumpedGalerkin`]
+//! (which needs 6–9 on Poisson). With the upscaled operators the *plain* standalone
 //! cycle diverges on that field: the coarse operators of the lower levels under-estimate the
 //! energy of some interpolated corrections across layer boundaries, so the cycle over-corrects
 //! them (eigenvalues of `B·A` above 2). PCG only needs `B` SPD and is unaffected; the
@@ -118,9 +120,9 @@ pub enum CoarseOperator {
     /// [`LumpedGalerkin`](Self::LumpedGalerkin) conductance where that one is larger; centers
     /// from the upscaled row-sum excess. Where the coefficients are smooth it is the upscaled
     /// operator (bit for bit on Poisson); at layer boundaries and block edges it adds the
-    /// energy the upscaling misses there. Measured from 64² to 2048²: 9 MG-PCG iterations on
-    /// the contrast-10⁴ test field (upscaled alone: 13–24, growing with n), 6 on Poisson, and
-    /// a convergent plain standalone cycle. The set-up computes the Galerkin product on every
+    /// energy the upscaling misses there. Measured from 64² to 2048²: 8–9 MG-PCG iterations on
+    /// the contrast-10⁴ test field (9 with Gauss–Seidel sweeps; upscaled alone: 13–24, growing
+    /// with n), 5–6 on Poisson, and a convergent plain standalone cycle. The set-up computes the Galerkin product on every
     /// level whose couplings are not all equal, which costs more than the upscaling alone
     /// (measured in the README's performance table). A non-symmetric operator's coarse levels
     /// use the upscaled rule for their symmetric part (on the advection test the stiffening
@@ -136,8 +138,8 @@ pub enum CoarseOperator {
     Upscaled,
     /// The Galerkin product `Pᵀ·A·P` (25-point for this interpolation), lumped onto the
     /// 5-point stencil: the lumping reproduces the energy of linear functions, so the coarse
-    /// operator follows the interpolation closely on any field. Measured from 64² to 2048²:
-    /// 9–11 MG-PCG iterations on the contrast-10⁴ test field (upscaled: 13–24) and a
+    /// operator follows the interpolation closely on any field. Measured from 64² to 2048²
+    /// with Gauss–Seidel sweeps (ω = 1): 9–11 MG-PCG iterations on the contrast-10⁴ test field (upscaled: 13–24) and a
     /// convergent plain standalone cycle (about 0.2–0.3 per cycle); on Poisson 6–9 PCG
     /// iterations (instead of 6) and a slower cycle (0.13 → 0.25 per cycle from 128² to 512²).
     /// Its set-up costs more than the upscaling.

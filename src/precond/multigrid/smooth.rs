@@ -1,5 +1,5 @@
-//! The red-black Gauss–Seidel smoother fused with the grid transfers, in one pass over the rows
-//! of a level per smoothing phase.
+//! The red-black smoother (Gauss–Seidel, or SOR through inverse centers scaled by ω) fused with
+//! the grid transfers, in one pass over the rows of a level per smoothing phase.
 //!
 //! Cells of one colour do not couple to each other in a 5-point stencil, so a half-sweep may
 //! update its cells in place, in any order, from the current values of the other colour: the
