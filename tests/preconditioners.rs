@@ -16,7 +16,36 @@ fn options() -> SolveOptions {
 
 /// Every preconditioner this module ships, set up for `op`.
 fn all_preconditioners(op: &Banded5<f64>) -> Vec<Box<dyn Preconditioner<f64> + '_>> {
-    vec![
+    let small = MultigridSettings {
+        coarsest_cells: 4,
+        ..Default::default()
+    };
+    let multigrid = [
+        MultigridSettings::default(),
+        MultigridSettings {
+            smoothing_sweeps: 1,
+            ..small
+        },
+        MultigridSettings {
+            coarse_operator: CoarseOperator::LumpedGalerkin,
+            ..small
+        },
+        // Red-black SOR smoothing near both ends of its range (0, 2): the mirrored sweeps keep
+        // the V-cycle symmetric and positive definite for any ω there (common practice).
+        MultigridSettings {
+            smoothing_omega: Some(1.9),
+            ..small
+        },
+        MultigridSettings {
+            smoothing_omega: Some(0.5),
+            smoothing_sweeps: 1,
+            ..small
+        },
+    ]
+    .map(|settings| -> Box<dyn Preconditioner<f64>> {
+        Box::new(Multigrid::new(op, settings).unwrap())
+    });
+    let mut list: Vec<Box<dyn Preconditioner<f64> + '_>> = vec![
         Box::new(Ssor::new(op, 1.0).unwrap()),
         Box::new(Ssor::new(op, 1.6).unwrap()),
         Box::new(IncompleteCholesky::ic0(op).unwrap()),
@@ -31,55 +60,9 @@ fn all_preconditioners(op: &Banded5<f64>) -> Vec<Box<dyn Preconditioner<f64> + '
             )
             .unwrap(),
         ),
-        Box::new(Multigrid::new(op, MultigridSettings::default()).unwrap()),
-        Box::new(
-            Multigrid::new(
-                op,
-                MultigridSettings {
-                    smoothing_sweeps: 1,
-                    coarsest_cells: 4,
-                    ..Default::default()
-                },
-            )
-            .unwrap(),
-        ),
-        Box::new(
-            Multigrid::new(
-                op,
-                MultigridSettings {
-                    coarsest_cells: 4,
-                    coarse_operator: CoarseOperator::LumpedGalerkin,
-                    ..Default::default()
-                },
-            )
-            .unwrap(),
-        ),
-        // Red-black SOR smoothing near both ends of its range (0, 2): the mirrored sweeps keep
-        // the V-cycle symmetric and positive definite for any ω there (common practice).
-        Box::new(
-            Multigrid::new(
-                op,
-                MultigridSettings {
-                    smoothing_omega: Some(1.9),
-                    coarsest_cells: 4,
-                    ..Default::default()
-                },
-            )
-            .unwrap(),
-        ),
-        Box::new(
-            Multigrid::new(
-                op,
-                MultigridSettings {
-                    smoothing_omega: Some(0.5),
-                    smoothing_sweeps: 1,
-                    coarsest_cells: 4,
-                    ..Default::default()
-                },
-            )
-            .unwrap(),
-        ),
-    ]
+    ];
+    list.extend(multigrid);
+    list
 }
 
 /// A boxed preconditioner as a concrete type for `Pcg`.

@@ -149,9 +149,16 @@ pub enum CoarseOperator {
 /// Settings of the multigrid hierarchy and cycle.
 ///
 /// ```
-/// use quintet::MultigridSettings;
+/// use quintet::prelude::*;
 /// let s = MultigridSettings { smoothing_sweeps: 1, ..Default::default() };
 /// assert_eq!(s.coarsest_cells, MultigridSettings::default().coarsest_cells);
+/// // Plain red-black Gauss–Seidel sweeps instead of the over-relaxed default.
+/// let grid = Grid::new(64, 64)?;
+/// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
+/// let gauss_seidel = MultigridSettings { smoothing_omega: Some(1.0), ..Default::default() };
+/// let report = Pcg::new(Multigrid::new(&op, gauss_seidel)?).solve(&op, &[1.0; 4096], &mut [0.0; 4096])?;
+/// assert!(report.converged());
+/// # Ok::<(), quintet::Error>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct MultigridSettings {
