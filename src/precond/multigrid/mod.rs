@@ -34,16 +34,17 @@
 //! of an M-matrix stay M-matrices. The coarsest level is solved by a banded LU factorisation.
 //! The symmetric construction is untouched (same bits as before). The cycle is the same
 //! (red-black sweeps, by default with ω = 1: Gauss–Seidel), but it is no longer a symmetric
-//! operator, so it is a
-//! preconditioner for non-symmetric Krylov drivers, not for PCG; the standalone solver runs
+//! operator, so it is a preconditioner for non-symmetric Krylov drivers, not for PCG; the
+//! standalone solver runs
 //! the plain cycle (`α = 1`: without symmetry there is no energy norm to minimise) and needs
 //! only positive centers. Measured counts by cell Péclet number are in the
 //! [preconditioner notes](super): grid-independent (7–8 V(3,3) cycles) up to Péclet 1,
 //! growing with the grid from Péclet 10 on.
 //!
 //! With `A` symmetric positive definite, every coarse operator is SPD and each red-black SOR
-//! sweep with 0 < ω < 2 is a contraction in the energy norm, so the V-cycle `B` is symmetric positive
-//! definite (its error operator `I − B·A` has every eigenvalue below 1) and PCG may use it.
+//! sweep with 0 < ω < 2 is a contraction in the energy norm, so the V-cycle `B` is symmetric
+//! positive definite (its error operator `I − B·A` has every eigenvalue below 1) and PCG may
+//! use it.
 //!
 //! **Measured** (`cargo run --release -p quintet-bench --example iterations`,
 //! `tests/multigrid.rs`): on the
@@ -117,16 +118,16 @@ const SYMMETRY_TOLERANCE: f64 = 1e-10;
 #[non_exhaustive]
 pub enum CoarseOperator {
     /// The [`Upscaled`](Self::Upscaled) operator with each coarse face raised to the
-    /// [`LumpedGalerkin`](Self::LumpedGalerkin) conductance where that one is larger; centers
-    /// from the upscaled row-sum excess. Where the coefficients are smooth it is the upscaled
-    /// operator (bit for bit on Poisson); at layer boundaries and block edges it adds the
-    /// energy the upscaling misses there. Measured from 64² to 2048²: 8–9 MG-PCG iterations on
-    /// the contrast-10⁴ test field (9 with Gauss–Seidel sweeps; upscaled alone: 13–24, growing
-    /// with n), 5–6 on Poisson, and a convergent plain standalone cycle. The set-up computes the Galerkin product on every
-    /// level whose couplings are not all equal, which costs more than the upscaling alone
-    /// (measured in the README's performance table). A non-symmetric operator's coarse levels
-    /// use the upscaled rule for their symmetric part (on the advection test the stiffening
-    /// cost up to two BiCGSTAB iterations).
+    /// [`LumpedGalerkin`](Self::LumpedGalerkin) conductance where that one is larger; centers from
+    /// the upscaled row-sum excess. Where the coefficients are smooth it is the upscaled operator
+    /// (bit for bit on Poisson); at layer boundaries and block edges it adds the energy the
+    /// upscaling misses there. Measured from 64² to 2048²: 8–9 MG-PCG iterations on the
+    /// contrast-10⁴ test field (9 with Gauss–Seidel sweeps; upscaled alone: 13–24, growing with n),
+    /// 5–6 on Poisson, and a convergent plain standalone cycle. The set-up computes the Galerkin
+    /// product on every level whose couplings are not all equal, which costs more than the
+    /// upscaling alone (measured in the README's performance table). A non-symmetric operator's
+    /// coarse levels use the upscaled rule for their symmetric part (on the advection test the
+    /// stiffening cost up to two BiCGSTAB iterations).
     #[default]
     LargerConductance,
     /// Conductances upscaled along lines of cells: series along the line (half-cell, face,
@@ -136,13 +137,13 @@ pub enum CoarseOperator {
     /// independent of the grid). On high-contrast fields it can under-estimate the energy of
     /// some corrections, so the plain standalone cycle may diverge there (PCG is fine).
     Upscaled,
-    /// The Galerkin product `Pᵀ·A·P` (25-point for this interpolation), lumped onto the
-    /// 5-point stencil: the lumping reproduces the energy of linear functions, so the coarse
-    /// operator follows the interpolation closely on any field. Measured from 64² to 2048²
-    /// with Gauss–Seidel sweeps (ω = 1): 9–11 MG-PCG iterations on the contrast-10⁴ test field (upscaled: 13–24) and a
-    /// convergent plain standalone cycle (about 0.2–0.3 per cycle); on Poisson 6–9 PCG
-    /// iterations (instead of 6) and a slower cycle (0.13 → 0.25 per cycle from 128² to 512²).
-    /// Its set-up costs more than the upscaling.
+    /// The Galerkin product `Pᵀ·A·P` (25-point for this interpolation), lumped onto the 5-point
+    /// stencil: the lumping reproduces the energy of linear functions, so the coarse operator
+    /// follows the interpolation closely on any field. Measured from 64² to 2048² with Gauss–Seidel
+    /// sweeps (ω = 1): 9–11 MG-PCG iterations on the contrast-10⁴ test field (upscaled: 13–24) and
+    /// a convergent plain standalone cycle (about 0.2–0.3 per cycle); on Poisson 6–9 PCG iterations
+    /// (instead of 6) and a slower cycle (0.13 → 0.25 per cycle from 128² to 512²). Its set-up
+    /// costs more than the upscaling.
     LumpedGalerkin,
 }
 
@@ -156,7 +157,8 @@ pub enum CoarseOperator {
 /// let grid = Grid::new(64, 64)?;
 /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
 /// let gauss_seidel = MultigridSettings { smoothing_omega: Some(1.0), ..Default::default() };
-/// let report = Pcg::new(Multigrid::new(&op, gauss_seidel)?).solve(&op, &[1.0; 4096], &mut [0.0; 4096])?;
+/// let mut x = vec![0.0; grid.cells()];
+/// let report = Pcg::new(Multigrid::new(&op, gauss_seidel)?).solve(&op, &[1.0; 4096], &mut x)?;
 /// assert!(report.converged());
 /// # Ok::<(), quintet::Error>(())
 /// ```
