@@ -23,7 +23,11 @@ use quintet::prelude::*;
 use quintet::stop::IterationLimit;
 use support::*;
 
-/// Tracks the bytes currently allocated and their peak, for the memory comparison.
+/// Tracks the bytes currently allocated and their peak, for the memory comparison. Zeroed
+/// allocations go to the system's zeroed allocation (fresh pages come zeroed from the OS and
+/// are first touched by whoever writes them, as in a program without this tracker); the
+/// trait's default would write the zeros itself, on one thread, before the caller sees the
+/// memory.
 struct Tracking;
 
 static CURRENT: AtomicUsize = AtomicUsize::new(0);
@@ -34,6 +38,11 @@ unsafe impl GlobalAlloc for Tracking {
         let now = CURRENT.fetch_add(layout.size(), Ordering::Relaxed) + layout.size();
         PEAK.fetch_max(now, Ordering::Relaxed);
         unsafe { System.alloc(layout) }
+    }
+    unsafe fn alloc_zeroed(&self, layout: Layout) -> *mut u8 {
+        let now = CURRENT.fetch_add(layout.size(), Ordering::Relaxed) + layout.size();
+        PEAK.fetch_max(now, Ordering::Relaxed);
+        unsafe { System.alloc_zeroed(layout) }
     }
     unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
         CURRENT.fetch_sub(layout.size(), Ordering::Relaxed);
