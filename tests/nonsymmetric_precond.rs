@@ -357,10 +357,10 @@ fn multigrid_solves_random_nonsymmetric_m_matrices_with_fixed_cells() {
 /// On a non-symmetric operator the default settings smooth with plain Gauss–Seidel (ω = 1),
 /// not the over-relaxed sweeps of the symmetric default: on upwind advection the Gauss–Seidel
 /// sweep along the flow is close to solving along the streamlines, and over-relaxing it
-/// overshoots. Measured with `examples/iterations.rs` (BiCGSTAB + multigrid at cell Péclet 10,
-/// 128²): 6 iterations with ω = 1, 22 with ω = 1.3, which diverged at 512². Checked here: the
-/// defaults give exactly the ω = 1 preconditioner, and BiCGSTAB with it reaches 10⁻⁸ within 10
-/// iterations at Péclet 10 on 128² (measured 6).
+/// overshoots. Measured with `benches/examples/iterations.rs` (BiCGSTAB + multigrid at cell
+/// Péclet 10, 128²): 6 iterations with ω = 1, 22 with ω = 1.3, which diverged at 512². Checked
+/// here: the defaults give exactly the ω = 1 preconditioner, and BiCGSTAB with it reaches 10⁻⁸
+/// within 10 iterations at Péclet 10 on 128² (measured 6).
 #[test]
 fn multigrid_on_a_nonsymmetric_operator_smooths_with_gauss_seidel_by_default() {
     let (op, rhs, x0) = advection(128, 10.0);
