@@ -361,3 +361,68 @@ fn thiem_radial_flow_to_a_well() {
         assert!((order - 2.0).abs() <= 0.25, "order {order}");
     }
 }
+
+/// The model's own driver for a symmetric system is PCG with the multigrid V-cycle: on a wall
+/// of eight layers in series (conductivity contrast 10³, grids of 32² to 256² cells) it meets
+/// the composite-wall profile of Incropera & DeWitt §3.1 (series resistances, as above) within
+/// the rounding bound of the file header, and its iteration count does not grow with the grid
+/// (multigrid's grid-independent convergence rate; Hackbusch, *Multi-Grid Methods and
+/// Applications*, 1985, ch. 6, from memory). A Jacobi-preconditioned PCG needs a count that
+/// grows with `n` (√κ grows like `n`).
+#[test]
+fn the_default_driver_for_conduction_is_multigrid_pcg_with_a_grid_independent_count() {
+    let (width, t1, t3) = (0.4, 80.0, 20.0);
+    let (steel, insulation) = (45.0, 0.045);
+    let mut counts = Vec::new();
+    for n in [32, 128, 256] {
+        let dx = width / n as f64;
+        let geometry = Geometry::cell_centered(n, n, dx, dx, 0.01).unwrap();
+        let layer = |i: usize| {
+            if (8 * i / n) % 2 == 0 {
+                steel
+            } else {
+                insulation
+            }
+        };
+        let k: Vec<f64> = (0..n * n).map(|c| layer(c % n)).collect();
+        let mut model = Model::new(geometry.clone(), Conductivity::isotropic(k)).unwrap();
+        model.prescribe_edge("hot face", Side::West, t1).unwrap();
+        model.prescribe_edge("cold face", Side::East, t3).unwrap();
+        let system = model.assemble().unwrap();
+        let mut solver = system.default_solver().unwrap();
+        solver.options_mut().tolerances.relative = 1e-10;
+        let mut t = system.initial_solution(50.0);
+        let report = system
+            .solve(&mut solver, &mut t, &mut Workspace::new())
+            .unwrap();
+        assert_eq!(report.method, "PCG + multigrid V-cycle");
+        counts.push(report.iterations);
+        // Series resistances per unit area: each cell's width over its conductivity.
+        let resistance: f64 = (0..n).map(|i| dx / layer(i)).sum();
+        let flux = (t1 - t3) / resistance;
+        let exact: Vec<f64> = (0..n * n)
+            .map(|c| {
+                let i = c % n;
+                let before: f64 = (0..i).map(|m| dx / layer(m)).sum();
+                t1 - flux * (before + 0.5 * dx / layer(i))
+            })
+            .collect();
+        let err = t
+            .iter()
+            .zip(&exact)
+            .map(|(a, b)| (a - b).abs())
+            .fold(0.0, f64::max);
+        println!(
+            "{n}x{n} layered wall, default driver: {} iterations, max error {err:.3e} K",
+            report.iterations
+        );
+        if n == 32 {
+            let kappa = condition_number(&system);
+            let rho = report.relative_residual();
+            let bound = rounding_bound(kappa, rho, &exact, flux / insulation, width);
+            assert!(err <= bound, "error {err:e} above the bound {bound:e}");
+        }
+    }
+    assert!(counts.iter().all(|&c| c <= 12), "counts {counts:?}");
+    assert!(counts[2] <= counts[0] + 2, "counts {counts:?}");
+}

@@ -4,11 +4,15 @@
 //! operators (conduction only, or a flow field that is zero between active cells), BiCGSTAB
 //! for non-symmetric ones.
 
-use crate::{Banded5, BiCgStab, Error, Ilu0, IterativeSolver, Jacobi, Pcg};
+use crate::{Banded5, BiCgStab, Error, Ilu0, IterativeSolver, Multigrid, MultigridSettings, Pcg};
 
 /// The driver the model uses for `op` when the caller does not bring one.
 ///
-/// * symmetric: PCG with a Jacobi preconditioner (the free-cell system is SPD);
+/// * symmetric: PCG with the multigrid V-cycle at default settings, in `f64` (the free-cell
+///   system is SPD, so the V-cycle is too): its iteration count does not grow with the grid
+///   or with the conductivity contrast (`tests/model_steady.rs`; the README's iteration
+///   tables), where Jacobi's grows with both. `f64` rather than the cheaper `f32` V-cycle,
+///   because outer iterations and tight budgets ask for residuals far below `10⁻⁸`;
 /// * not symmetric (advection): BiCGSTAB with ILU(0), which needs neither symmetry nor
 ///   definiteness; the factor exists on the M-matrices the upwind, exponential and power-law
 ///   schemes give (central at cell Péclet numbers above 2 gives positive couplings, and the
@@ -19,7 +23,8 @@ pub(crate) fn default_solver(
     symmetric: bool,
 ) -> Result<Box<dyn IterativeSolver<f64>>, Error> {
     if symmetric {
-        Ok(Box::new(Pcg::new(Jacobi::new(op)?)))
+        let multigrid = Multigrid::new(op, MultigridSettings::default())?;
+        Ok(Box::new(Pcg::new(multigrid)))
     } else {
         Ok(Box::new(BiCgStab::new(Ilu0::new(op)?)))
     }

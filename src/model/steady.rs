@@ -127,11 +127,12 @@ impl SteadySystem {
     }
 
     /// The driver the model picks for this system, with default stopping options (change them
-    /// through [`IterativeSolver::options_mut`]): PCG with a Jacobi preconditioner when the
-    /// operator [`is_symmetric`](SteadySystem::is_symmetric), [`BiCgStab`](crate::BiCgStab)
-    /// with [`Ilu0`](crate::Ilu0) when a flow field makes it non-symmetric (see "Choosing a
-    /// solver" in the crate docs for when multigrid or SIP does better). Any other driver
-    /// works through [`solve`](SteadySystem::solve) as well.
+    /// through [`IterativeSolver::options_mut`]): PCG with the [`Multigrid`](crate::Multigrid)
+    /// V-cycle when the operator [`is_symmetric`](SteadySystem::is_symmetric) (an iteration
+    /// count that grows neither with the grid nor with the contrast),
+    /// [`BiCgStab`](crate::BiCgStab) with [`Ilu0`](crate::Ilu0) when a flow field makes it
+    /// non-symmetric (see "Choosing a solver" in the crate docs for when multigrid or SIP does
+    /// better there). Any other driver works through [`solve`](SteadySystem::solve) as well.
     ///
     /// # Errors
     ///

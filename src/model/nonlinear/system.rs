@@ -414,7 +414,8 @@ impl NonlinearSystem {
     }
 
     /// Run the outer iteration from `x` with the model's driver for each linear solve,
-    /// rebuilt from every new matrix (PCG with Jacobi for Picard's symmetric matrices,
+    /// rebuilt from every new matrix (PCG with the multigrid V-cycle for Picard's symmetric
+    /// matrices,
     /// BiCGSTAB with ILU(0) for Newton's), calling `observer` after every outer iteration.
     ///
     /// # Errors

@@ -607,10 +607,10 @@ impl Stepper<Pcg<Jacobi<f64>>> {
 
 impl Stepper<Box<dyn IterativeSolver<f64>>> {
     /// [`Stepper::new`] with the driver the model picks for the step operator (see
-    /// [`SteadySystem::default_solver`](super::SteadySystem::default_solver)): PCG with Jacobi
-    /// when it is symmetric, BiCGSTAB with ILU(0) when a flow field makes it non-symmetric.
-    /// Default stopping tolerances; change them with
-    /// [`Stepper::solver_mut`].
+    /// [`SteadySystem::default_solver`](super::SteadySystem::default_solver)): PCG with the
+    /// multigrid V-cycle when it is symmetric, BiCGSTAB with ILU(0) when a flow field makes it
+    /// non-symmetric. The preconditioner is built once, from the first step operator. Default
+    /// stopping tolerances; change them with [`Stepper::solver_mut`].
     ///
     /// # Errors
     ///
