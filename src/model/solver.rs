@@ -11,8 +11,10 @@ use crate::{Banded5, BiCgStab, Error, Ilu0, IterativeSolver, Multigrid, Multigri
 /// * symmetric: PCG with the multigrid V-cycle at default settings, in `f64` (the free-cell
 ///   system is SPD, so the V-cycle is too): its iteration count does not grow with the grid
 ///   or with the conductivity contrast (`tests/model_steady.rs`; the README's iteration
-///   tables), where Jacobi's grows with both. `f64` rather than the cheaper `f32` V-cycle,
-///   because outer iterations and tight budgets ask for residuals far below `10⁻⁸`;
+///   tables), where Jacobi's grows with both; strong anisotropy raises it (75 iterations at
+///   `kx/ky = 1000` on square cells, Jacobi 850: see the multigrid notes). `f64` rather than
+///   the cheaper `f32` V-cycle, because outer iterations and tight budgets ask for residuals
+///   far below `10⁻⁸`;
 /// * not symmetric (advection): BiCGSTAB with ILU(0), which needs neither symmetry nor
 ///   definiteness; the factor exists on the M-matrices the upwind, exponential and power-law
 ///   schemes give (central at cell Péclet numbers above 2 gives positive couplings, and the

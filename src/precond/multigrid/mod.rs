@@ -64,6 +64,12 @@
 //! ([`MultigridSettings::energy_step`], on by default), which makes every cycle reduce the
 //! error (slowly, there: about 160 cycles at 128²); with lumped Galerkin operators the plain
 //! cycle converges (about 12 cycles at 256²). On heterogeneous fields PCG is the use.
+//! **Strong anisotropy** is this cycle's weak case: the point smoother hardly smooths along
+//! the weakly coupled direction, and the 2 × 2 aggregation coarsens that direction too. On a
+//! 513 × 257 section with `kx/ky = 1000` on square cells MG-PCG needed 75 iterations to 10⁻¹⁰
+//! (PCG + Jacobi 850; `tests/model_steady.rs`). What matters is the ratio of the couplings
+//! (`kx·Δy/Δx` against `ky·Δx/Δy`), not `kx/ky` alone: cells longer along the strong
+//! direction reduce it.
 //! Results support, and do not replace, engineering judgement: check the report.
 
 mod aggregate;
