@@ -147,9 +147,9 @@
 //!
 //! **The outer iteration** ([`OuterSettings`]) solves `M·δ = −F(x)` with the true nonlinear
 //! residual `F` on the right, `M` the lagged-coefficient matrix (Picard: symmetric, PCG with
-//! the multigrid V-cycle by default) or the Jacobian (Newton: not symmetric, BiCGSTAB with ILU(0) by
-//! default); any driver can be given ([`NonlinearSystem::solve_with`]). The inner tolerance
-//! tightens with the nonlinear residual; a correction longer than
+//! the multigrid V-cycle by default) or the Jacobian (Newton: not symmetric, BiCGSTAB with
+//! ILU(0) by default); any driver can be given ([`NonlinearSystem::solve_with`]). The inner
+//! tolerance tightens with the nonlinear residual; a correction longer than
 //! [`OuterSettings::max_change`] is scaled down, and one that raises the residual is halved.
 //! It stops when both the last change and the residual meet their tolerances; otherwise
 //! [`ErrorKind::OuterNotConverged`](crate::ErrorKind::OuterNotConverged) with the last

@@ -415,8 +415,8 @@ impl NonlinearSystem {
 
     /// Run the outer iteration from `x` with the model's driver for each linear solve,
     /// rebuilt from every new matrix (PCG with the multigrid V-cycle for Picard's symmetric
-    /// matrices,
-    /// BiCGSTAB with ILU(0) for Newton's), calling `observer` after every outer iteration.
+    /// matrices, BiCGSTAB with ILU(0) for Newton's), calling `observer` after every outer
+    /// iteration.
     ///
     /// # Errors
     ///
