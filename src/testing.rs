@@ -55,3 +55,18 @@ pub(crate) fn diffusion(
     op.with_fixed(FixedCells::new(grid, fixed.iter().copied()).unwrap())
         .unwrap()
 }
+
+/// Fields for the tests that cut a level's passes into bands of rows: on 40 × 200, 33 × 259
+/// and 17 × 330 cells (odd and even sides, several bands of coarse rows), conductances over
+/// four decades, a storage term, and fixed cells at corners, next to edges and on band cuts.
+pub(crate) fn band_cut_fields(numbers: &mut Numbers) -> Vec<Banded5<f64>> {
+    [(40, 200), (33, 259), (17, 330)]
+        .into_iter()
+        .map(|(nx, ny)| {
+            let fixed = [0, nx + 3, 64 * nx + 5, 65 * nx, 130 * nx + 1, nx * ny - 1];
+            let storage: Vec<f64> = (0..nx * ny).map(|_| numbers.next()).collect();
+            let mut conductance = || 10f64.powf(4.0 * numbers.next() - 2.0);
+            diffusion(nx, ny, &mut conductance, &|k| storage[k], &fixed)
+        })
+        .collect()
+}

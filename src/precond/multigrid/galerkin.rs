@@ -106,18 +106,18 @@ fn galerkin_in_bands<T: Scalar, R: Stencil5<T> + ?Sized, W: Fn(usize) -> (T, T) 
 /// from the other threads' TLBs (an interrupt to every CPU the process runs on). Written
 /// first, each page faults once, in the band's own thread. Measured on the contrast-10⁴
 /// field at 2000²: these faults were a fifth of the hierarchy's set-up time.
-fn zero_first<E: Copy>(outputs: &mut [&mut [E]], zero: E) {
+pub(super) fn zero_first<E: Copy>(outputs: &mut [&mut [E]], zero: E) {
     for out in outputs.iter_mut() {
         out.fill(zero);
     }
 }
 
 /// A pass over a band of coarse rows, writing the band's part of each output.
-type BandPass<'a, E> = dyn Fn(Range<usize>, &mut [&mut [E]]) + Sync + 'a;
+pub(super) type BandPass<'a, E> = dyn Fn(Range<usize>, &mut [&mut [E]]) + Sync + 'a;
 
 /// Run `pass(rows, outputs)` on `bands` bands of the coarse rows `rows`, each output cut at
 /// the same rows (`ncx` entries per row): halves side by side on the pool, recursively.
-fn in_bands<E: Send>(
+pub(super) fn in_bands<E: Send>(
     rows: Range<usize>,
     bands: usize,
     outputs: &mut [&mut [E]],
@@ -440,19 +440,15 @@ mod tests {
     use super::super::level::Level;
     use super::super::CoarseOperator;
     use super::*;
-    use crate::testing::{diffusion, Numbers};
+    use crate::testing::{band_cut_fields, Numbers};
 
     /// The passes in 2 to 6 bands of coarse rows, serial and on the pool, give the bits of one
     /// band, on fields with conductances over four decades, fixed cells (some on band cuts),
     /// storage, and odd and even sides.
     #[test]
     fn bands_give_the_bits_of_one_pass() {
-        let mut numbers = Numbers(5);
-        for (nx, ny) in [(40, 200), (33, 259), (17, 330)] {
-            let fixed = [0, nx + 3, 64 * nx + 5, 65 * nx, 130 * nx + 1, nx * ny - 1];
-            let storage: Vec<f64> = (0..nx * ny).map(|_| numbers.next()).collect();
-            let mut conductance = || 10f64.powf(4.0 * numbers.next() - 2.0);
-            let op = diffusion(nx, ny, &mut conductance, &|k| storage[k], &fixed);
+        for op in band_cut_fields(&mut Numbers(5)) {
+            let (nx, ny) = (op.grid().nx(), op.grid().ny());
             let level: Level<f64> = Level::below(&op, CoarseOperator::Upscaled).unwrap();
             let grid = level.op.grid;
             let active: Vec<bool> = (0..grid.cells())

@@ -32,12 +32,20 @@
 //!   9–15 at Péclet 10–100.
 //!
 //! The coarsest level is then solved by a banded LU factorisation (`direct::BandLu`).
+//!
+//! Both passes of the skew part (the Galerkin entries, then their lumping onto edges) run in
+//! bands of coarse rows on the pool's threads, like `galerkin.rs`: a band adds only into its
+//! own rows, visiting the cells that reach them in the serial order, so the bits do not
+//! depend on the number of bands (unit test below; `setup_profile` fingerprints).
 
 use std::marker::PhantomData;
 
+use super::galerkin::{in_bands, zero_first};
 use super::level::{active_cells, inverse_centers, Level};
-use super::CoarseOperator;
+use super::{CoarseOperator, MAX_BANDS};
+use crate::blocks::threads_for;
 use crate::operator::{FixedCells, Stencil5};
+use crate::space::Threaded;
 use crate::{Coeffs5, Error, Grid, Scalar};
 
 /// The symmetric part `½(A + Aᵀ)` of `op`'s eliminated rows, as a stencil (built once per
@@ -116,8 +124,22 @@ fn slot(dx: i64, dy: i64) -> usize {
     ((dx + 2) + 5 * (dy + 2)) as usize
 }
 
-/// Add the lumped, upwinded Galerkin skew part of `fine` to `level`'s coarse rows.
+/// Add the lumped, upwinded Galerkin skew part of `fine` to `level`'s coarse rows, its two
+/// passes in bands of coarse rows on the pool's threads.
 fn add_skew_part<T: Scalar, R: Stencil5<T> + ?Sized>(level: &mut Level<T>, fine: &R) {
+    let bands = threads_for(&Threaded, fine.grid().cells()).min(MAX_BANDS);
+    add_skew_part_in_bands(level, fine, bands);
+}
+
+/// [`add_skew_part`] with each pass cut into `bands` bands of coarse rows, side by side
+/// (`galerkin::in_bands`). A band writes only its own coarse rows and visits the fine cells
+/// (first pass) or coarse cells (second pass) that reach them in the order of one serial
+/// pass, so every sum is added in the same order for any `bands`.
+fn add_skew_part_in_bands<T: Scalar, R: Stencil5<T> + ?Sized>(
+    level: &mut Level<T>,
+    fine: &R,
+    bands: usize,
+) {
     let g = fine.grid();
     let (nx, ny) = (g.nx(), g.ny());
     let cg = level.op.grid;
@@ -125,57 +147,72 @@ fn add_skew_part<T: Scalar, R: Stencil5<T> + ?Sized>(level: &mut Level<T>, fine:
     let coarse_active: Vec<bool> = (0..nc).map(|k| !level.op.inactive.contains(k)).collect();
     let fine_active = active_cells(fine);
     let half: T = crate::scalar::lit(0.5);
+    let coords = |kc: usize| ((kc % ncx) as i64, (kc / ncx) as i64);
+    let built = &*level;
     // Galerkin skew entries, each unordered coarse pair once: `gal[a][slot(dx, dy)]` is
     // `K_c[a, c]` for `c = a + (dx, dy)` in the upper half-plane (`K_c[c, a]` is its negative).
+    // A fine pair (k, l) adds into coarse rows j/2 − 1 to (j + 1)/2 + 1 of k's row j, so a
+    // band of coarse rows [r0, r1) visits fine rows 2·r0 − 4 to 2·r1 + 1.
     let mut gal = vec![[T::zero(); 25]; nc];
-    let coords = |kc: usize| ((kc % ncx) as i64, (kc / ncx) as i64);
-    let mut add_pair = |k: usize, l: usize, s: T| {
-        let (i, j) = (k % nx, k / nx);
-        let (il, jl) = (l % nx, l / nx);
-        let pk = level.stencil(i, j, k);
-        let pl = level.stencil(il, jl, l);
-        for &(a, wa) in &pk {
-            if wa == T::zero() || !coarse_active[a] {
-                continue;
-            }
-            for &(c, wc) in &pl {
-                if wc == T::zero() || !coarse_active[c] || a == c {
+    in_bands(0..ncy, bands, &mut [&mut gal[..]], ncx, &|rows, out| {
+        zero_first(&mut *out, [T::zero(); 25]);
+        let gal = &mut *out[0];
+        let (base, mine) = (rows.start * ncx, rows.start * ncx..rows.end * ncx);
+        let mut add_pair = |k: usize, l: usize, s: T| {
+            let (i, j) = (k % nx, k / nx);
+            let (il, jl) = (l % nx, l / nx);
+            let pk = built.stencil(i, j, k);
+            let pl = built.stencil(il, jl, l);
+            for &(a, wa) in &pk {
+                if wa == T::zero() || !coarse_active[a] {
                     continue;
                 }
-                let v = wa * s * wc;
-                let ((ai, aj), (ci, cj)) = (coords(a), coords(c));
-                let (dx, dy) = (ci - ai, cj - aj);
-                if dy > 0 || (dy == 0 && dx > 0) {
-                    gal[a][slot(dx, dy)] = gal[a][slot(dx, dy)] + v;
-                } else {
-                    gal[c][slot(-dx, -dy)] = gal[c][slot(-dx, -dy)] - v;
+                for &(c, wc) in &pl {
+                    if wc == T::zero() || !coarse_active[c] || a == c {
+                        continue;
+                    }
+                    let ((ai, aj), (ci, cj)) = (coords(a), coords(c));
+                    let (dx, dy) = (ci - ai, cj - aj);
+                    let upper = dy > 0 || (dy == 0 && dx > 0);
+                    let target = if upper { a } else { c };
+                    if !mine.contains(&target) {
+                        continue;
+                    }
+                    let v = wa * s * wc;
+                    let entry = &mut gal[target - base];
+                    if upper {
+                        entry[slot(dx, dy)] = entry[slot(dx, dy)] + v;
+                    } else {
+                        entry[slot(-dx, -dy)] = entry[slot(-dx, -dy)] - v;
+                    }
+                }
+            }
+        };
+        for j in (2 * rows.start).saturating_sub(4)..(2 * rows.end + 2).min(ny) {
+            for i in 0..nx {
+                let k = i + nx * j;
+                if !fine_active(k) {
+                    continue;
+                }
+                let here = fine.eliminated_coeffs(i, j);
+                if i + 1 < nx && fine_active(k + 1) {
+                    let s = half * (here.east - fine.eliminated_coeffs(i + 1, j).west);
+                    if s != T::zero() {
+                        add_pair(k, k + 1, s);
+                    }
+                }
+                if j + 1 < ny && fine_active(k + nx) {
+                    let s = half * (here.north - fine.eliminated_coeffs(i, j + 1).south);
+                    if s != T::zero() {
+                        add_pair(k, k + nx, s);
+                    }
                 }
             }
         }
-    };
-    for j in 0..ny {
-        for i in 0..nx {
-            let k = i + nx * j;
-            if !fine_active(k) {
-                continue;
-            }
-            let here = fine.eliminated_coeffs(i, j);
-            if i + 1 < nx && fine_active(k + 1) {
-                let s = half * (here.east - fine.eliminated_coeffs(i + 1, j).west);
-                if s != T::zero() {
-                    add_pair(k, k + 1, s);
-                }
-            }
-            if j + 1 < ny && fine_active(k + nx) {
-                let s = half * (here.north - fine.eliminated_coeffs(i, j + 1).south);
-                if s != T::zero() {
-                    add_pair(k, k + nx, s);
-                }
-            }
-        }
-    }
+    });
     // Lump onto the coarse edges: `east_skew[p]` is `K[p, p+1]`, `north_skew[p]` is
-    // `K[p, p+ncx]`.
+    // `K[p, p+ncx]`. A coarse pair (a, c) adds into rows aj to aj + 2 of a's row aj, so a
+    // band visits the pairs of coarse rows r0 − 2 to r1 − 1.
     let mut east_skew = vec![T::zero(); nc];
     let mut north_skew = vec![T::zero(); nc];
     let mut extra_center = vec![T::zero(); nc];
@@ -208,57 +245,75 @@ fn add_skew_part<T: Scalar, R: Stencil5<T> + ?Sized>(level: &mut Level<T>, fine:
         }
         (out, count)
     };
-    for a in 0..nc {
-        if !coarse_active[a] {
-            continue;
-        }
-        let (ai, aj) = coords(a);
-        for dy in 0i64..=2 {
-            for dx in -2i64..=2 {
-                if dy == 0 && dx <= 0 {
-                    continue;
-                }
-                let v = gal[a][slot(dx, dy)];
-                if v == T::zero() {
-                    continue;
-                }
-                let (ci, cj) = (ai + dx, aj + dy);
-                if ci < 0 || ci >= ncx as i64 || cj >= ncy as i64 {
-                    continue;
-                }
-                let c = ci as usize + ncx * cj as usize;
-                let candidates = if dx == 0 || dy == 0 {
-                    [Some(path(a, dx, dy, true)), None]
-                } else {
-                    [Some(path(a, dx, dy, true)), Some(path(a, dx, dy, false))]
-                };
-                let usable = candidates
-                    .iter()
-                    .flatten()
-                    .filter(|(steps, m)| open(&steps[..*m]))
-                    .count();
-                if usable == 0 {
-                    extra_center[a] = extra_center[a] + v.abs();
-                    extra_center[c] = extra_center[c] + v.abs();
-                    continue;
-                }
-                let share = v / T::from(usable).unwrap_or_else(T::one);
-                for (steps, m) in candidates.iter().flatten() {
-                    if !open(&steps[..*m]) {
+    let gal = &gal;
+    let outputs = &mut [
+        &mut east_skew[..],
+        &mut north_skew[..],
+        &mut extra_center[..],
+    ];
+    in_bands(0..ncy, bands, outputs, ncx, &|rows, out| {
+        zero_first(&mut *out, T::zero());
+        let [east_skew, north_skew, extra_center] = out else {
+            unreachable!("three outputs")
+        };
+        let (base, mine) = (rows.start * ncx, rows.start * ncx..rows.end * ncx);
+        let add = |v: &mut [T], p: usize, h: T| {
+            if mine.contains(&p) {
+                v[p - base] = v[p - base] + h;
+            }
+        };
+        for a in rows.start.saturating_sub(2) * ncx..rows.end * ncx {
+            if !coarse_active[a] {
+                continue;
+            }
+            let (ai, aj) = coords(a);
+            for dy in 0i64..=2 {
+                for dx in -2i64..=2 {
+                    if dy == 0 && dx <= 0 {
                         continue;
                     }
-                    for &(p, east, forward) in &steps[..*m] {
-                        let signed = if forward { share } else { -share };
-                        if east {
-                            east_skew[p] = east_skew[p] + signed;
-                        } else {
-                            north_skew[p] = north_skew[p] + signed;
+                    let v = gal[a][slot(dx, dy)];
+                    if v == T::zero() {
+                        continue;
+                    }
+                    let (ci, cj) = (ai + dx, aj + dy);
+                    if ci < 0 || ci >= ncx as i64 || cj >= ncy as i64 {
+                        continue;
+                    }
+                    let c = ci as usize + ncx * cj as usize;
+                    let candidates = if dx == 0 || dy == 0 {
+                        [Some(path(a, dx, dy, true)), None]
+                    } else {
+                        [Some(path(a, dx, dy, true)), Some(path(a, dx, dy, false))]
+                    };
+                    let usable = candidates
+                        .iter()
+                        .flatten()
+                        .filter(|(steps, m)| open(&steps[..*m]))
+                        .count();
+                    if usable == 0 {
+                        add(extra_center, a, v.abs());
+                        add(extra_center, c, v.abs());
+                        continue;
+                    }
+                    let share = v / T::from(usable).unwrap_or_else(T::one);
+                    for (steps, m) in candidates.iter().flatten() {
+                        if !open(&steps[..*m]) {
+                            continue;
+                        }
+                        for &(p, east, forward) in &steps[..*m] {
+                            let signed = if forward { share } else { -share };
+                            if east {
+                                add(east_skew, p, signed);
+                            } else {
+                                add(north_skew, p, signed);
+                            }
                         }
                     }
                 }
             }
         }
-    }
+    });
     // Upwind form of each coarse edge's skew value.
     let rows = &mut level.op.rows;
     for p in 0..nc {
@@ -284,4 +339,44 @@ fn add_skew_part<T: Scalar, R: Stencil5<T> + ?Sized>(level: &mut Level<T>, fine:
         }
     }
     level.inverse_centers = inverse_centers(&level.op.rows, |k| coarse_active[k]);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::testing::{band_cut_fields, Numbers};
+    use crate::Banded5;
+
+    /// The skew part's two passes in 2 to 6 bands of coarse rows give the bits of one band, on
+    /// non-symmetric fields (couplings over four decades, each west coupling scaled apart
+    /// from its neighbour's east one), with fixed cells (some on band cuts), storage, and odd
+    /// and even sides.
+    #[test]
+    fn bands_give_the_bits_of_one_pass() {
+        let mut numbers = Numbers(11);
+        for symmetric in band_cut_fields(&mut numbers) {
+            let (nx, ny) = (symmetric.grid().nx(), symmetric.grid().ny());
+            let skew: Vec<f64> = (0..nx * ny).map(|_| 0.5 + numbers.next()).collect();
+            let grid = symmetric.grid();
+            let op = Banded5::from_fn(grid, |i, j| {
+                let mut c = symmetric.coeffs(i, j);
+                (c.west, c.south) = (c.west * skew[i + nx * j], c.south * skew[i + nx * j]);
+                c
+            })
+            .unwrap()
+            .with_fixed(symmetric.fixed().unwrap().clone())
+            .unwrap();
+            let upscaled = CoarseOperator::Upscaled;
+            let level: Level<f64> = Level::below(&SymmetricPart::new(&op), upscaled).unwrap();
+            let mut one = level.clone();
+            add_skew_part_in_bands(&mut one, &op, 1);
+            for bands in 2..=6 {
+                let mut cut = level.clone();
+                add_skew_part_in_bands(&mut cut, &op, bands);
+                // `Debug` prints every float exactly, the sign of a zero included.
+                let bits = |l: &Level<f64>| format!("{:?} {:?}", l.op.rows, l.inverse_centers);
+                assert_eq!(bits(&cut), bits(&one), "{nx} x {ny}, {bands} bands");
+            }
+        }
+    }
 }
