@@ -11,14 +11,20 @@
 //! `2c + 2`, in that order; the band's pass 2 stays inside the band's own coarse rows, and
 //! those whose fine rows it did not all take are finished at the cut.
 //!
-//! The cut's step at fine row `J`, after every band: pass 1 on rows `J − 1` to `J + 1`, then
-//! pass 2 on fine rows `J − 5` to `J + 4` into a zeroed window of coarse rows `J/2 − 3` to
-//! `J/2 + 2`, whose four middle rows — the coarse rows those fine rows are the only
-//! contributors of, their terms now added in the one sweep's order — replace the bands'
-//! partial sums (the window's first and last rows take the additions meant for rows the bands
-//! finish, and are dropped). Every coarse entry thus gets its terms in the order of the one
-//! sweep, from the same values: the same bits (`setup_bands_tests.rs`, 1–6 bands, serial and
-//! side by side).
+//! Pass 0's conductances and excess are read only a few rows behind it, so a band keeps them
+//! for a window of rows that moves down with the passes ([`WINDOW_ROWS`]), not for all its
+//! rows: a fine-sized array of each would be fresh memory, its pages faulted in and zeroed by
+//! the operating system, for values that are in cache anyway when they are read.
+//!
+//! The cut's step at fine row `J`, after every band: pass 0 again on rows `J − 6` to `J + 5`
+//! (the conductances that the cut's passes read; the bands' windows are gone), pass 1 on rows
+//! `J − 1` to `J + 1`, then pass 2 on fine rows `J − 5` to `J + 4` into a zeroed window of
+//! coarse rows `J/2 − 3` to `J/2 + 2`, whose four middle rows — the coarse rows those fine
+//! rows are the only contributors of, their terms now added in the one sweep's order —
+//! replace the bands' partial sums (the window's first and last rows take the additions meant
+//! for rows the bands finish, and are dropped). Every coarse entry thus gets its terms in the
+//! order of the one sweep, from the same values: the same bits (`setup_bands_tests.rs`, 1–6
+//! bands, serial and side by side; windows that move against windows of a whole band).
 
 use super::sweep::{CoarseRows, Found, Sweep};
 use crate::blocks::join;
@@ -42,6 +48,14 @@ const _: () = assert!(MIN_BAND_ROWS > 2 * PASS2_CUT_ROWS);
 const LAG1: usize = 2;
 const LAG2: usize = 4;
 
+/// Rows of pass 0's output a band's window holds. When pass 0 reaches the window's end, the
+/// last [`HISTORY`] rows move to its start: pass 2, [`LAG2`] rows behind pass 0, reads one
+/// row below its own, and pass 1 less far back. (32 rows of a 2000-cell-wide `f32` grid are
+/// 0.77 MB for the three arrays; moving 6 rows of every 26 is a copy in cache.)
+const WINDOW_ROWS: usize = 32;
+const HISTORY: usize = LAG2 + 2;
+const _: () = assert!(WINDOW_ROWS > HISTORY);
+
 /// What the sweep builds: the coarse cells' activity, the coarse rows (before their centers
 /// get the couplings' sum), and the interpolation weights per fine cell.
 pub(super) struct Swept<T> {
@@ -61,12 +75,11 @@ pub(super) fn cuts(ny: usize, bands: usize) -> Vec<usize> {
     cuts
 }
 
-/// A band's rows of the per-fine-cell arrays and of the coarse flags.
+/// A band's rows of the per-fine-cell arrays and of the coarse flags, and the rows of its
+/// window of pass 0's output.
 struct Band<'a, T> {
     rows: std::ops::Range<usize>,
-    east: &'a mut [T],
-    north: &'a mut [T],
-    excess: &'a mut [T],
+    window_rows: usize,
     wx: &'a mut [T],
     wy: &'a mut [T],
     active: &'a mut [bool],
@@ -79,18 +92,25 @@ pub(super) fn sweep_in_bands<T: Scalar, R: Stencil5<T> + ?Sized>(
     bands: usize,
     parallel: bool,
 ) -> Option<Swept<T>> {
+    sweep_with_windows(sweep, bands, parallel, WINDOW_ROWS)
+}
+
+/// [`sweep_in_bands`] with windows of `window_rows` rows (more than [`HISTORY`]).
+pub(super) fn sweep_with_windows<T: Scalar, R: Stencil5<T> + ?Sized>(
+    sweep: &Sweep<'_, T, R>,
+    bands: usize,
+    parallel: bool,
+    window_rows: usize,
+) -> Option<Swept<T>> {
+    assert!(window_rows > HISTORY);
     let (nx, ny, ncx) = (sweep.nx, sweep.ny, sweep.ncx);
     let (n, nc) = (nx * ny, ncx * ny.div_ceil(2));
     let cuts = cuts(ny, bands);
-    let mut east = vec![T::zero(); n];
-    let mut north = vec![T::zero(); n];
-    let mut excess = vec![T::zero(); n];
     let mut wx = vec![T::zero(); n];
     let mut wy = vec![T::zero(); n];
     let mut active = vec![false; nc];
     let mut parts = Vec::with_capacity(cuts.len() - 1);
     {
-        let (mut e, mut no, mut ex) = (&mut east[..], &mut north[..], &mut excess[..]);
         let (mut x, mut y, mut a) = (&mut wx[..], &mut wy[..], &mut active[..]);
         for pair in cuts.windows(2) {
             let (cells, coarse) = (
@@ -99,9 +119,7 @@ pub(super) fn sweep_in_bands<T: Scalar, R: Stencil5<T> + ?Sized>(
             );
             parts.push(Band {
                 rows: pair[0]..pair[1],
-                east: split_off(&mut e, cells),
-                north: split_off(&mut no, cells),
-                excess: split_off(&mut ex, cells),
+                window_rows: window_rows.min(pair[1] - pair[0]),
                 wx: split_off(&mut x, cells),
                 wy: split_off(&mut y, cells),
                 active: split_off(&mut a, coarse),
@@ -116,29 +134,44 @@ pub(super) fn sweep_in_bands<T: Scalar, R: Stencil5<T> + ?Sized>(
     for more in coarse_rows {
         rows.extend_from_slice(&more?);
     }
-    // The cuts, in turn: pass 1 on their rows, then pass 2 on the fine rows of their coarse
-    // rows.
+    // The cuts, in turn: pass 0 on the rows their passes read, pass 1 on their rows, then
+    // pass 2 on the fine rows of their coarse rows.
     let inner = &cuts[1..cuts.len() - 1];
-    for &cut in inner {
-        let found = Found {
-            first: 0,
-            east: &east,
-            north: &north,
-            excess: &excess,
-        };
-        for j in cut - 1..=cut + 1 {
-            sweep.weights(j, found, &mut wx, &mut wy);
-        }
-    }
+    let span = 2 * PASS2_CUT_ROWS + 2;
+    let (mut east, mut north, mut excess) = (
+        vec![T::zero(); span * nx],
+        vec![T::zero(); span * nx],
+        vec![T::zero(); span * nx],
+    );
+    let mut north_below = vec![T::zero(); nx];
     let mut scratch = vec![T::zero(); 5 * nx];
     let mut window = vec![zero(); 6 * ncx];
     for &cut in inner {
+        let first = cut - PASS2_CUT_ROWS - 1;
+        sweep.north_couplings(first - 1, &mut north_below);
+        for j in first..first + span {
+            let found = (&mut east[..], &mut north[..], &mut excess[..]);
+            // The same test on the same couplings as in the band: it passed there.
+            let same = sweep.conductances(
+                j,
+                first,
+                found,
+                (&mut active, 0),
+                &mut north_below,
+                &mut scratch,
+            );
+            debug_assert!(same);
+        }
         let found = Found {
-            first: 0,
+            first,
             east: &east,
             north: &north,
             excess: &excess,
         };
+        let (wx, wy) = (&mut wx[nx * first..], &mut wy[nx * first..]);
+        for j in cut - 1..=cut + 1 {
+            sweep.weights(j, found, wx, wy);
+        }
         window.fill(zero());
         let mut out = CoarseRows {
             first: cut / 2 - 3,
@@ -249,9 +282,7 @@ fn one_band<T: Scalar, R: Stencil5<T> + ?Sized>(
     let (nx, ny, ncx) = (sweep.nx, sweep.ny, sweep.ncx);
     let Band {
         rows: fine_rows,
-        east,
-        north,
-        excess,
+        window_rows,
         wx,
         wy,
         active,
@@ -269,26 +300,43 @@ fn one_band<T: Scalar, R: Stencil5<T> + ?Sized>(
         sweep.north_couplings(j0 - 1, &mut north_below);
     }
     let mut scratch = vec![T::zero(); 5 * nx];
+    // Pass 0's output for the fine rows from `first` on.
+    let size = nx * *window_rows;
+    let (mut east, mut north, mut excess) = (
+        vec![T::zero(); size],
+        vec![T::zero(); size],
+        vec![T::zero(); size],
+    );
+    let mut first = j0;
     for s in j0..j1 + LAG2 {
         if s < j1 {
             if stop.load(Ordering::Relaxed) {
                 return None;
             }
+            if s == first + *window_rows {
+                let keep = nx * (*window_rows - HISTORY)..size;
+                for v in [&mut east, &mut north, &mut excess] {
+                    v.copy_within(keep.clone(), 0);
+                }
+                first = s - HISTORY;
+            }
             let found = (&mut east[..], &mut north[..], &mut excess[..]);
             let flags = (&mut active[..], c0);
-            if !sweep.conductances(s, j0, found, flags, &mut north_below, &mut scratch) {
+            if !sweep.conductances(s, first, found, flags, &mut north_below, &mut scratch) {
                 stop.store(true, Ordering::Relaxed);
                 return None;
             }
         }
         let found = Found {
-            first: j0,
-            east,
-            north,
-            excess,
+            first,
+            east: &east,
+            north: &north,
+            excess: &excess,
         };
+        // The weights from the window's first row on.
+        let at = nx * (first - j0);
         if let Some(j) = s.checked_sub(LAG1).filter(|j| pass1.contains(j)) {
-            sweep.weights(j, found, wx, wy);
+            sweep.weights(j, found, &mut wx[at..], &mut wy[at..]);
         }
         if let Some(j) = s.checked_sub(LAG2).filter(|j| pass2.contains(j)) {
             // Pass 2 on row j adds into coarse rows up to j/2 + 1.
@@ -297,7 +345,7 @@ fn one_band<T: Scalar, R: Stencil5<T> + ?Sized>(
                 first: c0,
                 rows: &mut rows,
             };
-            let weights = (&wx[..], &wy[..]);
+            let weights = (&wx[at..], &wy[at..]);
             sweep.couplings(j, found, weights, (active, c0), &mut out, &mut scratch);
         }
     }

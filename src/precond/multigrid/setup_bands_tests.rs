@@ -3,7 +3,8 @@
 //! same values, and every coarse entry gets its terms in the order of the one sweep (the
 //! bands' own coarse rows from the band, the coarse rows at a cut from the cut's step).
 
-use super::MIN_BAND_ROWS;
+use super::{sweep_with_windows, Swept, HISTORY, MIN_BAND_ROWS};
+use crate::precond::multigrid::sweep::Sweep;
 use crate::precond::multigrid::{CoarseOperator, Level};
 use crate::testing::Numbers;
 use crate::{Banded5, Coeffs5, FixedCells, Grid};
@@ -104,6 +105,41 @@ fn bands_build_the_bits_of_one_sweep() {
                         );
                     }
                 }
+            }
+        }
+    }
+}
+
+/// The bits of what a sweep builds.
+fn swept_bits(swept: &Swept<f64>) -> (Vec<bool>, Vec<u64>) {
+    let mut bits: Vec<u64> = swept
+        .wx
+        .iter()
+        .chain(&swept.wy)
+        .map(|v| v.to_bits())
+        .collect();
+    for r in &swept.rows {
+        bits.extend([r.center, r.west, r.east, r.south, r.north].map(f64::to_bits));
+    }
+    (swept.active.clone(), bits)
+}
+
+/// Windows of pass 0's output that move down a band (the smallest allowed, sizes that move at
+/// rows of either parity, the default) give the bits of a window holding the whole band, for
+/// 1 to 6 bands: the rows a pass reads are still there, unchanged, after each move.
+#[test]
+fn moving_windows_keep_the_bits_of_whole_bands() {
+    for (nx, ny, seed) in [(23, 200, 1u64), (131, 199, 4)] {
+        let op = random_operator(Grid::new(nx, ny).unwrap(), seed);
+        let sweep = Sweep::new(&op, 1e-10);
+        for bands in 1..=6 {
+            let whole = sweep_with_windows(&sweep, bands, false, ny).unwrap();
+            for window_rows in [HISTORY + 1, HISTORY + 2, 13, super::WINDOW_ROWS] {
+                let moved = sweep_with_windows(&sweep, bands, true, window_rows).unwrap();
+                assert!(
+                    swept_bits(&moved) == swept_bits(&whole),
+                    "{nx} x {ny}, {bands} bands, window of {window_rows} rows"
+                );
             }
         }
     }
