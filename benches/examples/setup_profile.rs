@@ -12,7 +12,12 @@
 //! `ONLY_SETUP=k` in the environment it only repeats the set-up `k` times per problem (for
 //! `perf record`); with `FINGERPRINTS=1` it prints only the hashes of hierarchies built on
 //! more operators (odd sides, random fields with fixed cells, an advection operator; both
-//! coarse-operator rules, `f64` and `f32`).
+//! coarse-operator rules, `f64` and `f32`). With `FRESH=f32` (or `FRESH=f64`) it times one
+//! set-up on Poisson of the first size and exits: the `f32` cast and its hierarchy (or the
+//! `f64` hierarchy), the one set-up of the process, so that its memory comes fresh from the
+//! operating system as in a program that builds one hierarchy (in the loops above the
+//! allocator hands back the pages of the round before). Run it a dozen times, alternating
+//! two binaries, and compare medians.
 
 #[path = "../support/mod.rs"]
 mod support;
@@ -76,6 +81,30 @@ fn fingerprints(name: &str, op: &Banded5<f64>) {
     println!("{line}");
 }
 
+/// One set-up on `n x n` Poisson cells, the first of the process, in `f32` (cast included) or
+/// `f64`.
+fn fresh_setup(n: usize, precision: &str) {
+    let op = poisson(n);
+    let start = Instant::now();
+    match precision {
+        "f32" => {
+            let single = op.cast::<f32>().expect("finite coefficients");
+            let mg = Multigrid::new(&single, MultigridSettings::default()).expect("setup");
+            std::hint::black_box((single, mg));
+        }
+        "f64" => {
+            let mg = Multigrid::new(&op, MultigridSettings::default()).expect("setup");
+            std::hint::black_box(mg);
+        }
+        other => panic!("FRESH={other}: f32 or f64"),
+    }
+    let t = start.elapsed().as_secs_f64();
+    println!(
+        "{n}x{n} poisson, one set-up in a fresh process ({precision}): {:.1} ms",
+        t * 1e3
+    );
+}
+
 fn main() {
     if std::env::var("FINGERPRINTS").is_ok() {
         let values: Vec<f64> = (0..997).map(|k| ((k as f64) * 0.618_034).fract()).collect();
@@ -101,6 +130,10 @@ fn main() {
         .map(|s| s.parse().expect("a grid side"))
         .collect();
     let sides = if sides.is_empty() { vec![1024] } else { sides };
+    if let Ok(precision) = std::env::var("FRESH") {
+        fresh_setup(sides[0], &precision);
+        return;
+    }
     let only_setup: Option<usize> = std::env::var("ONLY_SETUP")
         .ok()
         .map(|k| k.parse().expect("a count"));
