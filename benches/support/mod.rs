@@ -29,15 +29,19 @@ pub const BYTES_CG_ITERATION: f64 = 128.0;
 /// One iteration of the textbook CG loop over CSR: matvec (104), p·q (16), x and r updates (48),
 /// r·r (8), p = r + βp (24).
 pub const BYTES_CG_CSR_ITERATION: f64 = BYTES_MATVEC_CSR + 16.0 + 48.0 + 8.0 + 24.0;
-/// One f32 V(ν,ν) cycle's fine level (two passes over the rows, see
-/// `precond/multigrid/smooth.rs`): pre-smoothing with the restricted residual reads the
-/// operator (20), `b` (4), `1/center` (4), the interpolation weights (8) and writes `x` (4);
-/// prolongation with post-smoothing reads the same and reads and writes `x` (8): 40 + 44.
-pub const BYTES_VCYCLE_F32_FINE: f64 = 84.0;
-/// The coarse levels of that cycle per fine cell: the fine figure plus the right-hand side
+/// One f32 V(ν,ν) cycle's two passes over the rows of a level (see
+/// `precond/multigrid/smooth.rs`), per cell: pre-smoothing with the restricted residual reads
+/// the operator (20), `b` (4), `1/center` (4), the interpolation weights (8) and writes `x`
+/// (4); prolongation with post-smoothing reads the same and reads and writes `x` (8): 40 + 44.
+pub const BYTES_VCYCLE_F32_PASSES: f64 = 84.0;
+/// The f32 cycle's fine level, stored by colour (`precond/multigrid/colour.rs`): the two
+/// passes, the right-hand side put in that order before them (read 4, write 4) and the
+/// correction put back in the natural order after them (read 4, write 4).
+pub const BYTES_VCYCLE_F32_FINE: f64 = BYTES_VCYCLE_F32_PASSES + 16.0;
+/// The coarse levels of that cycle per fine cell: the two passes plus the right-hand side
 /// written by the restriction (8, read-modify-write) per coarse cell, and a third as many
 /// coarse cells as fine ones over all levels.
-pub const BYTES_VCYCLE_F32_COARSE: f64 = (BYTES_VCYCLE_F32_FINE + 8.0) / 3.0;
+pub const BYTES_VCYCLE_F32_COARSE: f64 = (BYTES_VCYCLE_F32_PASSES + 8.0) / 3.0;
 /// The f64 part of one MG-PCG iteration with the V-cycle in f32 (`SinglePrecision` fuses its
 /// passes with PCG's, `precond/fused.rs`): `r·z` straight from the f32 `z` (8 + 4),
 /// `p = z + βp` from the f32 `z` (4 + 16), `q = A·p` with `p·q` (56), the `x`/`r` update with

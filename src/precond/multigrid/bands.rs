@@ -285,20 +285,19 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
             } => (Some((transfer, coarse_b, first)), None),
             Coarse::Prolong { transfer, coarse_x } => (None, Some((transfer, coarse_x))),
         };
-        let prolong = |x: &mut [T], j: usize| {
+        let prolong = |x: &mut [T], buf: &mut [T], j: usize| {
             if let Some((transfer, coarse_x)) = prolong_from {
-                let row = &mut x[(j - lo) * nx..][..nx];
-                transfer.prolong_row(j, 0..nx, row, inactive, coarse_x);
+                self.prolong_row((transfer, inactive, coarse_x), x, lo, nx, j, buf);
             }
         };
         if lo < hi {
-            prolong(x, lo);
+            prolong(x, buf, lo);
         }
         let at = |t: usize, back: usize| t.checked_sub(back).filter(|j| (lo..hi).contains(j));
         for t in lo..hi + 2 * sweeps {
             // The first sweep reads row t + 1 at this step.
             if t + 1 < hi {
-                prolong(x, t + 1);
+                prolong(x, buf, t + 1);
             }
             for s in 0..sweeps {
                 for (h, back) in [(2 * s + 1, 2 * s), (2 * s + 2, 2 * s + 1)] {
@@ -315,7 +314,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
             let Some(j) = at(t, 2 * sweeps).filter(|&j| band.residual_ready(j)) else {
                 continue;
             };
-            self.residual_row(x, lo, j, &mut ring[(j % 4) * nx..][..nx]);
+            self.residual_row(x, lo, j, buf, &mut ring[(j % 4) * nx..][..nx]);
             // Coarse rows whose last fine row is j, all of whose fine rows this pass finished.
             let ncx = transfer.coarse_width();
             for cj in j.saturating_sub(2) / 2..(j / 2 + 2).min(grid.ny().div_ceil(2)) {
@@ -379,7 +378,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
         let r_first = transfer.fine_rows_of(c_first, ny).start;
         let r_end = transfer.fine_rows_of(c_last, ny).end;
         for j in r_first..r_end {
-            self.residual_row(x, lo, j, &mut rows[(j - r_first) * nx..][..nx]);
+            self.residual_row(x, lo, j, buf, &mut rows[(j - r_first) * nx..][..nx]);
         }
         let inactive = self.op.fixed().filter(|f| !f.is_empty());
         let rows = &*rows;

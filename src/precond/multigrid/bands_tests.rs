@@ -83,6 +83,7 @@ fn bands_do_not_change_the_bits() {
                     inv: &fine_inv,
                     b: &b,
                     stored: None,
+                    by_colour: None,
                 };
                 let mut x = vec![f64::NAN; grid.cells()];
                 let mut restricted = vec![f64::NAN; level0.b.len()];
@@ -112,6 +113,7 @@ fn bands_do_not_change_the_bits() {
                     inv: &level0.inverse_centers,
                     b: &coarse_b,
                     stored: Some(&level0.op.rows),
+                    by_colour: None,
                 };
                 let mut y = vec![f64::NAN; level0.x.len()];
                 let mut restricted1 = vec![f64::NAN; level1.b.len()];

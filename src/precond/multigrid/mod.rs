@@ -74,6 +74,7 @@
 
 mod aggregate;
 mod bands;
+mod colour;
 mod direct;
 mod galerkin;
 mod galerkin_rows;
@@ -89,6 +90,7 @@ mod sweep;
 mod transfer;
 
 use bands::scratch_rows;
+use colour::ByColour;
 use direct::{CoarsestSolve, MAX_DIRECT_CELLS};
 pub(crate) use level::{active_cells, inverse_centers, over_relax, Level, LevelOperator};
 use smooth::Rows;
@@ -99,7 +101,7 @@ use crate::blocks::threads_for;
 use crate::iterate::{IterativeSolver, NameCache, Requires, SolveOptions, Task, Workspace};
 use crate::operator::Stencil5;
 use crate::relax::correction_solve;
-use crate::space::Space;
+use crate::space::{Space, Threaded};
 use crate::stencil::check_symmetry;
 use crate::{Error, Grid, LinearOperator, Progress, Report, Scalar};
 
@@ -267,7 +269,13 @@ impl Default for MultigridSettings {
 /// a third of the fine cell count over all levels), two vectors per coarse cell, about
 /// `4ν + 9` rows of the fine grid per thread (at most 16) as the smoother's scratch, and the
 /// coarsest factor; under the 1.5 × five-array budget of the fine operator
-/// ([`storage_bytes`](Multigrid::storage_bytes)).
+/// ([`storage_bytes`](Multigrid::storage_bytes)). An `f32` hierarchy on a grid of even width
+/// also keeps its fine level by colour: each row's even cells, then its odd ones (the five
+/// coefficients, `1/center` and the cycle's right-hand side: 24 bytes per cell, the size of
+/// the `f32` copy it was built from, plus 4). A half-sweep then reads only its own colour's
+/// coefficients and values, in one contiguous loop, where the natural order computes the
+/// whole row's product for every half-sweep; the results are the same bits. The smoothing
+/// uses the coefficients the hierarchy was built from (as the coarse levels always do).
 ///
 /// Each level is smoothed in two passes over its rows per cycle (all `ν` red-black sweeps
 /// travel down the grid together, the residual's restriction trailing them, the
@@ -305,8 +313,11 @@ pub struct Multigrid<T> {
     /// restriction, [`smooth::scratch_rows`] rows of the fine grid.
     row_buffer: Vec<T>,
     /// `1/center` of the fine operator at free cells, 0 at fixed cells (`f32`, see
-    /// `Level::inverse_centers`).
+    /// `Level::inverse_centers`); empty when the fine level is stored by colour.
     fine_inverse_centers: Vec<f32>,
+    /// The fine level stored by colour (`colour.rs`): for an `f32` hierarchy on a grid of an
+    /// even width, with at least one coarse level.
+    by_colour: Option<ByColour<T>>,
     /// Stopping rule for the standalone solver.
     pub options: SolveOptions,
     name: NameCache,
@@ -378,22 +389,32 @@ impl<T: Scalar> Multigrid<T> {
         for level in &mut levels {
             level::over_relax(&mut level.inverse_centers, omega);
         }
-        // Row by row (no division of the cell index), in cell order: the centers of a row
-        // gathered first, so that the divisions run as a loop the compiler vectorises; then
-        // 0 at the fixed cells. The product with ω is exact for ω = 1.
+        // The `f32` cycle is the one that runs near the memory's speed, where a contiguous
+        // loop per colour pays for the copy of the fine operator; the `f64` one stays lean.
         let (nx, w) = (grid.nx(), omega as f32);
-        let mut fine_inverse_centers = Vec::with_capacity(grid.cells());
-        let mut centers = vec![T::zero(); nx];
-        for j in 0..grid.ny() {
-            for (i, center) in centers.iter_mut().enumerate() {
-                *center = op.coeffs(i, j).center;
+        let f32_cycle = std::mem::size_of::<T>() == std::mem::size_of::<f32>();
+        let pieces = threads_for(&Threaded, grid.cells()).min(MAX_BANDS);
+        let by_colour = (f32_cycle && !levels.is_empty())
+            .then(|| ByColour::new(op, w, pieces, pieces > 1))
+            .flatten();
+        let mut fine_inverse_centers = Vec::new();
+        if by_colour.is_none() {
+            // Row by row (no division of the cell index), in cell order: the centers of a row
+            // gathered first, so that the divisions run as a loop the compiler vectorises;
+            // then 0 at the fixed cells. The product with ω is exact for ω = 1.
+            fine_inverse_centers.reserve_exact(grid.cells());
+            let mut centers = vec![T::zero(); nx];
+            for j in 0..grid.ny() {
+                for (i, center) in centers.iter_mut().enumerate() {
+                    *center = op.coeffs(i, j).center;
+                }
+                let inverse = centers.iter().map(|&c| level::narrow_one(T::one() / c) * w);
+                fine_inverse_centers.extend(inverse);
             }
-            let inverse = centers.iter().map(|&c| level::narrow_one(T::one() / c) * w);
-            fine_inverse_centers.extend(inverse);
-        }
-        for &k in fine.fixed().map_or(&[][..], |f| f.cells()) {
-            if let Some(inverse) = fine_inverse_centers.get_mut(k) {
-                *inverse = 0.0;
+            for &k in fine.fixed().map_or(&[][..], |f| f.cells()) {
+                if let Some(inverse) = fine_inverse_centers.get_mut(k) {
+                    *inverse = 0.0;
+                }
             }
         }
         Ok(Multigrid {
@@ -407,6 +428,7 @@ impl<T: Scalar> Multigrid<T> {
                 scratch_rows(grid, settings.smoothing_sweeps, MAX_BANDS) * grid.nx()
             ],
             fine_inverse_centers,
+            by_colour,
             options: SolveOptions::default(),
             name: NameCache::default(),
         })
@@ -458,8 +480,9 @@ impl<T: Scalar> Multigrid<T> {
         self.settings
     }
 
-    /// Bytes held by the hierarchy (coarse operators, level vectors, the smoother's scratch rows
-    /// and the coarsest factor), not counting the fine operator itself.
+    /// Bytes held by the hierarchy (coarse operators, level vectors, the smoother's scratch rows,
+    /// the coarsest factor and an `f32` fine level by colour), not counting the fine operator
+    /// itself.
     ///
     /// ```
     /// use quintet::prelude::*;
@@ -474,6 +497,7 @@ impl<T: Scalar> Multigrid<T> {
         self.levels.iter().map(Level::bytes).sum::<usize>() // local: bytes held by the levels
             + self.row_buffer.len() * std::mem::size_of::<T>()
             + self.fine_inverse_centers.len() * std::mem::size_of::<f32>()
+            + self.by_colour.as_ref().map_or(0, ByColour::bytes)
             + self.direct.bytes()
     }
 
@@ -490,6 +514,21 @@ impl<T: Scalar> Multigrid<T> {
     /// ```
     pub fn replaced_pivots(&self) -> usize {
         self.direct.replaced()
+    }
+
+    /// The same hierarchy with its fine level in the natural order.
+    #[cfg(test)]
+    pub(crate) fn without_colour_layout(mut self) -> Multigrid<T> {
+        if let Some(by_colour) = self.by_colour.take() {
+            self.fine_inverse_centers = by_colour.natural_inverse();
+        }
+        self
+    }
+
+    /// Whether the fine level is stored by colour.
+    #[cfg(test)]
+    pub(crate) fn by_colour(&self) -> bool {
+        self.by_colour.is_some()
     }
 
     /// One V-cycle from a zero initial guess, `z = B·r`, with `fine` the fine-level operator.
@@ -514,13 +553,17 @@ impl<T: Scalar> Multigrid<T> {
             return;
         }
         let nu = self.settings.smoothing_sweeps;
-        let buf = &mut self.row_buffer;
         let bands = |cells: usize| threads_for(space, cells);
+        if let Some(by_colour) = &mut self.by_colour {
+            by_colour.set_rhs(r, &mut self.row_buffer, bands(n), bands(n) > 1);
+        }
+        let buf = &mut self.row_buffer;
         let top = Rows {
             op: fine,
             inv: &self.fine_inverse_centers,
             b: r,
             stored: None,
+            by_colour: self.by_colour.as_ref(),
         };
         {
             let (transfer, coarse_b) = self.levels[0].transfer_and_rhs();
@@ -537,6 +580,7 @@ impl<T: Scalar> Multigrid<T> {
                 inv: &here.inverse_centers,
                 b: &here.b,
                 stored: Some(&here.op.rows),
+                by_colour: None,
             };
             let k = here.x.len();
             rows.pre_smooth_restrict(
@@ -561,6 +605,7 @@ impl<T: Scalar> Multigrid<T> {
                 inv: &here.inverse_centers,
                 b: &here.b,
                 stored: Some(&here.op.rows),
+                by_colour: None,
             };
             let k = here.x.len();
             rows.prolong_smooth(
@@ -583,6 +628,9 @@ impl<T: Scalar> Multigrid<T> {
             &below.transfer(),
             &below.x,
         );
+        if let Some(by_colour) = &self.by_colour {
+            by_colour.to_natural(z, buf, bands(n), bands(n) > 1);
+        }
     }
 }
 

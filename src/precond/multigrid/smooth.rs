@@ -23,7 +23,9 @@
 
 use std::ops::Range;
 
-use crate::operator::{cell_product, Stencil5};
+use super::colour::ByColour;
+use super::transfer::Transfer;
+use crate::operator::{cell_product, FixedCells, Stencil5};
 use crate::{Coeffs5, Scalar};
 
 /// The rows of one level being smoothed: operator, `1/center` (zero at inactive cells, so they
@@ -35,6 +37,9 @@ pub(crate) struct Rows<'a, T, R: ?Sized> {
     /// The operator's rows when the level stores them (coarse levels): the smoother then
     /// computes the product at the cells of the colour only.
     pub(crate) stored: Option<&'a [Coeffs5<T>]>,
+    /// The fine level stored by colour (`colour.rs`): then `x` holds its rows by colour, and
+    /// the operator, `1/center` and right-hand side come from there.
+    pub(crate) by_colour: Option<&'a ByColour<T>>,
 }
 
 /// Which smoothing phase a pass runs.
@@ -70,6 +75,14 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
         h: usize,
     ) {
         let nx = buf.len();
+        if let Some(by_colour) = self.by_colour {
+            if phase == Phase::Pre && h == 1 {
+                by_colour.relax_from_zero(x, first, j);
+            } else {
+                by_colour.half_sweep(x, first, j, phase.colour(h));
+            }
+            return;
+        }
         if phase == Phase::Pre && h == 1 {
             relax_from_zero_in(self.inv, self.b, x, first, nx, j, 0..nx);
             return;
@@ -94,13 +107,45 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
         }
     }
 
-    /// The residual `b − A·x` of row `j` into `out`, `x` holding the rows from `first` on.
-    pub(super) fn residual_row(&self, x: &[T], first: usize, j: usize, out: &mut [T]) {
+    /// The residual `b − A·x` of row `j` into `out` (natural order), `x` holding the rows from
+    /// `first` on; `buf` (a row) may be overwritten.
+    pub(super) fn residual_row(
+        &self,
+        x: &[T],
+        first: usize,
+        j: usize,
+        buf: &mut [T],
+        out: &mut [T],
+    ) {
+        if let Some(by_colour) = self.by_colour {
+            by_colour.residual_row(x, first, j, buf, out);
+            return;
+        }
         let nx = out.len();
         self.op.apply_rows_from(j..j + 1, first, x, out);
         for (ri, &bi) in out.iter_mut().zip(&self.b[j * nx..][..nx]) {
             *ri = bi - *ri;
         }
+    }
+
+    /// `x += P·coarse_x` on row `j` (`x` holding the rows from `first` on, `nx` wide), the
+    /// cells of `inactive` left out; `buf` (a row) may be overwritten.
+    #[allow(clippy::too_many_arguments)]
+    pub(super) fn prolong_row(
+        &self,
+        (transfer, inactive, coarse_x): (&Transfer<'_>, Option<&FixedCells>, &[T]),
+        x: &mut [T],
+        first: usize,
+        nx: usize,
+        j: usize,
+        buf: &mut [T],
+    ) {
+        if let Some(by_colour) = self.by_colour {
+            by_colour.prolong_row((transfer, inactive, coarse_x), x, first, j, buf);
+            return;
+        }
+        let row = &mut x[(j - first) * nx..][..nx];
+        transfer.prolong_row(j, 0..nx, row, inactive, coarse_x);
     }
 }
 
