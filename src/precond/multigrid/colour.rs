@@ -650,6 +650,11 @@ mod tests {
         let single = op.cast::<f32>().unwrap();
         let mg = Multigrid::new(&single, MultigridSettings::default()).unwrap();
         assert!(mg.by_colour());
+        let natural = MultigridSettings {
+            fine_level_by_colour: false,
+            ..Default::default()
+        };
+        assert!(!Multigrid::new(&single, natural).unwrap().by_colour());
         let odd = Grid::new(63, 64).unwrap();
         let odd = Banded5::from_fn(odd, |i, j| Coeffs5::laplacian(odd, i, j)).unwrap();
         let odd = odd.cast::<f32>().unwrap();

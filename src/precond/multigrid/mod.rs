@@ -202,6 +202,13 @@ pub struct MultigridSettings {
     pub energy_step: bool,
     /// How coarse operators are built. Default [`CoarseOperator::LargerConductance`].
     pub coarse_operator: CoarseOperator,
+    /// `f32` hierarchies on grids of even width: keep the fine level by colour, each row's
+    /// even cells apart from its odd ones (see [`Multigrid`]), so that every half-sweep is one
+    /// contiguous loop. The cycle gives the same bits either way; by colour it is faster, for
+    /// 24 more bytes per cell and a longer set-up (README, performance table). Default `true`:
+    /// set `false` where memory or a one-off solve's set-up matters more than the time per
+    /// iteration. `f64` hierarchies keep the natural order.
+    pub fine_level_by_colour: bool,
 }
 
 impl MultigridSettings {
@@ -250,6 +257,7 @@ impl Default for MultigridSettings {
             max_levels: 32,
             energy_step: true,
             coarse_operator: CoarseOperator::LargerConductance,
+            fine_level_by_colour: true,
         }
     }
 }
@@ -394,7 +402,7 @@ impl<T: Scalar> Multigrid<T> {
         let (nx, w) = (grid.nx(), omega as f32);
         let f32_cycle = std::mem::size_of::<T>() == std::mem::size_of::<f32>();
         let pieces = threads_for(&Threaded, grid.cells()).min(MAX_BANDS);
-        let by_colour = (f32_cycle && !levels.is_empty())
+        let by_colour = (f32_cycle && settings.fine_level_by_colour && !levels.is_empty())
             .then(|| ByColour::new(op, w, pieces, pieces > 1))
             .flatten();
         let mut fine_inverse_centers = Vec::new();
