@@ -457,40 +457,21 @@ mod tests {
     use crate::precond::multigrid::smooth::Rows;
     use crate::precond::multigrid::{Multigrid, MultigridSettings};
     use crate::space::{Serial, Space, Threaded};
-    use crate::testing::Numbers;
-    use crate::{Banded5, Coeffs5, FixedCells, Grid};
+    use crate::testing::{diffusion, Numbers};
+    use crate::{Banded5, Coeffs5, Grid};
 
-    /// A non-uniform diffusion operator in `f32` (conductances over three orders of
-    /// magnitude, a little storage) with scattered fixed cells and a fixed first row.
+    /// A diffusion operator in `f32`, conductances over three decades, a little storage,
+    /// scattered fixed cells and half of the first row fixed.
     fn operator(nx: usize, ny: usize, seed: u64) -> Banded5<f32> {
-        let grid = Grid::new(nx, ny).unwrap();
         let mut g = Numbers(seed);
-        let n = nx * ny;
         let mut cond = || 10f64.powf(3.0 * g.next() - 1.5);
-        let east: Vec<f64> = (0..n)
-            .map(|k| if (k + 1) % nx != 0 { cond() } else { 0.0 })
+        let storage = |k: usize| 1e-3 * (1 + k % 5) as f64;
+        let fixed: Vec<usize> = (0..nx * ny)
+            .filter(|k| k % 41 == 7 || *k < nx / 2)
             .collect();
-        let north: Vec<f64> = (0..n)
-            .map(|k| if k + nx < n { cond() } else { 0.0 })
-            .collect();
-        let op = Banded5::from_fn(grid, |i, j| {
-            let k = i + nx * j;
-            let west = if i > 0 { east[k - 1] } else { 0.0 };
-            let south = if j > 0 { north[k - nx] } else { 0.0 };
-            Coeffs5 {
-                center: west + east[k] + south + north[k] + 1e-3 * (1 + k % 5) as f64,
-                west: -west,
-                east: -east[k],
-                south: -south,
-                north: -north[k],
-            }
-        })
-        .unwrap();
-        let fixed = (0..n).filter(|k| k % 41 == 7 || *k < nx / 2);
-        let op = op
-            .with_fixed(FixedCells::new(grid, fixed).unwrap())
-            .unwrap();
-        op.cast::<f32>().unwrap()
+        diffusion(nx, ny, &mut cond, &storage, &fixed)
+            .cast::<f32>()
+            .unwrap()
     }
 
     fn bits(v: &[f32]) -> Vec<u32> {
