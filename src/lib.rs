@@ -167,7 +167,7 @@
 //! grid together, fused with the grid transfers), in bands of rows side by side, one per
 //! thread; every cell gets the same arithmetic whatever the bands, so its result too is the
 //! same for any thread count. An `f32` cycle keeps its fine level by colour (red and black
-//! cells of a row apart, 24 bytes per cell), so that each half-sweep is one contiguous loop.
+//! cells of a row apart, 24 more bytes per cell), so that each half-sweep is one contiguous loop.
 //!
 //! ## Feature flags
 //!

@@ -279,8 +279,9 @@ impl Default for MultigridSettings {
 /// coarsest factor; under the 1.5 × five-array budget of the fine operator
 /// ([`storage_bytes`](Multigrid::storage_bytes)). An `f32` hierarchy on a grid of even width
 /// also keeps its fine level by colour: each row's even cells, then its odd ones (the five
-/// coefficients, `1/center` and the cycle's right-hand side: 24 bytes per cell, the size of
-/// the `f32` copy it was built from, plus 4). A half-sweep then reads only its own colour's
+/// coefficients and the cycle's right-hand side, 24 bytes per cell, the size of the `f32`
+/// copy it was built from plus 4; and `1/center` in that order instead of the natural
+/// one). A half-sweep then reads only its own colour's
 /// coefficients and values, in one contiguous loop, where the natural order computes the
 /// whole row's product for every half-sweep; the results are the same bits. The smoothing
 /// uses the coefficients the hierarchy was built from (as the coarse levels always do).

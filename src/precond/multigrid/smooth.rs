@@ -130,7 +130,6 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
 
     /// `x += P·coarse_x` on row `j` (`x` holding the rows from `first` on, `nx` wide), the
     /// cells of `inactive` left out; `buf` (a row) may be overwritten.
-    #[allow(clippy::too_many_arguments)]
     pub(super) fn prolong_row(
         &self,
         (transfer, inactive, coarse_x): (&Transfer<'_>, Option<&FixedCells>, &[T]),
