@@ -18,9 +18,9 @@
 use std::ops::Range;
 
 use super::level::narrow_one;
-use super::transfer::Transfer;
+use super::transfer::{widen, Transfer};
 use crate::blocks::join;
-use crate::operator::{FixedCells, Stencil5};
+use crate::operator::{row_neighbourhood, FixedCells, Stencil5};
 use crate::Scalar;
 
 /// The fine level by colour (see the module notes).
@@ -377,10 +377,7 @@ impl<T: Scalar> ByColour<T> {
         out: &mut [T],
     ) {
         let (nx, h) = (self.nx, self.nx / 2);
-        let at = (j - first) * nx;
-        let row = &x[at..][..nx];
-        let south = (j > 0).then(|| &x[at - nx..][..nx]);
-        let north = (j + 1 < self.ny).then(|| &x[at + nx..][..nx]);
+        let (south, row, north) = row_neighbourhood(x, first, nx, self.ny, j);
         let buf = &mut buf[..nx];
         match (south, north) {
             (Some(xs), Some(xn)) => {
@@ -442,12 +439,6 @@ impl<T: Scalar> ByColour<T> {
         transfer.prolong_row(j, 0..nx, buf, inactive, coarse_x);
         split_row(buf, row);
     }
-}
-
-/// `v` in the level's scalar type.
-#[inline(always)]
-fn widen<T: Scalar>(v: f32) -> T {
-    T::from(v).unwrap_or_else(T::zero)
 }
 
 #[cfg(test)]

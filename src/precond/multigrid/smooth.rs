@@ -24,7 +24,7 @@
 use std::ops::Range;
 
 use super::colour::ByColour;
-use super::transfer::Transfer;
+use super::transfer::{widen, Transfer};
 use crate::operator::{cell_product, FixedCells, Stencil5};
 use crate::{Coeffs5, Scalar};
 
@@ -256,12 +256,6 @@ fn relax_from_zero_in<T: Scalar>(
     for i in (other..cols.end).step_by(2) {
         x_row[i] = T::zero();
     }
-}
-
-/// `v` in the level's scalar type.
-#[inline(always)]
-fn widen<T: Scalar>(v: f32) -> T {
-    T::from(v).unwrap_or_else(T::zero)
 }
 
 #[cfg(test)]

@@ -337,9 +337,10 @@ pub(crate) fn for_active_runs(
     }
 }
 
-/// A stored `f32` weight in the level's scalar type (exact: `f32` widens to `f64` exactly).
+/// A stored `f32` value (a weight, an inverse center) in the level's scalar type (exact:
+/// `f32` widens to `f64` exactly).
 #[inline(always)]
-fn widen<T: Scalar>(w: f32) -> T {
+pub(super) fn widen<T: Scalar>(w: f32) -> T {
     T::from(w).unwrap_or_else(T::zero)
 }
 
