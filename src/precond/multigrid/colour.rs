@@ -482,7 +482,10 @@ mod tests {
 
     /// Both smoothing passes of the fine level by colour (with the restriction, and with the
     /// prolongation) give the bits of the natural order, on narrow and wide grids, 1 to 3
-    /// sweeps, in 1 to 6 bands of rows, serial and side by side.
+    /// sweeps, in 1 to 6 bands of rows, serial and side by side. The reference is the
+    /// natural order's code; the claim behind it is the red-black ordering argument (cells of
+    /// one colour do not couple in a 5-point stencil, so the order in which a half-sweep
+    /// visits them does not change its values: common practice).
     #[test]
     fn passes_by_colour_have_the_bits_of_the_natural_order() {
         for (nx, ny, sweeps, seed) in [

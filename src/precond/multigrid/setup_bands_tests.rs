@@ -126,7 +126,8 @@ fn swept_bits(swept: &Swept<f64>) -> (Vec<bool>, Vec<u64>) {
 
 /// Windows of pass 0's output that move down a band (the smallest allowed, sizes that move at
 /// rows of either parity, the default) give the bits of a window holding the whole band, for
-/// 1 to 6 bands: the rows a pass reads are still there, unchanged, after each move.
+/// 1 to 6 bands: the rows a pass reads are still there, unchanged, after each move (a
+/// refactoring check against the crate's own whole-band sweep; common practice).
 #[test]
 fn moving_windows_keep_the_bits_of_whole_bands() {
     for (nx, ny, seed) in [(23, 200, 1u64), (131, 199, 4)] {
