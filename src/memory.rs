@@ -50,10 +50,24 @@ pub(crate) fn zeroed<T: Clone + num_traits::Zero>(
     n: usize,
 ) -> Result<Vec<T>, Error> {
     // The reservation is the fallible check; `vec!` then allocates zeroed memory for the
-    // float types.
-    drop(with_capacity::<T>(what, n)?);
+    // float types. A check of 128 KiB or more reserves at least `CHECK_BYTES` (address
+    // space only, never touched): glibc's allocator raises its threshold for mapping fresh
+    // pages to the size of any mapped block freed below 32 MiB (mallopt(3),
+    // M_MMAP_THRESHOLD), so freeing a smaller check would send the zeroed allocations that
+    // follow to recycled memory that `vec!` must then clear on one thread (the README's
+    // performance notes give the set-up times with and without).
+    let size = std::mem::size_of::<T>().max(1);
+    let check = if n.saturating_mul(size) >= 128 << 10 {
+        n.max(CHECK_BYTES / size)
+    } else {
+        n
+    };
+    drop(with_capacity::<T>(what, check)?);
     Ok(vec![T::zero(); n])
 }
+
+/// The least a check of [`zeroed`] reserves (see there).
+const CHECK_BYTES: usize = 64 << 20;
 
 fn too_large<T>(what: &'static str, n: usize) -> Error {
     let bytes = n as u128 * std::mem::size_of::<T>() as u128;
