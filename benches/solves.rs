@@ -82,7 +82,7 @@ fn bench_solves(c: &mut Criterion) {
         });
         group.bench_function(BenchmarkId::new("mg_f32_pcg_setup_and_solve", n), |b| {
             b.iter(|| {
-                let single = op.cast::<f32>().expect("finite");
+                let single = Banded5ByColour::<f32>::from_stencil(&op).expect("finite");
                 let mg = Multigrid::new(&single, MultigridSettings::default()).expect("setup");
                 let mut pcg = Pcg::new(SinglePrecision::new(single, mg)).with_options(options());
                 let mut x = vec![0.0; n * n];
@@ -124,13 +124,13 @@ fn bench_contrast(c: &mut Criterion) {
         let name = format!("{rule:?}");
         group.bench_function(BenchmarkId::new("f32_setup", &name), |b| {
             b.iter(|| {
-                let single = op.cast::<f32>().expect("finite");
+                let single = Banded5ByColour::<f32>::from_stencil(&op).expect("finite");
                 Multigrid::new(&single, settings).expect("setup")
             })
         });
         group.bench_function(BenchmarkId::new("f32_pcg_setup_and_solve", &name), |b| {
             b.iter(|| {
-                let single = op.cast::<f32>().expect("finite");
+                let single = Banded5ByColour::<f32>::from_stencil(&op).expect("finite");
                 let mg = Multigrid::new(&single, settings).expect("setup");
                 let mut pcg = Pcg::new(SinglePrecision::new(single, mg)).with_options(options());
                 let mut x = x0.clone();

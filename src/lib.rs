@@ -280,7 +280,7 @@ pub use relax::{estimate_relaxation, RelaxationBasis, RelaxationEstimate, Sor, S
 pub use report::{History, MethodName, Progress, Report, StopReason};
 pub use scalar::Scalar;
 pub use stencil::Banded5View;
-pub use stencil::{check_symmetry, Banded5, ClosureStencil, Symmetric5};
+pub use stencil::{check_symmetry, Banded5, Banded5ByColour, ClosureStencil, Symmetric5};
 pub use stop::{StopRule, Tolerances};
 
 /// Everything a typical caller needs, in one `use`.
@@ -300,7 +300,7 @@ pub mod prelude {
         SinglePrecision, Sip, SipSettings, SolveOptions, Sor, Ssor, SteepestDescent, Stencil5,
         StopReason, StopRule, SweepOrder, Symmetric5, Tolerances, WeakPivot, Workspace,
     };
-    pub use crate::{Banded5View, CapacityTerm, SystemBudget};
+    pub use crate::{Banded5ByColour, Banded5View, CapacityTerm, SystemBudget};
 }
 
 /// The README's code blocks, compiled and run as doctests.

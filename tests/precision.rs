@@ -106,3 +106,141 @@ fn a_single_precision_preconditioner_keeps_f64_pcg_accurate() {
         assert!(dist(&xf, &ef) / norm(&ef) <= bound * 1.01);
     }
 }
+
+/// Every bit of a vector, for comparisons that must be exact.
+fn bits(v: &[f64]) -> Vec<u64> {
+    v.iter().map(|x| x.to_bits()).collect()
+}
+
+#[test]
+fn the_colour_copy_holds_the_coefficients_of_the_cast() {
+    // Rounding each coefficient to f32 (IEEE 754-2019 §5.4.2, round to nearest) is the same
+    // operation whichever array it lands in: the copy stored by colour and the natural cast
+    // must agree bit for bit, cell by cell, and so must their products and their surveys.
+    for (nx, ny, seed) in [
+        (1usize, 1usize, 1u64),
+        (1, 9, 2),
+        (7, 5, 3),
+        (8, 6, 4),
+        (33, 17, 5),
+    ] {
+        let p = random_sdd(nx, ny, seed, 0.1, true);
+        let op = p.banded();
+        let cast = op.cast::<f32>().unwrap();
+        let colour = Banded5ByColour::<f32>::from_stencil(&op).unwrap();
+        assert_eq!(colour.grid(), cast.grid());
+        assert_eq!(colour.fixed(), cast.fixed());
+        for j in 0..ny {
+            for i in 0..nx {
+                assert_eq!(colour.coeffs(i, j), cast.coeffs(i, j), "cell ({i}, {j})");
+            }
+        }
+        assert_eq!(
+            colour.first_nonpositive_center(),
+            cast.first_nonpositive_center()
+        );
+        assert_eq!(colour.rows_sum_to_zero(), cast.rows_sum_to_zero());
+        let x: Vec<f32> = (0..nx * ny).map(|k| ((k as f32) * 0.618).fract()).collect();
+        let (mut y_colour, mut y_cast) = (vec![0.0f32; nx * ny], vec![0.0f32; nx * ny]);
+        colour.apply(&x, &mut y_colour).unwrap();
+        cast.apply(&x, &mut y_cast).unwrap();
+        let as_bits = |v: &[f32]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+        assert_eq!(as_bits(&y_colour), as_bits(&y_cast));
+    }
+    // A pure-Neumann operator: every row sums to zero in both copies.
+    let grid = Grid::new(6, 4).unwrap();
+    let neumann = Banded5::from_fn(grid, |i, j| {
+        let mut c = Coeffs5::<f64>::laplacian(grid, i, j);
+        c.center = -(c.west + c.east + c.south + c.north);
+        c
+    })
+    .unwrap();
+    let colour = Banded5ByColour::<f32>::from_stencil(&neumann).unwrap();
+    assert!(colour.rows_sum_to_zero() && neumann.cast::<f32>().unwrap().rows_sum_to_zero());
+}
+
+#[test]
+fn the_colour_copy_reports_coefficients_that_overflow() {
+    let grid = Grid::new(4, 2).unwrap();
+    let mut center = [4.0; 8];
+    center[5] = 1e300;
+    let op = Banded5::from_fn(grid, |i, j| Coeffs5 {
+        center: center[i + 4 * j],
+        ..Coeffs5::laplacian(grid, i, j)
+    })
+    .unwrap();
+    let found = Banded5ByColour::<f32>::from_stencil(&op).unwrap_err();
+    assert_eq!(found.kind(), ErrorKind::NonFinite);
+    assert_eq!(found.location().map(|at| at.cell), Some(5));
+}
+
+#[test]
+fn single_precision_multigrid_on_the_colour_copy_gives_the_bits_of_the_cast() {
+    // The hierarchy and the cycle read the colour copy's coefficients in place of the cast's:
+    // the same values, so PCG must take the same steps (serial and threaded, even and odd
+    // widths, fixed cells, settings with and without the by-colour fine level).
+    for (nx, ny, seed) in [
+        (32usize, 24usize, 6u64),
+        (31, 20, 7),
+        (64, 64, 8),
+        (130, 97, 9),
+    ] {
+        let p = random_sdd(nx, ny, seed, 0.05, false);
+        let op = p.banded();
+        for by_colour in [true, false] {
+            let settings = MultigridSettings {
+                fine_level_by_colour: by_colour,
+                ..MultigridSettings::default()
+            };
+            for threads in [1, 2] {
+                let pool = rayon::ThreadPoolBuilder::new()
+                    .num_threads(threads)
+                    .build()
+                    .unwrap();
+                let (x_cast, r_cast) = pool.install(|| {
+                    let single = op.cast::<f32>().unwrap();
+                    let mg = Multigrid::new(&single, settings).unwrap();
+                    let mut x = p.x0.clone();
+                    let r = Pcg::new(SinglePrecision::new(single, mg))
+                        .solve(&op, &p.rhs, &mut x)
+                        .unwrap();
+                    (x, r)
+                });
+                let (x_colour, r_colour) = pool.install(|| {
+                    let single = Banded5ByColour::<f32>::from_stencil(&op).unwrap();
+                    let mg = Multigrid::new(&single, settings).unwrap();
+                    let mut x = p.x0.clone();
+                    let r = Pcg::new(SinglePrecision::new(single, mg))
+                        .solve(&op, &p.rhs, &mut x)
+                        .unwrap();
+                    (x, r)
+                });
+                assert_eq!(r_cast.iterations, r_colour.iterations);
+                assert_eq!(
+                    bits(&x_cast),
+                    bits(&x_colour),
+                    "{nx}x{ny} {threads} threads"
+                );
+            }
+        }
+    }
+}
+
+#[test]
+fn a_hierarchy_that_reads_the_colour_copy_needs_it() {
+    // Built on the copy by colour, the cycle reads its fine coefficients from that copy; an
+    // operator stored otherwise is refused before a solve rather than read as something else.
+    let grid = Grid::new(128, 128).unwrap();
+    let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j)).unwrap();
+    let colour = Banded5ByColour::<f32>::from_stencil(&op).unwrap();
+    let mg = Multigrid::new(&colour, MultigridSettings::default()).unwrap();
+    let natural = op.cast::<f32>().unwrap();
+    assert!(Preconditioner::<f32>::check(&mg, &colour).is_ok());
+    assert!(Preconditioner::<f32>::check(&mg, &natural).is_err());
+    // And it keeps no copy of its own: five f32 arrays fewer than a hierarchy on the cast.
+    let on_cast = Multigrid::new(&natural, MultigridSettings::default()).unwrap();
+    assert_eq!(
+        on_cast.storage_bytes() - mg.storage_bytes(),
+        5 * 4 * grid.cells()
+    );
+}

@@ -464,6 +464,15 @@ pub trait Stencil5<T: Scalar>: LinearOperator<T> {
             })
     }
 
+    /// The five coefficient arrays (center, west, east, south, north) when every row of
+    /// them is stored as its even columns, then its odd ones (as
+    /// [`Banded5ByColour`](crate::Banded5ByColour) stores them): the single-precision
+    /// multigrid cycle reads its fine level from them in place. Default: `None`.
+    #[doc(hidden)]
+    fn bands_by_colour(&self) -> Option<&[Vec<T>; 5]> {
+        None
+    }
+
     /// Row `(i, j)` of the system the Krylov drivers and the preconditioners see: the identity
     /// row for a fixed cell, and for a free cell its coefficients with the couplings towards
     /// fixed neighbours removed (those terms are known values, not unknowns).
@@ -574,6 +583,9 @@ impl<T: Scalar, S: Stencil5<T> + ?Sized> Stencil5<T> for &S {
     }
     fn eliminated_coeffs(&self, i: usize, j: usize) -> Coeffs5<T> {
         (**self).eliminated_coeffs(i, j)
+    }
+    fn bands_by_colour(&self) -> Option<&[Vec<T>; 5]> {
+        (**self).bands_by_colour()
     }
 }
 

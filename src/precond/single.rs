@@ -27,7 +27,8 @@ use crate::{Error, LinearOperator};
 ///
 /// let grid = Grid::new(128, 128)?;
 /// let op: Banded5<f64> = Banded5::from_fn(grid, |i, j| Coeffs5::laplacian(grid, i, j))?;
-/// let single = op.cast::<f32>()?;
+/// // The f32 copy stored by colour: the hierarchy reads its fine level there.
+/// let single = Banded5ByColour::from_stencil(&op)?;
 /// let mg = Multigrid::new(&single, MultigridSettings::default())?;
 /// let mut pcg = Pcg::new(SinglePrecision::new(single, mg));
 /// let mut x = vec![0.0; grid.cells()];
@@ -48,7 +49,8 @@ pub struct SinglePrecision<S, P> {
 
 impl<S: LinearOperator<f32>, P: Preconditioner<f32>> SinglePrecision<S, P> {
     /// Wrap `inner`, a preconditioner set up on `low`, the `f32` copy of the operator (see
-    /// [`Banded5::cast`](crate::Banded5::cast)).
+    /// [`Banded5::cast`](crate::Banded5::cast); for a multigrid cycle,
+    /// [`Banded5ByColour::from_stencil`](crate::Banded5ByColour::from_stencil)).
     ///
     /// ```
     /// use quintet::prelude::*;

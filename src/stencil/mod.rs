@@ -16,12 +16,14 @@
 //! [`Banded5View::from_finite_volume`] on arrays you keep, flipping the signs as it reads.
 
 mod banded;
+mod by_colour;
 mod closure;
 mod symmetric;
 mod validate;
 mod view;
 
 pub use banded::Banded5;
+pub use by_colour::Banded5ByColour;
 pub use closure::ClosureStencil;
 pub use symmetric::Symmetric5;
 pub use validate::check_symmetry;

@@ -21,26 +21,46 @@ use super::level::narrow_one;
 use super::transfer::{widen, Transfer};
 use crate::blocks::join;
 use crate::operator::{row_neighbourhood, FixedCells, Stencil5};
-use crate::Scalar;
+use crate::{Banded5ByColour, Scalar};
 
-/// The fine level by colour (see the module notes).
+/// The fine level by colour (see the module notes): `1/center`, the right-hand side, and the
+/// operator's arrays unless the operator stores them by colour itself
+/// ([`Banded5ByColour`](crate::Banded5ByColour)), in which case the cycle reads them there.
 #[derive(Clone)]
-pub(crate) struct ByColour<T> {
+pub(crate) struct ColourLevel<T> {
     nx: usize,
     ny: usize,
-    /// Center, west, east, south, north coefficients.
-    bands: [Vec<T>; 5],
+    /// Center, west, east, south, north coefficients, when the operator's are not by colour.
+    own: Option<[Vec<T>; 5]>,
     /// `1/center` (scaled by ω), 0 at fixed cells.
     inv: Vec<f32>,
     /// The right-hand side of the current cycle.
     b: Vec<T>,
 }
 
-impl<T> std::fmt::Debug for ByColour<T> {
+impl<T> std::fmt::Debug for ColourLevel<T> {
     /// The layout only: the values are the fine operator's and `1/center`'s.
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        write!(f, "ByColour({} x {})", self.nx, self.ny)
+        let whose = if self.own.is_some() {
+            "copy"
+        } else {
+            "operator's"
+        };
+        write!(f, "ColourLevel({} x {}, {whose} arrays)", self.nx, self.ny)
     }
+}
+
+/// What one cycle reads of the fine level by colour.
+#[derive(Clone, Copy)]
+pub(crate) struct ByColour<'a, T> {
+    nx: usize,
+    ny: usize,
+    /// Center, west, east, south, north coefficients.
+    bands: &'a [Vec<T>; 5],
+    /// `1/center` (scaled by ω), 0 at fixed cells.
+    inv: &'a [f32],
+    /// The right-hand side of the current cycle.
+    b: &'a [T],
 }
 
 /// Row `row` as its even columns, then its odd columns, into `out`.
@@ -89,98 +109,50 @@ fn in_row_pieces<U: Send, S: Send>(
     );
 }
 
-/// Rows of the stored bands and `1/center` being filled.
-struct Piece<'a, T> {
-    bands: [&'a mut [T]; 5],
-    inv: &'a mut [f32],
-}
-
-impl<'a, T: Scalar> Piece<'a, T> {
-    /// `f(rows, piece)` on (at most) `pieces` pieces of the rows `rows`, side by side when
-    /// `parallel`.
-    fn in_pieces(
-        self,
-        nx: usize,
-        rows: Range<usize>,
-        pieces: usize,
-        parallel: bool,
-        f: &(impl Fn(Range<usize>, Piece<'_, T>) + Sync),
-    ) {
-        if pieces <= 1 || rows.len() < 2 {
-            f(rows, self);
-            return;
-        }
-        let mid = rows.start + rows.len() / 2;
-        let at = (mid - rows.start) * nx;
-        let [c, w, e, s, n] = self.bands;
-        let (c, c2) = c.split_at_mut(at);
-        let (w, w2) = w.split_at_mut(at);
-        let (e, e2) = e.split_at_mut(at);
-        let (s, s2) = s.split_at_mut(at);
-        let (n, n2) = n.split_at_mut(at);
-        let (inv, inv2) = self.inv.split_at_mut(at);
-        let low = Piece {
-            bands: [c, w, e, s, n],
-            inv,
-        };
-        let high = Piece {
-            bands: [c2, w2, e2, s2, n2],
-            inv: inv2,
-        };
-        let half = pieces / 2;
-        join(
-            parallel,
-            || low.in_pieces(nx, rows.start..mid, half, parallel, f),
-            || high.in_pieces(nx, mid..rows.end, pieces - half, parallel, f),
-        );
-    }
-}
-
-impl<T: Scalar> ByColour<T> {
+impl<T: Scalar> ColourLevel<T> {
     /// The fine level of `op` by colour, `1/center` scaled by `omega` (0 at fixed cells), in
     /// up to `pieces` pieces of rows side by side when `parallel`; `None` for an odd `nx`.
+    /// The operator's arrays are copied unless `op` stores them by colour itself.
     pub(crate) fn new<S: Stencil5<T> + ?Sized>(
         op: &S,
         omega: f32,
         pieces: usize,
         parallel: bool,
-    ) -> Option<ByColour<T>> {
+    ) -> Option<ColourLevel<T>> {
         let grid = op.grid();
         let (nx, ny) = (grid.nx(), grid.ny());
         if nx % 2 == 1 {
             return None;
         }
         let n = nx * ny;
-        let mut level = ByColour {
+        let own = match op.bands_by_colour() {
+            Some(_) => None,
+            None => Some(Banded5ByColour::<T>::from_stencil(op).ok()?.into_bands()),
+        };
+        let mut level = ColourLevel {
             nx,
             ny,
-            bands: std::array::from_fn(|_| vec![T::zero(); n]),
+            own,
             inv: vec![0.0f32; n],
             b: vec![T::zero(); n],
         };
-        let [c, w, e, s, no] = &mut level.bands;
-        let out = Piece {
-            bands: [&mut c[..], &mut w[..], &mut e[..], &mut s[..], &mut no[..]],
-            inv: &mut level.inv,
-        };
-        // Each cell's coefficients go to their place in the stored row; `1/center` is the
-        // natural order's expression, the same bits.
-        let fill = |rows: Range<usize>, piece: Piece<'_, T>| {
-            let Piece { mut bands, inv } = piece;
-            let h = nx / 2;
-            for (r, j) in rows.enumerate() {
-                for i in 0..nx {
-                    let k = r * nx + (i % 2) * h + i / 2;
-                    let cf = op.coeffs(i, j);
-                    let values = [cf.center, cf.west, cf.east, cf.south, cf.north];
-                    for (band, v) in bands.iter_mut().zip(values) {
-                        band[k] = v;
-                    }
-                    inv[k] = narrow_one(T::one() / cf.center) * omega;
-                }
+        let center = &level.own.as_ref().or(op.bands_by_colour())?[0];
+        // `1/center` is the natural order's expression, the same bits.
+        let invert = |rows: Range<usize>, inv: &mut [f32], _: &mut [T]| {
+            for (d, &c) in inv.iter_mut().zip(&center[rows.start * nx..rows.end * nx]) {
+                *d = narrow_one(T::one() / c) * omega;
             }
         };
-        out.in_pieces(nx, 0..ny, pieces, parallel, &fill);
+        let mut scratch = vec![T::zero(); pieces.max(1) * nx];
+        in_row_pieces(
+            &mut level.inv,
+            &mut scratch,
+            nx,
+            0..ny,
+            pieces,
+            parallel,
+            &invert,
+        );
         for &k in op.fixed().map_or(&[][..], |f| f.cells()) {
             let (i, j) = (k % nx, k / nx);
             if j < ny {
@@ -193,7 +165,8 @@ impl<T: Scalar> ByColour<T> {
     /// Bytes held.
     pub(crate) fn bytes(&self) -> usize {
         let n = self.nx * self.ny;
-        n * (6 * std::mem::size_of::<T>() + std::mem::size_of::<f32>())
+        let arrays = if self.own.is_some() { 6 } else { 1 };
+        n * (arrays * std::mem::size_of::<T>() + std::mem::size_of::<f32>())
     }
 
     /// `1/center` in the natural order.
@@ -210,9 +183,26 @@ impl<T: Scalar> ByColour<T> {
         out
     }
 
+    /// Whether a cycle on `fine` finds the operator's arrays (its own copy, or `fine`'s).
+    pub(crate) fn finds_arrays(&self, fine: &dyn Stencil5<T>) -> bool {
+        self.own.is_some() || fine.bands_by_colour().is_some()
+    }
+
+    /// What a cycle on `fine` reads, `None` if it finds no arrays by colour.
+    pub(crate) fn view<'a>(&'a self, fine: &'a dyn Stencil5<T>) -> Option<ByColour<'a, T>> {
+        let bands = self.own.as_ref().or(fine.bands_by_colour())?;
+        Some(ByColour {
+            nx: self.nx,
+            ny: self.ny,
+            bands,
+            inv: &self.inv,
+            b: &self.b,
+        })
+    }
+
     /// The cycle's right-hand side `r` (natural order), stored by colour, in up to `pieces`
     /// pieces of rows side by side when `parallel` (`scratch` as for
-    /// [`to_natural`](Self::to_natural), unused).
+    /// [`to_natural`](ByColour::to_natural), unused).
     pub(crate) fn set_rhs(&mut self, r: &[T], scratch: &mut [T], pieces: usize, parallel: bool) {
         let nx = self.nx;
         let split = |rows: Range<usize>, b: &mut [T], _: &mut [T]| {
@@ -231,10 +221,12 @@ impl<T: Scalar> ByColour<T> {
             &split,
         );
     }
+}
 
+impl<'a, T: Scalar> ByColour<'a, T> {
     /// `z`, stored by colour, back into the natural order, rows in place (`scratch` at least
     /// a row; a row per piece for `pieces` pieces side by side when `parallel`).
-    pub(crate) fn to_natural(&self, z: &mut [T], scratch: &mut [T], pieces: usize, parallel: bool) {
+    pub(crate) fn to_natural(self, z: &mut [T], scratch: &mut [T], pieces: usize, parallel: bool) {
         let nx = self.nx;
         let join_rows = |_: Range<usize>, z: &mut [T], tmp: &mut [T]| {
             for row in z.chunks_exact_mut(nx) {
@@ -253,7 +245,7 @@ impl<T: Scalar> ByColour<T> {
         let (q, m) = (i % 2, i / 2);
         let own = q * h + m;
         let k = j * nx + own;
-        let [c, w, e, s, n] = &self.bands;
+        let [c, w, e, s, n] = self.bands;
         let other = (1 - q) * h;
         let mut sum = c[k] * row[own];
         if i > 0 {
@@ -443,7 +435,7 @@ impl<T: Scalar> ByColour<T> {
 
 #[cfg(test)]
 mod tests {
-    use super::{join_row, narrow_one, split_row, ByColour};
+    use super::{join_row, narrow_one, split_row, ColourLevel};
     use crate::operator::Stencil5;
     use crate::precond::multigrid::smooth::Rows;
     use crate::precond::multigrid::{Multigrid, MultigridSettings};
@@ -519,8 +511,9 @@ mod tests {
                 stored: None,
                 by_colour: None,
             };
+            let view = by_colour.view(&op).unwrap();
             let coloured = Rows {
-                by_colour: Some(&by_colour),
+                by_colour: Some(view),
                 ..Rows {
                     op: &op,
                     inv: &[],
@@ -560,7 +553,7 @@ mod tests {
                 for parallel in [false, true] {
                     let (mut p, r, mut x) = run(&coloured, bands, parallel);
                     for v in [&mut p, &mut x] {
-                        by_colour.to_natural(v, &mut scratch, 1, false);
+                        view.to_natural(v, &mut scratch, 1, false);
                     }
                     let case =
                         format!("{nx} x {ny}, {sweeps} sweeps, {bands} bands, parallel {parallel}");
@@ -633,6 +626,6 @@ mod tests {
         let odd = Grid::new(63, 64).unwrap();
         let odd = Banded5::from_fn(odd, |i, j| Coeffs5::laplacian(odd, i, j)).unwrap();
         let odd = odd.cast::<f32>().unwrap();
-        assert!(ByColour::<f32>::new(&odd, 1.0, 1, false).is_none());
+        assert!(ColourLevel::<f32>::new(&odd, 1.0, 1, false).is_none());
     }
 }

@@ -90,7 +90,7 @@ mod sweep;
 mod transfer;
 
 use bands::scratch_rows;
-use colour::ByColour;
+use colour::ColourLevel;
 use direct::{CoarsestSolve, MAX_DIRECT_CELLS};
 pub(crate) use level::{active_cells, inverse_centers, over_relax, Level, LevelOperator};
 use smooth::Rows;
@@ -204,9 +204,12 @@ pub struct MultigridSettings {
     pub coarse_operator: CoarseOperator,
     /// `f32` hierarchies on grids of even width: keep the fine level by colour, each row's
     /// even cells apart from its odd ones (see [`Multigrid`]), so that every half-sweep is one
-    /// contiguous loop. The cycle gives the same bits either way; by colour it is faster, for
-    /// 24 more bytes per cell and a longer set-up (README, performance table). Default `true`:
-    /// set `false` where memory or a one-off solve's set-up matters more than the time per
+    /// contiguous loop. The cycle gives the same bits either way; by colour it is faster. On
+    /// an operator stored by colour itself ([`Banded5ByColour`](crate::Banded5ByColour)) the
+    /// hierarchy reads the coefficients there and keeps only `1/center` and the right-hand
+    /// side by colour (8 bytes per cell); on any other it keeps a reordered copy (24 more
+    /// bytes per cell, a longer set-up; README, performance table). Default `true`: set
+    /// `false` where memory or a one-off solve's set-up matters more than the time per
     /// iteration. `f64` hierarchies keep the natural order.
     pub fine_level_by_colour: bool,
 }
@@ -281,7 +284,9 @@ impl Default for MultigridSettings {
 /// also keeps its fine level by colour: each row's even cells, then its odd ones (the five
 /// coefficients and the cycle's right-hand side, 24 bytes per cell, the size of the `f32`
 /// copy it was built from plus 4; and `1/center` in that order instead of the natural
-/// one). A half-sweep then reads only its own colour's
+/// one). Built on a [`Banded5ByColour`](crate::Banded5ByColour), it reads the five
+/// coefficients from that operator instead, and has to be applied with it
+/// ([`check`](Preconditioner::check) says so otherwise). A half-sweep then reads only its own colour's
 /// coefficients and values, in one contiguous loop, where the natural order computes the
 /// whole row's product for every half-sweep; the results are the same bits. The smoothing
 /// uses the coefficients the hierarchy was built from (as the coarse levels always do).
@@ -326,7 +331,7 @@ pub struct Multigrid<T> {
     fine_inverse_centers: Vec<f32>,
     /// The fine level stored by colour (`colour.rs`): for an `f32` hierarchy on a grid of an
     /// even width, with at least one coarse level.
-    by_colour: Option<ByColour<T>>,
+    by_colour: Option<ColourLevel<T>>,
     /// Stopping rule for the standalone solver.
     pub options: SolveOptions,
     name: NameCache,
@@ -404,7 +409,7 @@ impl<T: Scalar> Multigrid<T> {
         let f32_cycle = std::mem::size_of::<T>() == std::mem::size_of::<f32>();
         let pieces = threads_for(&Threaded, grid.cells()).min(MAX_BANDS);
         let by_colour = (f32_cycle && settings.fine_level_by_colour && !levels.is_empty())
-            .then(|| ByColour::new(op, w, pieces, pieces > 1))
+            .then(|| ColourLevel::new(op, w, pieces, pieces > 1))
             .flatten();
         let mut fine_inverse_centers = Vec::new();
         if by_colour.is_none() {
@@ -506,7 +511,7 @@ impl<T: Scalar> Multigrid<T> {
         self.levels.iter().map(Level::bytes).sum::<usize>() // local: bytes held by the levels
             + self.row_buffer.len() * std::mem::size_of::<T>()
             + self.fine_inverse_centers.len() * std::mem::size_of::<f32>()
-            + self.by_colour.as_ref().map_or(0, ByColour::bytes)
+            + self.by_colour.as_ref().map_or(0, ColourLevel::bytes)
             + self.direct.bytes()
     }
 
@@ -564,15 +569,20 @@ impl<T: Scalar> Multigrid<T> {
         let nu = self.settings.smoothing_sweeps;
         let bands = |cells: usize| threads_for(space, cells);
         if let Some(by_colour) = &mut self.by_colour {
+            // `check` refuses an operator without the arrays a hierarchy built on one needs.
+            if !by_colour.finds_arrays(fine) {
+                return;
+            }
             by_colour.set_rhs(r, &mut self.row_buffer, bands(n), bands(n) > 1);
         }
+        let by_colour = self.by_colour.as_ref().and_then(|level| level.view(fine));
         let buf = &mut self.row_buffer;
         let top = Rows {
             op: fine,
             inv: &self.fine_inverse_centers,
             b: r,
             stored: None,
-            by_colour: self.by_colour.as_ref(),
+            by_colour,
         };
         {
             let (transfer, coarse_b) = self.levels[0].transfer_and_rhs();
@@ -637,7 +647,7 @@ impl<T: Scalar> Multigrid<T> {
             &below.transfer(),
             &below.x,
         );
-        if let Some(by_colour) = &self.by_colour {
+        if let Some(by_colour) = by_colour {
             by_colour.to_natural(z, buf, bands(n), bands(n) > 1);
         }
     }
@@ -654,10 +664,22 @@ impl<T: Scalar> Preconditioner<T> for Multigrid<T> {
 
     /// `op` must be a [`Stencil5`] on the grid the hierarchy was built for.
     fn check(&self, op: &dyn LinearOperator<T>) -> Result<(), Error> {
-        if op.as_stencil().is_none() {
+        let Some(fine) = op.as_stencil() else {
             return Err(Error::needs_stencil("the multigrid V-cycle"));
+        };
+        check_built_for(self.grid, op)?;
+        if self
+            .by_colour
+            .as_ref()
+            .is_some_and(|l| !l.finds_arrays(fine))
+        {
+            return Err(Error::missing(
+                "the operator stored by colour",
+                "this hierarchy was built on a Banded5ByColour and reads its fine level there; \
+                 apply it with that operator",
+            ));
         }
-        check_built_for(self.grid, op)
+        Ok(())
     }
 
     fn name(&self) -> &'static str {

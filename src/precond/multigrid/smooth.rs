@@ -39,7 +39,7 @@ pub(crate) struct Rows<'a, T, R: ?Sized> {
     pub(crate) stored: Option<&'a [Coeffs5<T>]>,
     /// The fine level stored by colour (`colour.rs`): then `x` holds its rows by colour, and
     /// the operator, `1/center` and right-hand side come from there.
-    pub(crate) by_colour: Option<&'a ByColour<T>>,
+    pub(crate) by_colour: Option<ByColour<'a, T>>,
 }
 
 /// Which smoothing phase a pass runs.
