@@ -83,10 +83,10 @@ fn all_positive<T: Scalar>(v: &[T]) -> bool {
 }
 
 /// Rows of the five arrays being filled.
-type Piece<'a, T> = [&'a mut [T]; 5];
+pub(crate) type Piece<'a, T> = [&'a mut [T]; 5];
 
 /// `f(rows, piece)` on (at most) `pieces` pieces of whole rows (`nx` wide), side by side.
-fn in_pieces<T: Send>(
+pub(crate) fn in_pieces<T: Send>(
     piece: Piece<'_, T>,
     nx: usize,
     rows: Range<usize>,

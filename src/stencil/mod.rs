@@ -24,6 +24,7 @@ mod view;
 
 pub use banded::Banded5;
 pub use by_colour::Banded5ByColour;
+pub(crate) use by_colour::{in_pieces, Piece};
 pub use closure::ClosureStencil;
 pub use symmetric::Symmetric5;
 pub use validate::check_symmetry;

@@ -1,6 +1,9 @@
-//! The fine level of an `f32` cycle stored by colour: every row as its even columns, then its
+//! The levels of an `f32` cycle stored by colour: every row as its even columns, then its
 //! odd columns (operator, `1/center`, and the right-hand side of each cycle; the correction
-//! `x` in the same order during the cycle).
+//! `x` in the same order during the cycle). The fine level, and each smoothed coarse level of
+//! an even width: a coarse level's rows are reordered from its stored rows at set-up, its
+//! right-hand side as the cycle arrives, and its correction goes back to the natural order
+//! after its post-smoothing, for the level above to prolong from.
 //!
 //! The cells of one colour in row `j` are the columns of parity `(j + colour) % 2`, one half of
 //! the stored row. Their west and east neighbours are in the other half of the same row,
@@ -21,7 +24,8 @@ use super::level::narrow_one;
 use super::transfer::{widen, Transfer};
 use crate::blocks::join;
 use crate::operator::{row_neighbourhood, FixedCells, Stencil5};
-use crate::{Banded5ByColour, Scalar};
+use crate::stencil::{in_pieces, Piece};
+use crate::{Banded5ByColour, Coeffs5, Grid, Scalar};
 
 /// The fine level by colour (see the module notes): `1/center`, the right-hand side, and the
 /// operator's arrays unless the operator stores them by colour itself
@@ -160,6 +164,61 @@ impl<T: Scalar> ColourLevel<T> {
             }
         }
         Some(level)
+    }
+
+    /// A coarse level by colour: its stored `rows` (`grid`) and its `1/center`, each row
+    /// reordered (the same values), in up to `pieces` pieces of rows side by side; `None` for
+    /// an odd `nx`.
+    pub(crate) fn from_rows(
+        grid: Grid,
+        rows: &[Coeffs5<T>],
+        inverse_centers: &[f32],
+        pieces: usize,
+    ) -> Option<ColourLevel<T>> {
+        let (nx, ny) = (grid.nx(), grid.ny());
+        let n = nx * ny;
+        if nx % 2 == 1 || rows.len() != n || inverse_centers.len() != n {
+            return None;
+        }
+        let h = nx / 2;
+        let mut bands: [Vec<T>; 5] = std::array::from_fn(|_| vec![T::zero(); n]);
+        let fill = |range: Range<usize>, piece: Piece<'_, T>| {
+            let [cb, wb, eb, sb, nb] = piece;
+            let src = &rows[range.start * nx..range.end * nx];
+            for (r, row) in src.chunks_exact(nx).enumerate() {
+                for (i, c) in row.iter().enumerate() {
+                    let k = r * nx + (i % 2) * h + i / 2;
+                    (cb[k], wb[k], eb[k], sb[k], nb[k]) =
+                        (c.center, c.west, c.east, c.south, c.north);
+                }
+            }
+        };
+        let [c, w, e, s, no] = &mut bands;
+        in_pieces([c, w, e, s, no], nx, 0..ny, pieces, &fill);
+        let mut inv = vec![0.0f32; n];
+        let split = |range: Range<usize>, inv: &mut [f32], _: &mut [f32]| {
+            let src = &inverse_centers[range.start * nx..range.end * nx];
+            for (row, out) in src.chunks_exact(nx).zip(inv.chunks_exact_mut(nx)) {
+                split_row(row, out);
+            }
+        };
+        let mut scratch = vec![0.0f32; pieces.max(1) * nx];
+        in_row_pieces(
+            &mut inv,
+            &mut scratch,
+            nx,
+            0..ny,
+            pieces,
+            pieces > 1,
+            &split,
+        );
+        Some(ColourLevel {
+            nx,
+            ny,
+            own: Some(bands),
+            inv,
+            b: vec![T::zero(); n],
+        })
     }
 
     /// Bytes held.
@@ -570,22 +629,28 @@ mod tests {
     /// the natural order.
     #[test]
     fn cycles_by_colour_have_the_bits_of_the_natural_order() {
-        let op = operator(256, 150, 9);
-        let n = 256 * 150;
-        let mut g = Numbers(5);
-        let r: Vec<f32> = (0..n).map(|_| g.next() as f32 - 0.5).collect();
-        let mut mg = Multigrid::new(&op, MultigridSettings::default()).unwrap();
-        assert!(mg.by_colour());
-        let mut natural = mg.clone().without_colour_layout();
-        let mut reference = None;
-        for space in [&Serial as &dyn Space, &Threaded] {
-            let (mut z, mut z_natural) = (vec![0.0f32; n], vec![0.0f32; n]);
-            mg.cycle(&op, space, &r, &mut z);
-            natural.cycle(&op, space, &r, &mut z_natural);
-            assert!(bits(&z) == bits(&z_natural));
-            let z = bits(&z);
-            assert!(reference.get_or_insert_with(|| z.clone()) == &z);
+        // Coarse widths 128, 64, 32 (all by colour), and 260 → 130 → 65 (an odd level
+        // between levels by colour, which keeps the natural order), 6 to 2 bands of rows.
+        for (nx, ny, coloured) in [(256, 150, 3), (260, 1100, 1)] {
+            let op = operator(nx, ny, 9);
+            let n = nx * ny;
+            let mut g = Numbers(5);
+            let r: Vec<f32> = (0..n).map(|_| g.next() as f32 - 0.5).collect();
+            let mut mg = Multigrid::new(&op, MultigridSettings::default()).unwrap();
+            assert!(mg.by_colour());
+            assert_eq!(mg.coarse_by_colour.iter().flatten().count(), coloured);
+            let mut natural = mg.clone().without_colour_layout();
+            let mut reference = None;
+            for space in [&Serial as &dyn Space, &Threaded] {
+                let (mut z, mut z_natural) = (vec![0.0f32; n], vec![0.0f32; n]);
+                mg.cycle(&op, space, &r, &mut z);
+                natural.cycle(&op, space, &r, &mut z_natural);
+                assert!(bits(&z) == bits(&z_natural), "{nx} x {ny}");
+                let z = bits(&z);
+                assert!(reference.get_or_insert_with(|| z.clone()) == &z);
+            }
         }
+        let (op, n) = (operator(256, 150, 9), 256 * 150);
         // `1/center` by colour is the natural order's (0 at fixed cells, scaled by ω).
         let mg = Multigrid::new(&op, MultigridSettings::default()).unwrap();
         let omega = crate::precond::multigrid::SYMMETRIC_OMEGA as f32;

@@ -208,9 +208,11 @@ pub struct MultigridSettings {
     /// an operator stored by colour itself ([`Banded5ByColour`](crate::Banded5ByColour)) the
     /// hierarchy reads the coefficients there and keeps only `1/center` and the right-hand
     /// side by colour (8 bytes per cell); on any other it keeps a reordered copy (24 more
-    /// bytes per cell, a longer set-up; README, performance table). Default `true`: set
-    /// `false` where memory or a one-off solve's set-up matters more than the time per
-    /// iteration. `f64` hierarchies keep the natural order.
+    /// bytes per cell, a longer set-up; README, performance table). The smoothed coarse
+    /// levels of an even width are then kept by colour too (28 bytes per coarse cell, about
+    /// 9 per fine cell over all levels). Default `true`: set `false` where memory or a
+    /// one-off solve's set-up matters more than the time per iteration. `f64` hierarchies
+    /// keep the natural order.
     pub fine_level_by_colour: bool,
 }
 
@@ -332,6 +334,9 @@ pub struct Multigrid<T> {
     /// The fine level stored by colour (`colour.rs`): for an `f32` hierarchy on a grid of an
     /// even width, with at least one coarse level.
     by_colour: Option<ColourLevel<T>>,
+    /// The smoothed coarse levels by colour (`colour.rs`), one entry per level but the
+    /// coarsest: for an `f32` hierarchy stored by colour, on the levels of an even width.
+    coarse_by_colour: Vec<Option<ColourLevel<T>>>,
     /// Stopping rule for the standalone solver.
     pub options: SolveOptions,
     name: NameCache,
@@ -411,6 +416,19 @@ impl<T: Scalar> Multigrid<T> {
         let by_colour = (f32_cycle && settings.fine_level_by_colour && !levels.is_empty())
             .then(|| ColourLevel::new(op, w, pieces, pieces > 1))
             .flatten();
+        // The coarse levels the cycle smooths (all but the coarsest), reordered the same way.
+        let smoothed = levels.len().saturating_sub(1);
+        let coarse_by_colour = if by_colour.is_some() {
+            levels[..smoothed]
+                .iter()
+                .map(|l| {
+                    let pieces = threads_for(&Threaded, l.x.len()).min(MAX_BANDS);
+                    ColourLevel::from_rows(l.op.grid, &l.op.rows, &l.inverse_centers, pieces)
+                })
+                .collect()
+        } else {
+            Vec::new()
+        };
         let mut fine_inverse_centers = Vec::new();
         if by_colour.is_none() {
             // Row by row (no division of the cell index), in cell order: the centers of a row
@@ -443,6 +461,7 @@ impl<T: Scalar> Multigrid<T> {
             ],
             fine_inverse_centers,
             by_colour,
+            coarse_by_colour,
             options: SolveOptions::default(),
             name: NameCache::default(),
         })
@@ -512,6 +531,7 @@ impl<T: Scalar> Multigrid<T> {
             + self.row_buffer.len() * std::mem::size_of::<T>()
             + self.fine_inverse_centers.len() * std::mem::size_of::<f32>()
             + self.by_colour.as_ref().map_or(0, ColourLevel::bytes)
+            + self.coarse_by_colour.iter().flatten().map(ColourLevel::bytes).sum::<usize>() // local: bytes
             + self.direct.bytes()
     }
 
@@ -536,6 +556,7 @@ impl<T: Scalar> Multigrid<T> {
         if let Some(by_colour) = self.by_colour.take() {
             self.fine_inverse_centers = by_colour.natural_inverse();
         }
+        self.coarse_by_colour.clear();
         self
     }
 
@@ -594,14 +615,21 @@ impl<T: Scalar> Multigrid<T> {
             let (upper, lower) = self.levels.split_at_mut(l + 1);
             let here = &mut upper[l];
             let (transfer, coarse_b) = lower[0].transfer_and_rhs();
+            let k = here.x.len();
+            let colour = match self.coarse_by_colour.get_mut(l) {
+                Some(Some(level)) => {
+                    level.set_rhs(&here.b, buf, bands(k), bands(k) > 1);
+                    level.view(&here.op)
+                }
+                _ => None,
+            };
             let rows = Rows {
                 op: &here.op,
                 inv: &here.inverse_centers,
                 b: &here.b,
                 stored: Some(&here.op.rows),
-                by_colour: None,
+                by_colour: colour,
             };
-            let k = here.x.len();
             rows.pre_smooth_restrict(
                 &mut here.x,
                 buf,
@@ -619,12 +647,16 @@ impl<T: Scalar> Multigrid<T> {
             let (upper, lower) = self.levels.split_at_mut(l + 1);
             let here = &mut upper[l];
             let below = &lower[0];
+            let colour = self
+                .coarse_by_colour
+                .get(l)
+                .and_then(|level| level.as_ref()?.view(&here.op));
             let rows = Rows {
                 op: &here.op,
                 inv: &here.inverse_centers,
                 b: &here.b,
                 stored: Some(&here.op.rows),
-                by_colour: None,
+                by_colour: colour,
             };
             let k = here.x.len();
             rows.prolong_smooth(
@@ -636,6 +668,10 @@ impl<T: Scalar> Multigrid<T> {
                 &below.transfer(),
                 &below.x,
             );
+            // The level above prolongs from this correction in the natural order.
+            if let Some(colour) = colour {
+                colour.to_natural(&mut here.x, buf, bands(k), bands(k) > 1);
+            }
         }
         let below = &self.levels[0];
         top.prolong_smooth(
