@@ -39,9 +39,11 @@ pub const BYTES_VCYCLE_F32_PASSES: f64 = 84.0;
 /// correction put back in the natural order after them (read 4, write 4).
 pub const BYTES_VCYCLE_F32_FINE: f64 = BYTES_VCYCLE_F32_PASSES + 16.0;
 /// The coarse levels of that cycle per fine cell: the two passes plus the right-hand side
-/// written by the restriction (8, read-modify-write) per coarse cell, and a third as many
-/// coarse cells as fine ones over all levels.
-pub const BYTES_VCYCLE_F32_COARSE: f64 = (BYTES_VCYCLE_F32_PASSES + 8.0) / 3.0;
+/// written by the restriction (8, read-modify-write) per coarse cell, and as on the fine
+/// level the right-hand side put in the order by colour and the correction put back (16;
+/// levels of an odd width skip both, a few per cent of the coarse cells at 2000²), and a
+/// third as many coarse cells as fine ones over all levels.
+pub const BYTES_VCYCLE_F32_COARSE: f64 = (BYTES_VCYCLE_F32_PASSES + 8.0 + 16.0) / 3.0;
 /// The f64 part of one MG-PCG iteration with the V-cycle in f32 (`SinglePrecision` fuses its
 /// passes with PCG's, `precond/fused.rs`): `r·z` straight from the f32 `z` (8 + 4),
 /// `p = z + βp` from the f32 `z` (4 + 16), `q = A·p` with `p·q` (56), the `x`/`r` update with
