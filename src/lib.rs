@@ -162,12 +162,15 @@
 //! performance table gives the measured ratios (each kernel against a memory-bandwidth triad
 //! run beside it, ours against general-purpose alternatives) and the command that reproduces
 //! them. For speed on large grids put the multigrid V-cycle in `f32` inside the `f64` PCG
-//! ([`SinglePrecision`]); for least memory use [`Symmetric5`] storage. The V-cycle smooths
+//! ([`SinglePrecision`], on the `f32` copy [`Banded5ByColour`] that the cycle reads in
+//! place); for least memory use [`Symmetric5`] storage. The V-cycle smooths
 //! each level in two passes over its rows (all red-black sweeps of a phase travel down the
 //! grid together, fused with the grid transfers), in bands of rows side by side, one per
 //! thread; every cell gets the same arithmetic whatever the bands, so its result too is the
-//! same for any thread count. An `f32` cycle keeps its fine level by colour (red and black
-//! cells of a row apart, 24 more bytes per cell), so that each half-sweep is one contiguous loop.
+//! same for any thread count. An `f32` cycle keeps its levels by colour (red and black cells
+//! of a row apart), so that each half-sweep is one contiguous loop: the fine level in the
+//! [`Banded5ByColour`] it was built on (or in a reordered copy of any other operator, 24 more
+//! bytes per cell), the coarse levels in reordered copies of their rows.
 //!
 //! ## Feature flags
 //!
