@@ -82,6 +82,18 @@ fn all_positive<T: Scalar>(v: &[T]) -> bool {
     v.iter().fold(true, |all, &x| all & is_positive(x)) // local: a flag
 }
 
+/// The coefficients at index `k` of the five arrays (center, west, east, south, north).
+#[inline]
+fn coeffs_at<T: Copy>([c, w, e, s, n]: [&[T]; 5], k: usize) -> Coeffs5<T> {
+    Coeffs5 {
+        center: c[k],
+        west: w[k],
+        east: e[k],
+        south: s[k],
+        north: n[k],
+    }
+}
+
 /// Rows of the five arrays being filled.
 pub(crate) type Piece<'a, T> = [&'a mut [T]; 5];
 
@@ -246,15 +258,8 @@ impl<T: Scalar> Stencil5<T> for Banded5ByColour<T> {
     #[inline]
     fn coeffs(&self, i: usize, j: usize) -> Coeffs5<T> {
         let nx = self.grid.nx();
-        let k = j * nx + place(i, nx.div_ceil(2));
-        let [c, w, e, s, n] = &self.bands;
-        Coeffs5 {
-            center: c[k],
-            west: w[k],
-            east: e[k],
-            south: s[k],
-            north: n[k],
-        }
+        let bands = self.bands.each_ref().map(Vec::as_slice);
+        coeffs_at(bands, j * nx + place(i, nx.div_ceil(2)))
     }
 
     fn fixed(&self) -> Option<&FixedCells> {
@@ -269,19 +274,10 @@ impl<T: Scalar> Stencil5<T> for Banded5ByColour<T> {
         let (nx, ny) = (self.grid.nx(), self.grid.ny());
         let evens = nx.div_ceil(2);
         for (j, y_row) in rows.zip(y.chunks_exact_mut(nx)) {
-            let [c, w, e, s, n] = self.bands.each_ref().map(|band| &band[j * nx..][..nx]);
+            let bands = self.bands.each_ref().map(|band| &band[j * nx..][..nx]);
             let (south, row, north) = row_neighbourhood(x, first, nx, ny, j);
             row_product(
-                |i| {
-                    let k = place(i, evens);
-                    Coeffs5 {
-                        center: c[k],
-                        west: w[k],
-                        east: e[k],
-                        south: s[k],
-                        north: n[k],
-                    }
-                },
+                |i| coeffs_at(bands, place(i, evens)),
                 south,
                 row,
                 north,
