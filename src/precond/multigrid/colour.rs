@@ -27,14 +27,14 @@ use crate::operator::{row_neighbourhood, FixedCells, Stencil5};
 use crate::stencil::{in_pieces, Piece};
 use crate::{Banded5ByColour, Coeffs5, Grid, Scalar};
 
-/// The fine level by colour (see the module notes): `1/center`, the right-hand side, and the
-/// operator's arrays unless the operator stores them by colour itself
+/// A level by colour (see the module notes): `1/center`, the right-hand side, and the
+/// operator's arrays, unless the fine operator stores them by colour itself
 /// ([`Banded5ByColour`](crate::Banded5ByColour)), in which case the cycle reads them there.
 #[derive(Clone)]
 pub(crate) struct ColourLevel<T> {
     nx: usize,
     ny: usize,
-    /// Center, west, east, south, north coefficients, when the operator's are not by colour.
+    /// Center, west, east, south, north coefficients, unless the fine operator's are by colour.
     own: Option<[Vec<T>; 5]>,
     /// `1/center` (scaled by ω), 0 at fixed cells.
     inv: Vec<f32>,
@@ -43,7 +43,7 @@ pub(crate) struct ColourLevel<T> {
 }
 
 impl<T> std::fmt::Debug for ColourLevel<T> {
-    /// The layout only: the values are the fine operator's and `1/center`'s.
+    /// The layout only: the values are the level's operator's and `1/center`'s.
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
         let whose = if self.own.is_some() {
             "copy"
@@ -54,7 +54,7 @@ impl<T> std::fmt::Debug for ColourLevel<T> {
     }
 }
 
-/// What one cycle reads of the fine level by colour.
+/// What one cycle reads of a level by colour.
 #[derive(Clone, Copy)]
 pub(crate) struct ByColour<'a, T> {
     nx: usize,

@@ -287,11 +287,13 @@ impl Default for MultigridSettings {
 /// coefficients and the cycle's right-hand side, 24 bytes per cell, the size of the `f32`
 /// copy it was built from plus 4; and `1/center` in that order instead of the natural
 /// one). Built on a [`Banded5ByColour`](crate::Banded5ByColour), it reads the five
-/// coefficients from that operator instead, and has to be applied with it
-/// ([`check`](Preconditioner::check) says so otherwise). A half-sweep then reads only its own colour's
-/// coefficients and values, in one contiguous loop, where the natural order computes the
-/// whole row's product for every half-sweep; the results are the same bits. The smoothing
-/// uses the coefficients the hierarchy was built from (as the coarse levels always do).
+/// coefficients from the operator it is applied with instead, which must then be stored by
+/// colour too ([`check`](Preconditioner::check) says so otherwise). A half-sweep then reads
+/// only its own colour's coefficients and values, in one contiguous loop, where the natural
+/// order computes the whole row's product for every half-sweep; the results are the same
+/// bits. With a reordered copy the smoothing uses the coefficients the hierarchy was built
+/// from (as the coarse levels always do). The smoothed coarse levels of an even width are
+/// kept by colour the same way, in reordered copies of their rows.
 ///
 /// Each level is smoothed in two passes over its rows per cycle (all `ν` red-black sweeps
 /// travel down the grid together, the residual's restriction trailing them, the
