@@ -240,11 +240,6 @@ impl<T: Scalar> Banded5ByColour<T> {
         });
         Ok(copy)
     }
-
-    /// The five arrays by colour (center, west, east, south, north).
-    pub(crate) fn into_bands(self) -> [Vec<T>; 5] {
-        self.bands
-    }
 }
 
 /// At most this many pieces of rows are filled side by side.

@@ -25,7 +25,7 @@ use super::transfer::{widen, Transfer};
 use crate::blocks::join;
 use crate::operator::{row_neighbourhood, FixedCells, Stencil5};
 use crate::stencil::{in_pieces, Piece};
-use crate::{Banded5ByColour, Coeffs5, Grid, Scalar};
+use crate::{Coeffs5, Grid, Scalar};
 
 /// A level by colour (see the module notes): `1/center`, the right-hand side, and the
 /// operator's arrays, unless the fine operator stores them by colour itself
@@ -113,6 +113,31 @@ fn in_row_pieces<U: Send, S: Send>(
     );
 }
 
+/// The five arrays of an `nx × ny` operator with coefficients `coeffs(i, j)`, each row
+/// reordered by colour (`nx` even), in up to `pieces` pieces of rows side by side.
+fn reordered<T: Scalar>(
+    nx: usize,
+    ny: usize,
+    pieces: usize,
+    coeffs: &(impl Fn(usize, usize) -> Coeffs5<T> + Sync),
+) -> [Vec<T>; 5] {
+    let h = nx / 2;
+    let mut bands: [Vec<T>; 5] = std::array::from_fn(|_| vec![T::zero(); nx * ny]);
+    let fill = |rows: Range<usize>, piece: Piece<'_, T>| {
+        let [cb, wb, eb, sb, nb] = piece;
+        for (r, j) in rows.enumerate() {
+            for i in 0..nx {
+                let c = coeffs(i, j);
+                let k = r * nx + (i % 2) * h + i / 2;
+                (cb[k], wb[k], eb[k], sb[k], nb[k]) = (c.center, c.west, c.east, c.south, c.north);
+            }
+        }
+    };
+    let [c, w, e, s, n] = &mut bands;
+    in_pieces([c, w, e, s, n], nx, 0..ny, pieces, &fill);
+    bands
+}
+
 impl<T: Scalar> ColourLevel<T> {
     /// The fine level of `op` by colour, `1/center` scaled by `omega` (0 at fixed cells), in
     /// up to `pieces` pieces of rows side by side when `parallel`; `None` for an odd `nx`.
@@ -131,7 +156,7 @@ impl<T: Scalar> ColourLevel<T> {
         let n = nx * ny;
         let own = match op.bands_by_colour() {
             Some(_) => None,
-            None => Some(Banded5ByColour::<T>::from_stencil(op).ok()?.into_bands()),
+            None => Some(reordered(nx, ny, pieces, &|i, j| op.coeffs(i, j))),
         };
         let mut level = ColourLevel {
             nx,
@@ -180,21 +205,7 @@ impl<T: Scalar> ColourLevel<T> {
         if nx % 2 == 1 || rows.len() != n || inverse_centers.len() != n {
             return None;
         }
-        let h = nx / 2;
-        let mut bands: [Vec<T>; 5] = std::array::from_fn(|_| vec![T::zero(); n]);
-        let fill = |range: Range<usize>, piece: Piece<'_, T>| {
-            let [cb, wb, eb, sb, nb] = piece;
-            let src = &rows[range.start * nx..range.end * nx];
-            for (r, row) in src.chunks_exact(nx).enumerate() {
-                for (i, c) in row.iter().enumerate() {
-                    let k = r * nx + (i % 2) * h + i / 2;
-                    (cb[k], wb[k], eb[k], sb[k], nb[k]) =
-                        (c.center, c.west, c.east, c.south, c.north);
-                }
-            }
-        };
-        let [c, w, e, s, no] = &mut bands;
-        in_pieces([c, w, e, s, no], nx, 0..ny, pieces, &fill);
+        let bands = reordered(nx, ny, pieces, &|i, j| rows[i + nx * j]);
         let mut inv = vec![0.0f32; n];
         let split = |range: Range<usize>, inv: &mut [f32], _: &mut [f32]| {
             let src = &inverse_centers[range.start * nx..range.end * nx];
