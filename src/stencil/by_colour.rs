@@ -178,9 +178,8 @@ impl<T: Scalar> Banded5ByColour<T> {
                         (c.center, c.west, c.east, c.south, c.north);
                 }
                 let zero = T::zero();
-                clear &= [&*cr, &*wr, &*er, &*sr, &*nr]
-                    .iter()
-                    .all(|row| all_finite(row))
+                let read = [&cr[..], &wr[..], &er[..], &sr[..], &nr[..]];
+                clear &= read.iter().all(|row| all_finite(row))
                     && wr[0] == zero
                     && er[nx - 1] == zero
                     && (j > 0 || sr.iter().all(|&v| v == zero))
@@ -191,16 +190,7 @@ impl<T: Scalar> Banded5ByColour<T> {
                         nonpositive = i + nx * j;
                     }
                 }
-                vanish = vanish
-                    && (0..nx).all(|i| {
-                        row_sums_to_zero(Coeffs5 {
-                            center: cr[i],
-                            west: wr[i],
-                            east: er[i],
-                            south: sr[i],
-                            north: nr[i],
-                        })
-                    });
+                vanish = vanish && (0..nx).all(|i| row_sums_to_zero(coeffs_at(read, i)));
                 for (band, row) in piece.iter_mut().zip(&natural) {
                     split_by_colour(row, &mut band[r * nx..][..nx]);
                 }
