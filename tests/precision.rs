@@ -174,6 +174,22 @@ fn the_colour_copy_reports_coefficients_that_overflow() {
     assert_eq!(found.location().map(|at| at.cell), Some(5));
 }
 
+/// PCG on `op` from `p.x0` with the f32 multigrid cycle built on `single`: the solution and
+/// the report.
+fn single_precision_solve<S: Stencil5<f32>>(
+    single: S,
+    settings: MultigridSettings,
+    op: &Banded5<f64>,
+    p: &common::Problem,
+) -> (Vec<f64>, Report) {
+    let mg = Multigrid::new(&single, settings).unwrap();
+    let mut x = p.x0.clone();
+    let report = Pcg::new(SinglePrecision::new(single, mg))
+        .solve(op, &p.rhs, &mut x)
+        .unwrap();
+    (x, report)
+}
+
 #[test]
 fn single_precision_multigrid_on_the_colour_copy_gives_the_bits_of_the_cast() {
     // The hierarchy and the cycle read the colour copy's coefficients in place of the cast's:
@@ -198,22 +214,11 @@ fn single_precision_multigrid_on_the_colour_copy_gives_the_bits_of_the_cast() {
                     .build()
                     .unwrap();
                 let (x_cast, r_cast) = pool.install(|| {
-                    let single = op.cast::<f32>().unwrap();
-                    let mg = Multigrid::new(&single, settings).unwrap();
-                    let mut x = p.x0.clone();
-                    let r = Pcg::new(SinglePrecision::new(single, mg))
-                        .solve(&op, &p.rhs, &mut x)
-                        .unwrap();
-                    (x, r)
+                    single_precision_solve(op.cast::<f32>().unwrap(), settings, &op, &p)
                 });
                 let (x_colour, r_colour) = pool.install(|| {
                     let single = Banded5ByColour::<f32>::from_stencil(&op).unwrap();
-                    let mg = Multigrid::new(&single, settings).unwrap();
-                    let mut x = p.x0.clone();
-                    let r = Pcg::new(SinglePrecision::new(single, mg))
-                        .solve(&op, &p.rhs, &mut x)
-                        .unwrap();
-                    (x, r)
+                    single_precision_solve(single, settings, &op, &p)
                 });
                 assert_eq!(r_cast.iterations, r_colour.iterations);
                 assert_eq!(
