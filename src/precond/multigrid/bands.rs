@@ -285,19 +285,19 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
             } => (Some((transfer, coarse_b, first)), None),
             Coarse::Prolong { transfer, coarse_x } => (None, Some((transfer, coarse_x))),
         };
-        let prolong = |x: &mut [T], buf: &mut [T], j: usize| {
+        let prolong = |x: &mut [T], j: usize| {
             if let Some((transfer, coarse_x)) = prolong_from {
-                self.prolong_row((transfer, inactive, coarse_x), x, lo, nx, j, buf);
+                self.prolong_row((transfer, inactive, coarse_x), x, lo, nx, j);
             }
         };
         if lo < hi {
-            prolong(x, buf, lo);
+            prolong(x, lo);
         }
         let at = |t: usize, back: usize| t.checked_sub(back).filter(|j| (lo..hi).contains(j));
         for t in lo..hi + 2 * sweeps {
             // The first sweep reads row t + 1 at this step.
             if t + 1 < hi {
-                prolong(x, buf, t + 1);
+                prolong(x, t + 1);
             }
             for s in 0..sweeps {
                 for (h, back) in [(2 * s + 1, 2 * s), (2 * s + 2, 2 * s + 1)] {

@@ -484,22 +484,17 @@ impl<'a, T: Scalar> ByColour<'a, T> {
         }
     }
 
-    /// `x += P·coarse_x` on row `j` of `x` (rows from `first` on), through `buf` (a row) in
-    /// the natural order.
+    /// `x += P·coarse_x` on row `j` of `x` (rows from `first` on), in place by colour.
     pub(crate) fn prolong_row(
         &self,
         (transfer, inactive, coarse_x): (&Transfer<'_>, Option<&FixedCells>, &[T]),
         x: &mut [T],
         first: usize,
         j: usize,
-        buf: &mut [T],
     ) {
         let nx = self.nx;
         let row = &mut x[(j - first) * nx..][..nx];
-        let buf = &mut buf[..nx];
-        join_row(row, buf);
-        transfer.prolong_row(j, 0..nx, buf, inactive, coarse_x);
-        split_row(buf, row);
+        transfer.prolong_row_by_colour(j, row, inactive, coarse_x);
     }
 }
 

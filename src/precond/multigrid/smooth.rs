@@ -129,7 +129,7 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
     }
 
     /// `x += P·coarse_x` on row `j` (`x` holding the rows from `first` on, `nx` wide), the
-    /// cells of `inactive` left out; `buf` (a row) may be overwritten.
+    /// cells of `inactive` left out.
     pub(super) fn prolong_row(
         &self,
         (transfer, inactive, coarse_x): (&Transfer<'_>, Option<&FixedCells>, &[T]),
@@ -137,10 +137,9 @@ impl<T: Scalar, R: Stencil5<T> + ?Sized + Sync> Rows<'_, T, R> {
         first: usize,
         nx: usize,
         j: usize,
-        buf: &mut [T],
     ) {
         if let Some(by_colour) = self.by_colour {
-            by_colour.prolong_row((transfer, inactive, coarse_x), x, first, j, buf);
+            by_colour.prolong_row((transfer, inactive, coarse_x), x, first, j);
             return;
         }
         let row = &mut x[(j - first) * nx..][..nx];

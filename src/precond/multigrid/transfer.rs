@@ -291,12 +291,108 @@ impl<'a> Transfer<'a> {
             if inactive.is_some_and(|f| f.contains(base + i)) {
                 continue;
             }
-            let mut e = T::zero();
-            for (kc, w) in self.cell::<T>(i, p, q, wx[i], wy[i]) {
-                e = e + w * coarse_x[kc];
-            }
-            x[i] = x[i] + e;
+            x[i] = x[i] + self.general_term(i, (p, q), (wx[i], wy[i]), coarse_x);
         }
+    }
+
+    /// [`prolong_row`](Self::prolong_row) on row `j` stored by colour (`row`: its even
+    /// columns, then its odd ones; an even width): each cell gets the same products and sums,
+    /// one colour's cells in a loop over contiguous entries, so no pass puts the row in the
+    /// natural order and back.
+    pub(crate) fn prolong_row_by_colour<T: Scalar>(
+        &self,
+        j: usize,
+        row: &mut [T],
+        inactive: Option<&FixedCells>,
+        coarse_x: &[T],
+    ) {
+        let (nx, h) = (row.len(), row.len() / 2);
+        debug_assert!(nx % 2 == 0, "a row by colour has an even width");
+        let base = j * nx;
+        let (p, q) = (
+            self.ay.parent(j) * self.ncx,
+            self.ay.neighbour(j) * self.ncx,
+        );
+        let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
+        let (own, nb) = (&coarse_x[p..], &coarse_x[q..]);
+        let interpolate = |wx: f32, wy: f32, own_p: T, own_q: T, nb_p: T, nb_q: T| {
+            let ((ux, wx), (uy, wy)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
+            T::zero() + ux * uy * own_p + wx * uy * own_q + ux * wy * nb_p + wx * wy * nb_q
+        };
+        let (evens, odds) = row.split_at_mut(h);
+        // As in `prolong_row`: cells 2 ≤ i < nx − 1 by the regular form, even i = 2m from
+        // the aggregates m and m − 1, odd i = 2m + 1 from m and m + 1.
+        let regular = 2..nx.saturating_sub(1).max(2);
+        let even = |evens: &mut [T], m: usize| {
+            let (i, v) = (2 * m, &mut evens[m]);
+            *v = *v + interpolate(wx[i], wy[i], own[m], own[m - 1], nb[m], nb[m - 1]);
+        };
+        let odd = |odds: &mut [T], m: usize| {
+            let (i, v) = (2 * m + 1, &mut odds[m]);
+            *v = *v + interpolate(wx[i], wy[i], own[m], own[m + 1], nb[m], nb[m + 1]);
+        };
+        for_active_runs(inactive, base, regular.clone(), |run| {
+            // The run's even cells are 2m for m in `e`, its odd ones 2m + 1 for m in `o`; the
+            // pairs (2m, 2m + 1) with m in both go through one loop over contiguous entries
+            // (a pair's weights read once), the one or two cells left at each end alone.
+            let e = run.start.div_ceil(2)..run.end.div_ceil(2);
+            let o = run.start / 2..run.end / 2;
+            let both = e.start.max(o.start)..e.end.min(o.end).max(e.start.max(o.start));
+            for m in (e.start..both.start).chain(both.end..e.end) {
+                even(evens, m);
+            }
+            for m in (o.start..both.start).chain(both.end..o.end) {
+                odd(odds, m);
+            }
+            let (m0, m1) = (both.start, both.end);
+            if m0 == m1 {
+                return;
+            }
+            let cells = evens[m0..m1]
+                .iter_mut()
+                .zip(&mut odds[m0..m1])
+                .zip(wx[2 * m0..2 * m1].chunks_exact(2))
+                .zip(wy[2 * m0..2 * m1].chunks_exact(2));
+            let (own3, nb3) = (neighbours(own, m0..m1), neighbours(nb, m0..m1));
+            for ((((ve, vo), wx), wy), (((&o0, &o1), &o2), ((&n0, &n1), &n2))) in
+                cells.zip(own3.zip(nb3))
+            {
+                *ve = *ve + interpolate(wx[0], wy[0], o1, o0, n1, n0);
+                *vo = *vo + interpolate(wx[1], wy[1], o1, o2, n1, n2);
+            }
+        });
+        let ends = if regular.is_empty() {
+            (0..nx).chain(0..0)
+        } else {
+            (0..regular.start).chain(regular.end..nx)
+        };
+        for i in ends {
+            if inactive.is_some_and(|f| f.contains(base + i)) {
+                continue;
+            }
+            let v = if i % 2 == 0 {
+                &mut evens[i / 2]
+            } else {
+                &mut odds[i / 2]
+            };
+            *v = *v + self.general_term(i, (p, q), (wx[i], wy[i]), coarse_x);
+        }
+    }
+
+    /// The prolongation's term at cell `i` of a row whose aggregates start at coarse cells
+    /// `p` and `q`, by the general form (any column, any aggregate).
+    fn general_term<T: Scalar>(
+        &self,
+        i: usize,
+        (p, q): (usize, usize),
+        (wx, wy): (f32, f32),
+        coarse_x: &[T],
+    ) -> T {
+        let mut e = T::zero();
+        for (kc, w) in self.cell::<T>(i, p, q, wx, wy) {
+            e = e + w * coarse_x[kc];
+        }
+        e
     }
 }
 
