@@ -247,11 +247,7 @@ impl<'a> Transfer<'a> {
         let regular = start..cols.end.min(nx.saturating_sub(1)).max(start);
         let (own, nb) = (&coarse_x[p..], &coarse_x[q..]);
         // Cell i: own[pi]·ux·uy + own[qi]·wx·uy + nb[pi]·ux·wy + nb[qi]·wx·wy, with
-        // pi = i/2 and qi = pi ∓ 1 for even and odd i, in that order after a zero.
-        let interpolate = |wx: f32, wy: f32, own_p: T, own_q: T, nb_p: T, nb_q: T| {
-            let ((ux, wx), (uy, wy)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
-            T::zero() + ux * uy * own_p + wx * uy * own_q + ux * wy * nb_p + wx * wy * nb_q
-        };
+        // pi = i/2 and qi = pi ∓ 1 for even and odd i (`interpolate`).
         let single = |x: &mut [T], i: usize| {
             let pi = i / 2;
             let qi = if i % 2 == 1 { pi + 1 } else { pi - 1 };
@@ -315,10 +311,6 @@ impl<'a> Transfer<'a> {
         );
         let (wx, wy) = (&self.wx[base..][..nx], &self.wy[base..][..nx]);
         let (own, nb) = (&coarse_x[p..], &coarse_x[q..]);
-        let interpolate = |wx: f32, wy: f32, own_p: T, own_q: T, nb_p: T, nb_q: T| {
-            let ((ux, wx), (uy, wy)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
-            T::zero() + ux * uy * own_p + wx * uy * own_q + ux * wy * nb_p + wx * wy * nb_q
-        };
         let (evens, odds) = row.split_at_mut(h);
         // As in `prolong_row`: cells 2 ≤ i < nx − 1 by the regular form, even i = 2m from
         // the aggregates m and m − 1, odd i = 2m + 1 from m and m + 1.
@@ -394,6 +386,16 @@ impl<'a> Transfer<'a> {
         }
         e
     }
+}
+
+/// The regular form of the prolongation's term at a cell with weights `wx`, `wy`, from its
+/// own aggregate `p` and the neighbouring one `q` in x, on its own coarse row (`own_…`) and the
+/// neighbouring one (`nb_…`): `own_p·ux·uy + own_q·wx·uy + nb_p·ux·wy + nb_q·wx·wy` after a
+/// zero, in that order (one function, so both row layouts have the same bits).
+#[inline(always)]
+fn interpolate<T: Scalar>(wx: f32, wy: f32, own_p: T, own_q: T, nb_p: T, nb_q: T) -> T {
+    let ((ux, wx), (uy, wy)) = (split::<T>(widen(wx)), split::<T>(widen(wy)));
+    T::zero() + ux * uy * own_p + wx * uy * own_q + ux * wy * nb_p + wx * wy * nb_q
 }
 
 /// `(c[m − 1], c[m], c[m + 1])` for `m` in `range` (which starts at 1 or later), from three
