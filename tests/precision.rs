@@ -232,6 +232,48 @@ fn single_precision_multigrid_on_the_colour_copy_gives_the_bits_of_the_cast() {
 }
 
 #[test]
+fn single_precision_multigrid_by_colour_gives_the_bits_of_the_natural_order() {
+    // The fine level by colour stores `r` in its order, smooths there and puts `z` back:
+    // cells of one colour do not couple in a 5-point stencil, so the order of a half-sweep's
+    // cells changes no value (the red-black ordering argument, common practice), and PCG
+    // must take the same steps as with the hierarchy in the natural order, bit for bit. The
+    // cycle-level test (`colour.rs`) compares one V-cycle; this one whole solves, where a
+    // change of layout anywhere in PCG's passes would show. Widths 34 (blocks of 481 rows,
+    // 16354 cells), 64, 130 and 32 (an odd coarse width below); 34 × 1000 runs on two
+    // threads.
+    for (nx, ny, seed) in [
+        (34usize, 1000usize, 10u64),
+        (64, 64, 11),
+        (130, 97, 12),
+        (32, 24, 13),
+    ] {
+        let p = random_sdd(nx, ny, seed, 0.05, false);
+        let op = p.banded();
+        for threads in [1, 2] {
+            let pool = rayon::ThreadPoolBuilder::new()
+                .num_threads(threads)
+                .build()
+                .unwrap();
+            let [(x_colour, r_colour), (x_natural, r_natural)] = [true, false].map(|by_colour| {
+                let settings = MultigridSettings {
+                    fine_level_by_colour: by_colour,
+                    ..MultigridSettings::default()
+                };
+                pool.install(|| {
+                    let single = Banded5ByColour::<f32>::from_stencil(&op).unwrap();
+                    single_precision_solve(single, settings, &op, &p)
+                })
+            });
+            let case = format!("{nx}x{ny} {threads} threads");
+            assert!(r_colour.converged(), "{case}");
+            assert_eq!(r_colour.iterations, r_natural.iterations, "{case}");
+            assert_eq!(bits(&r_colour.history), bits(&r_natural.history), "{case}");
+            assert_eq!(bits(&x_colour), bits(&x_natural), "{case}");
+        }
+    }
+}
+
+#[test]
 fn a_hierarchy_that_reads_the_colour_copy_needs_it() {
     // Built on the copy by colour, the cycle reads its fine coefficients from that copy; an
     // operator stored otherwise is refused before a solve rather than read as something else.
