@@ -200,7 +200,7 @@ fn single_precision_multigrid_gives_the_same_bits_on_every_copy_and_layout() {
     // hierarchy in the natural order, bit for bit (the cycle-level test in `colour.rs`
     // compares one V-cycle; here a change of layout anywhere in PCG's passes would show).
     // Serial and threaded, even and odd widths (34 × 1000: blocks of 481 rows, on two
-    // threads; 130 and 32 have an odd coarse width below), fixed cells.
+    // threads; 34 and 130 have an odd coarse width below), fixed cells.
     for (nx, ny, seed) in [
         (32usize, 24usize, 6u64),
         (31, 20, 7),
